@@ -1,0 +1,56 @@
+"""The columns hrstage adds to a catalogue: names, units, descriptions and UCDs.
+
+One table of truth for the classifier (which fills them), the catalogue writer (which attaches
+units / descriptions / UCDs) and the plot and report faces (which read them). UCDs come from
+the IVOA UCD1+ vocabulary where one fits; ``None`` where none does.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .stages import STAGES
+
+
+@dataclass(frozen=True)
+class OutputColumn:
+    name: str
+    dtype: str          # numpy dtype string ("f8", "i8", "U", "O" for text)
+    unit: str | None
+    description: str
+    ucd: str | None
+
+
+_COLUMNS = [
+    OutputColumn("stage", "U", None, "Evolutionary stage from the HR position (indicative)", "src.class"),
+    OutputColumn("stage_prob", "f8", None, "Probability of the assigned stage (Monte Carlo over the errors)", "stat.probability"),
+    *[
+        OutputColumn(f"prob_{s}", "f8", None, f"Probability that the star is {s.replace('_', ' ')}", "stat.probability")
+        for s in STAGES
+    ],
+    OutputColumn("mass_est", "f8", "solMass", "Initial-mass estimate from the stellar relations", "phys.mass"),
+    OutputColumn("mass_err", "f8", "solMass", "Uncertainty of mass_est (Monte Carlo spread)", "stat.error;phys.mass"),
+    OutputColumn("mass_method", "U", None, "How mass_est was obtained", "meta.code"),
+    OutputColumn("mass_ms_teff", "f8", "solMass", "Main-sequence mass implied by Teff", "phys.mass"),
+    OutputColumn("mass_ms_lum", "f8", "solMass", "Main-sequence mass implied by the luminosity", "phys.mass"),
+    OutputColumn("teff_used", "f8", "K", "Effective temperature used for the classification", "phys.temperature.effective"),
+    OutputColumn("logl_used", "f8", "dex(solLum)", "log10 luminosity used for the classification", "phys.luminosity"),
+    OutputColumn("logt_err", "f8", "dex", "1-sigma error of log10 Teff", "stat.error;phys.temperature.effective"),
+    OutputColumn("logl_err", "f8", "dex", "1-sigma error of log10 L", "stat.error;phys.luminosity"),
+    OutputColumn("logt_logl_corr", "f8", None, "Correlation coefficient of the log Teff and log L errors", "stat.correlation"),
+    OutputColumn("hr_source", "U", None, "Where Teff and L came from (input path and relations used)", "meta.note"),
+    OutputColumn("feh_used", "f8", None, "[Fe/H] used for the stage map", "phys.abund.Z"),
+    OutputColumn("flags", "i8", None, "Flag bits (see hrstage.flags)", "meta.code.qual"),
+    OutputColumn("flag_text", "U", None, "Readable reasons behind the flags, with the numbers", "meta.note"),
+    # MK spectral-type check (layer 4); present only when an MK type column is given
+    OutputColumn("sptype_parsed", "U", None, "Normalised reading of the catalogued MK type", "src.spType"),
+    OutputColumn("sptype_lumclass", "U", None, "Luminosity class read from the MK type", "src.spType"),
+    OutputColumn("sptype_stage", "U", None, "Stage implied by the catalogued luminosity class", "src.class"),
+    OutputColumn("sptype_verdict", "U", None, "Consistency of the MK type with the HR position", "meta.code.qual"),
+    OutputColumn("sptype_suggested", "U", None, "Luminosity class the HR position suggests", "src.spType"),
+    OutputColumn("sptype_nsigma", "f8", None, "Disagreement in units of the calibration scatter", "stat.value"),
+]
+
+COLUMNS = {c.name: c for c in _COLUMNS}
+CLASSIFY_COLUMNS = tuple(c.name for c in _COLUMNS if not c.name.startswith("sptype_"))
+SPTYPE_COLUMNS = tuple(c.name for c in _COLUMNS if c.name.startswith("sptype_"))

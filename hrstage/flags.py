@@ -1,0 +1,68 @@
+"""Flag bits shared by every layer.
+
+Each star carries an integer ``flags`` column: the OR of the bits below. ``describe(bits)``
+turns a bit pattern into readable text; the layer that raises a flag usually also writes a
+specific reason (with numbers) into the reason column.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+# --- classification (layer 3) -------------------------------------------------------------
+COOL_BUT_MASSIVE = 1 << 0       #: cool star too luminous / too massive for a MS star of its Teff
+POSSIBLE_BINARY = 1 << 1        #: up to ~0.3 dex above the main sequence: unresolved binary?
+OUTSIDE_VALIDITY = 1 << 2       #: mass or metallicity outside the fits' validity range (clipped)
+NEAR_BOUNDARY = 1 << 3          #: within the uncertainty of a stage boundary
+METALLICITY_CLIPPED = 1 << 4    #: Z outside 1e-4..0.03, clipped to the nearest limit
+NO_METALLICITY = 1 << 5         #: no [Fe/H] given, solar assumed
+LOW_PROBABILITY = 1 << 6        #: best stage has probability < 0.6
+# --- derived inputs (layer 5) -------------------------------------------------------------
+LOW_PARALLAX_SNR = 1 << 8       #: parallax_over_error below the threshold: distance unreliable
+NONPOSITIVE_PARALLAX = 1 << 9   #: parallax <= 0: no distance, no luminosity
+COLOUR_OUT_OF_RANGE = 1 << 10   #: colour outside the colour-Teff relation's range (extrapolated/fallback)
+BC_FALLBACK = 1 << 11           #: bolometric correction outside its fit range, fallback used
+NO_EXTINCTION = 1 << 12         #: no extinction given, none applied
+LOGG_ITERATION = 1 << 13        #: log g -> L iteration did not converge
+# --- input problems (layer 6) -------------------------------------------------------------
+MISSING_INPUT = 1 << 16         #: a needed value is missing / masked / NaN
+BAD_INPUT = 1 << 17             #: a needed value is non-physical (negative L, sentinel, inf)
+# --- spectral type (layer 4) --------------------------------------------------------------
+SPTYPE_CONFLICT = 1 << 20       #: catalogued MK type conflicts with the HR position
+SPTYPE_UNPARSED = 1 << 21       #: MK type present but could not be parsed
+
+DESCRIPTIONS = {
+    COOL_BUT_MASSIVE: "cool but massive: too luminous or too massive for a main-sequence star of its Teff",
+    POSSIBLE_BINARY: "possible unresolved binary (just above the main sequence)",
+    OUTSIDE_VALIDITY: "outside the validity range of the stellar relations (extrapolated or clipped)",
+    NEAR_BOUNDARY: "near a stage boundary",
+    METALLICITY_CLIPPED: "metallicity outside 1e-4 <= Z <= 0.03, clipped",
+    NO_METALLICITY: "no [Fe/H]; solar metallicity assumed",
+    LOW_PROBABILITY: "label uncertain (best stage probability < 0.6)",
+    LOW_PARALLAX_SNR: "parallax signal-to-noise below threshold: luminosity unreliable",
+    NONPOSITIVE_PARALLAX: "zero or negative parallax: no distance, no luminosity",
+    COLOUR_OUT_OF_RANGE: "colour outside the calibrated range of the colour-Teff relation",
+    BC_FALLBACK: "bolometric correction outside its fit range; fallback relation used",
+    NO_EXTINCTION: "no extinction given; none applied",
+    LOGG_ITERATION: "log g to luminosity iteration did not converge",
+    MISSING_INPUT: "a required input is missing",
+    BAD_INPUT: "a required input is non-physical",
+    SPTYPE_CONFLICT: "catalogued spectral type conflicts with the HR position",
+    SPTYPE_UNPARSED: "catalogued spectral type could not be parsed",
+}
+
+ALL_BITS = tuple(DESCRIPTIONS)
+
+
+def describe(bits: int) -> str:
+    """Readable text for one flag value: the descriptions of its set bits, joined by '; '."""
+    bits = int(bits)
+    return "; ".join(text for bit, text in DESCRIPTIONS.items() if bits & bit)
+
+
+def describe_many(bits) -> np.ndarray:
+    """Vectorised :func:`describe` (works on the unique values only, so it is cheap)."""
+    bits = np.asarray(bits, dtype=np.int64)
+    uniq, inv = np.unique(bits, return_inverse=True)
+    texts = np.array([describe(b) for b in uniq], dtype=object)
+    return texts[inv.reshape(bits.shape)]

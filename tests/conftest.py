@@ -1,0 +1,57 @@
+"""Shared test fixtures.
+
+External validation data (third-party catalogues and model grids) live outside the repository;
+the tests find them through ``HRSTAGE_VALIDATION_DIR`` (set by ``.ci/run``). When it is unset, the
+tests that need them skip with a reason; when it is set but a file is missing, they fail.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import pytest
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+
+def _dir_from_env(var: str) -> Path | None:
+    value = os.environ.get(var)
+    if not value:
+        return None
+    return Path(value)
+
+
+@pytest.fixture(scope="session")
+def validation_dir() -> Path:
+    path = _dir_from_env("HRSTAGE_VALIDATION_DIR")
+    if path is None:
+        pytest.skip("HRSTAGE_VALIDATION_DIR is not set: external validation data not available")
+    if not path.is_dir():
+        pytest.fail(f"HRSTAGE_VALIDATION_DIR={path} is set but is not a directory")
+    return path
+
+
+@pytest.fixture(scope="session")
+def validation_file(validation_dir):
+    """Return a function name -> Path that fails the test if the file is missing."""
+
+    def get(name: str) -> Path:
+        p = validation_dir / name
+        if not p.is_file():
+            pytest.fail(f"validation file {name} missing from HRSTAGE_VALIDATION_DIR")
+        return p
+
+    return get
+
+
+@pytest.fixture(scope="session")
+def calibration_dir() -> Path:
+    path = _dir_from_env("HRSTAGE_CALIBRATION_DIR")
+    if path is None:
+        pytest.skip("HRSTAGE_CALIBRATION_DIR is not set: spectral-type calibration tables not available")
+    if not path.is_dir():
+        pytest.fail(f"HRSTAGE_CALIBRATION_DIR={path} is set but is not a directory")
+    return path
