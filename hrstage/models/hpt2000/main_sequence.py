@@ -242,7 +242,7 @@ def ms_luminosity_radius(m, z=0.02, t_myr=0.0) -> tuple[np.ndarray, np.ndarray]:
     -------
     L, R : ndarray
         Luminosity (Lsun) and radius (Rsun). At t = 0 they equal the Tout et al. (1996) ZAMS
-        (except below ~0.11 Msun, where the degenerate-radius floor of HPT2000 binds), at
+        (except the radius below about 0.13 Msun, where the degenerate-radius floor of HPT2000 binds), at
         t = t_MS they equal (L_TMS, R_TMS).
 
     Notes
