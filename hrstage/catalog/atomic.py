@@ -1,0 +1,107 @@
+"""Atomic output: write to a temporary file beside the target, rename when complete.
+
+A reader never sees a half-written catalogue: the data go to a hidden temporary file in the
+output's own folder (same file system, so the final rename is atomic) and only a complete file is
+moved into place. On any failure the temporary file is removed and nothing is left behind. An
+existing file is replaced only when ``overwrite=True``; an input file is never a valid output.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from pathlib import Path
+from typing import Iterable, Iterator
+
+from ..errors import HrstageInputError
+
+#: Marker in the names of our temporary files (tests look for leftovers with it).
+TEMP_MARK = ".hrstage-partial-"
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return a.exists() and b.exists() and os.path.samefile(a, b)
+    except OSError:
+        return False
+
+
+def check_output_path(path, *, overwrite: bool = False, inputs: Iterable = ()) -> Path:
+    """Validate an output path before any work is done.
+
+    Parameters
+    ----------
+    path : path-like
+        Where the output will go.
+    overwrite : bool, default False
+        Allow replacing an existing file.
+    inputs : iterable of path-like
+        Input files; the output may never be one of them (even with ``overwrite``).
+
+    Returns
+    -------
+    pathlib.Path
+
+    Raises
+    ------
+    HrstageInputError
+        If the output is an input, exists without ``overwrite``, is a folder, or its folder is
+        missing.
+    """
+    out = Path(path)
+    for inp in inputs:
+        inp = Path(inp)
+        if out.resolve() == inp.resolve() or _same_file(out, inp):
+            raise HrstageInputError(f"output {out} is the input file; choose another output name "
+                                    "(the input is never modified)")
+    if out.is_dir():
+        raise HrstageInputError(f"output {out} is a folder, expected a file name")
+    if not out.parent.exists() and str(out.parent) not in ("", "."):
+        raise HrstageInputError(f"folder of output {out} does not exist")
+    if out.exists() and not overwrite:
+        raise HrstageInputError(f"output {out} already exists; pass overwrite=True (--overwrite) to replace it")
+    return out
+
+
+@contextlib.contextmanager
+def atomic_output(path, *, overwrite: bool = False, inputs: Iterable = ()) -> Iterator[Path]:
+    """Context manager yielding a temporary path that becomes ``path`` on success.
+
+    The temporary file lives in the same folder and keeps the target's suffix (so writers that
+    choose the format from the suffix still work). If the body raises, the temporary file is
+    deleted and the exception propagates; the target is untouched.
+
+    Examples
+    --------
+    >>> with atomic_output("out.ecsv", overwrite=True) as tmp:   # doctest: +SKIP
+    ...     table.write(tmp, format="ascii.ecsv")
+    """
+    out = check_output_path(path, overwrite=overwrite, inputs=inputs)
+    folder = out.parent if str(out.parent) else Path(".")
+    suffix = "".join(out.suffixes) or ""
+    fd, tmp_name = tempfile.mkstemp(prefix="." + out.name + TEMP_MARK, suffix=suffix, dir=folder)
+    os.close(fd)
+    tmp = Path(tmp_name)
+    try:
+        yield tmp
+        if overwrite:
+            os.replace(tmp, out)
+        else:
+            # link + unlink refuses to replace a file that appeared while we were writing
+            try:
+                os.link(tmp, out)
+            except FileExistsError:
+                raise HrstageInputError(
+                    f"output {out} appeared while writing; pass overwrite=True (--overwrite) to replace it"
+                ) from None
+            except OSError:
+                if out.exists():
+                    raise HrstageInputError(f"output {out} already exists") from None
+                os.replace(tmp, out)
+            else:
+                tmp.unlink()
+    finally:
+        if tmp.exists():
+            with contextlib.suppress(OSError):
+                tmp.unlink()

@@ -1,0 +1,304 @@
+"""Reading and writing catalogues chunk by chunk, for files larger than memory.
+
+Reading (:func:`iter_chunks`), per input format:
+
+* **Parquet** — ``pyarrow.parquet.ParquetFile.iter_batches``: only one batch is in memory; a
+  batch never spans row groups, so chunks can be smaller than ``chunk_rows`` at group edges.
+* **CSV** — ``pyarrow.csv.open_csv`` streaming reader; the block size in bytes is set from
+  ``chunk_rows`` and the average line length of the first 64 KiB, so chunk lengths are close to,
+  not exactly, ``chunk_rows``. Column types are inferred from the first block: a column that turns
+  from integers to decimals later in the file is an error (one line, with the column).
+* **FITS** — the table extension is memory-mapped and sliced ``chunk_rows`` rows at a time; only
+  the pages touched are read.
+* **ECSV, VOTable** — these text formats cannot be parsed piecewise by astropy: the whole file is
+  read once, then handed out in slices (memory grows with the file; convert big catalogues to
+  Parquet or FITS first).
+
+Writing (:class:`ChunkWriter`), always into a temporary file in the output's folder, renamed when
+the last chunk is written (nothing is left behind on failure):
+
+* **Parquet** — ``pyarrow.parquet.ParquetWriter``, one row group per chunk; bounded memory;
+* **CSV** — ``pyarrow.csv.CSVWriter``, header once then rows; bounded memory;
+* **FITS, ECSV, VOTable** — chunks are kept and written at the end in one go: the output side is
+  *not* bounded in memory (FITS needs the final string widths in its header; the text formats
+  have no append mode in astropy). Use Parquet or CSV output for catalogues bigger than memory.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import warnings
+from pathlib import Path
+from typing import Iterator
+
+import numpy as np
+from astropy.table import Table, vstack
+
+from ..errors import HrstageInputError
+from .arrow import arrow_to_table, header_from_schema, table_to_arrow
+from .atomic import atomic_output
+from .formats import (_check_readable, csv_text, _fits_restore, _one_line, _write_fits, csv_read_options,
+                      fits_table_hdu_index, format_of, read_table)
+
+DEFAULT_CHUNK_ROWS = 200_000
+
+
+def count_rows(path, format: str | None = None) -> int | None:
+    """Number of rows without reading the data (Parquet, FITS); ``None`` when unknown (CSV...)."""
+    path = Path(path)
+    fmt = format_of(path, format)
+    try:
+        if fmt == "parquet":
+            import pyarrow.parquet as pq
+
+            return pq.ParquetFile(path).metadata.num_rows
+        if fmt == "fits":
+            from astropy.io import fits
+
+            return int(fits.getheader(path, fits_table_hdu_index(path)).get("NAXIS2", 0))
+    except HrstageInputError:
+        raise
+    except Exception:
+        return None
+    return None
+
+
+def _csv_block_size(path: Path, chunk_rows: int) -> int:
+    with open(path, "rb") as fh:
+        sample = fh.read(65536)
+    lines = max(sample.count(b"\n"), 1)
+    per_row = max(len(sample) / lines, 8.0)
+    return int(min(max(per_row * chunk_rows, 1 << 12), 1 << 30))
+
+
+def _iter_csv(path: Path, chunk_rows: int) -> Iterator[Table]:
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    read, parse, convert = csv_read_options(block_size=_csv_block_size(path, chunk_rows))
+    try:
+        reader = pacsv.open_csv(path, read_options=read, parse_options=parse, convert_options=convert)
+    except (pa.ArrowInvalid, pa.ArrowTypeError, UnicodeDecodeError) as exc:
+        raise HrstageInputError(f"cannot read CSV file {path.name}: {_one_line(exc)}") from None
+    if not reader.schema.names:
+        raise HrstageInputError(f"CSV file {path.name} has no columns")
+    rows_done = 0
+    while True:
+        try:
+            batch = reader.read_next_batch()
+        except StopIteration:
+            return
+        except (pa.ArrowInvalid, pa.ArrowTypeError, UnicodeDecodeError) as exc:
+            raise HrstageInputError(f"cannot read CSV file {path.name} after data row {rows_done}: "
+                                    f"{_one_line(exc)}") from None
+        rows_done += batch.num_rows
+        if batch.num_rows:
+            yield arrow_to_table(batch, {})
+
+
+def _iter_parquet(path: Path, chunk_rows: int) -> Iterator[Table]:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    try:
+        pf = pq.ParquetFile(path)
+        attrs = header_from_schema(pf.schema_arrow)
+        batches = pf.iter_batches(batch_size=chunk_rows)
+        if pf.metadata.num_rows == 0:
+            yield arrow_to_table(pf.schema_arrow.empty_table(), attrs)
+            return
+        for batch in batches:
+            yield arrow_to_table(batch, attrs)
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise HrstageInputError(f"cannot read Parquet file {path.name}: {_one_line(exc)}") from None
+
+
+def _iter_fits(path: Path, chunk_rows: int) -> Iterator[Table]:
+    from astropy.io import fits
+
+    try:
+        idx = fits_table_hdu_index(path)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            lazy = Table.read(path, format="fits", hdu=idx, memmap=True, mask_invalid=False,
+                              unit_parse_strict="silent")
+            header = fits.getheader(path, idx)
+        _fits_restore(lazy, header)
+        n = len(lazy)
+        if n:  # truncated data fail here, with a clear message
+            np.asarray(lazy[n - 1].as_void())
+    except HrstageInputError:
+        raise
+    except Exception as exc:
+        raise HrstageInputError(f"cannot read FITS file {path.name}: {_one_line(exc)} "
+                                "(truncated or not a FITS table?)") from None
+    if n == 0:
+        yield lazy.copy()
+        return
+    for start in range(0, n, chunk_rows):
+        chunk = lazy[start:start + chunk_rows].copy(copy_data=True)
+        chunk.convert_bytestring_to_unicode()
+        yield chunk
+
+
+def iter_chunks(path, chunk_rows: int = DEFAULT_CHUNK_ROWS, format: str | None = None) -> Iterator[Table]:
+    """Yield the catalogue as astropy Tables of about ``chunk_rows`` rows, in file order.
+
+    Parameters
+    ----------
+    path : path-like
+    chunk_rows : int
+        Target rows per chunk (peak memory scales with it for Parquet, CSV and FITS input).
+    format : str, optional
+        Default: from the suffix.
+
+    Raises
+    ------
+    HrstageInputError
+        Missing, empty or malformed file (also when the damage is found mid-file).
+    """
+    if int(chunk_rows) < 1:
+        raise HrstageInputError(f"chunk size must be a positive number of rows, got {chunk_rows}")
+    chunk_rows = int(chunk_rows)
+    path = Path(path)
+    fmt = format_of(path, format)
+    _check_readable(path)
+    if fmt == "parquet":
+        yield from _iter_parquet(path, chunk_rows)
+    elif fmt == "csv":
+        yield from _iter_csv(path, chunk_rows)
+    elif fmt == "fits":
+        yield from _iter_fits(path, chunk_rows)
+    else:
+        whole = read_table(path, fmt)
+        if len(whole) == 0:
+            yield whole
+        for start in range(0, len(whole), chunk_rows):
+            yield whole[start:start + chunk_rows]
+
+
+class ChunkWriter:
+    """Write a catalogue chunk by chunk into a temporary file, renamed on :meth:`close`.
+
+    Use as a context manager: on an exception inside the block the temporary file is removed and
+    the output path is left as it was.
+
+    Parameters
+    ----------
+    path : path-like
+        Final output; format from the suffix unless ``format`` is given.
+    overwrite : bool, default False
+        Replace an existing output (never an input).
+    inputs : iterable of path-like
+        Input files the output must not be.
+    """
+
+    def __init__(self, path, format: str | None = None, *, overwrite: bool = False, inputs=()):
+        self.path = Path(path)
+        self.format = format_of(self.path, format)
+        self._stack = contextlib.ExitStack()
+        self._tmp = self._stack.enter_context(atomic_output(self.path, overwrite=overwrite, inputs=inputs))
+        self._writer = None
+        self._schema = None
+        self._kept: list = []
+        self.rows = 0
+        self._closed = False
+
+    # -- arrow-based formats
+    def _arrow(self, chunk: Table):
+        import pyarrow as pa
+
+        data = table_to_arrow(chunk, with_meta=(self.format == "parquet"))
+        if self._schema is None:
+            return data
+        if data.schema.remove_metadata() != self._schema.remove_metadata():
+            try:
+                data = data.cast(self._schema)
+            except (pa.ArrowInvalid, pa.ArrowNotImplementedError, ValueError) as exc:
+                raise HrstageInputError(f"chunk at row {self.rows} does not match the columns of the first "
+                                        f"chunk: {_one_line(exc)}") from None
+        return data
+
+    def write(self, chunk: Table) -> None:
+        """Append one chunk (same columns and types as the first one)."""
+        if self._closed:
+            raise RuntimeError("writer already closed")
+        if self.format == "parquet":
+            import pyarrow.parquet as pq
+
+            data = self._arrow(chunk)
+            if self._writer is None:
+                self._schema = data.schema
+                self._writer = pq.ParquetWriter(self._tmp, self._schema)
+            self._writer.write_table(data)
+        elif self.format == "csv":
+            first = self._writer is None
+            if first:
+                self._writer = open(self._tmp, "w", encoding="utf-8", newline="")
+                self._names = list(chunk.colnames)
+            elif list(chunk.colnames) != self._names:
+                raise HrstageInputError(f"chunk at row {self.rows} does not have the columns of the first chunk")
+            self._writer.write(csv_text(chunk, header=first))
+        else:
+            self._kept.append(chunk)
+        self.rows += len(chunk)
+
+    def close(self) -> Path:
+        """Finish the file and move it into place; returns the output path."""
+        if self._closed:
+            return self.path
+        try:
+            if self.format in ("parquet", "csv"):
+                if self._writer is None:
+                    raise HrstageInputError("nothing to write: no chunk was produced")
+                self._writer.close()
+            else:
+                if not self._kept:
+                    raise HrstageInputError("nothing to write: no chunk was produced")
+                whole = self._kept[0] if len(self._kept) == 1 else vstack(self._kept, join_type="exact",
+                                                                          metadata_conflicts="silent")
+                self._kept = []
+                if self.format == "fits":
+                    _write_fits(whole, self._tmp)
+                elif self.format == "ecsv":
+                    whole.write(self._tmp, format="ascii.ecsv", overwrite=True)
+                else:
+                    with warnings.catch_warnings():
+                        warnings.simplefilter("ignore")
+                        whole.write(self._tmp, format="votable", overwrite=True)
+        except BaseException:
+            self.abort()
+            raise
+        self._closed = True
+        self._stack.close()          # rename into place
+        return self.path
+
+    def abort(self) -> None:
+        """Drop everything written so far (the temporary file is removed)."""
+        if self._closed:
+            return
+        self._closed = True
+        if self._writer is not None:
+            with contextlib.suppress(Exception):
+                self._writer.close()
+        self._kept = []
+        try:
+            raise _Abort()
+        except _Abort:
+            import sys
+
+            self._stack.__exit__(*sys.exc_info())
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is None:
+            self.close()
+        else:
+            self.abort()
+        return False
+
+
+class _Abort(Exception):
+    """Internal: tells the atomic-output context to discard the temporary file."""
