@@ -1,0 +1,524 @@
+"""The stage map of one metallicity: curves, stage regions, raster lookup, masses, export."""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import HrstageInputError
+from ..models import hpt2000 as hpt
+from ..models.metallicity import clip_z, feh_from_z, z_from_feh
+from ..stages import (
+    BRIGHT_GIANT,
+    CODE,
+    GIANT,
+    HOT_SUBDWARF,
+    LABELS,
+    MAIN_SEQUENCE,
+    STAGES,
+    SUBDWARF,
+    SUBGIANT,
+    SUPERGIANT,
+    UNCLASSIFIED,
+    WHITE_DWARF,
+)
+from ._loci import LOG_TSUN, Loci, logt_from_lr
+from ._params import StageParams
+from ._raster import Grid, Lookup, fill_polygon
+
+#: bit of a raw raster code: the cell is in the unresolved-binary band above the main sequence
+RAW_BINARY = 16
+#: bit of a raw raster code: main sequence extrapolated below 0.1 Msun (outside the fits)
+RAW_EXTRAPOLATED = 32
+#: mask of the stage code inside a raw raster code
+RAW_STAGE = 15
+
+#: lowest log Teff of the main-sequence extension below 0.1 Msun
+LOGT_MS_EXTENSION = 3.36
+
+#: mass-estimate method of each stage (index = stage code)
+MASS_METHODS = (
+    "ms_tracks",       # main sequence: interpolation between ZAMS and upper edge along mass tracks
+    "hg_tracks",       # subgiant: interpolation across the Hertzsprung gap along mass tracks
+    "giant_branch",    # giant: inversion of R_GB(M, L) (R_AGB above L_HeI) at the star's L
+    "giant_branch",    # bright giant: same
+    "supergiant_lum",  # supergiant: mean post-MS luminosity-mass relation
+    "wd_radius",       # white dwarf: HPT2000 eq 91 mass-radius relation
+    "none",            # subdwarf
+    "none",            # hot subdwarf
+    "none",            # unclassified
+)
+
+CITATIONS = (
+    "Tout C. A., Pols O. R., Eggleton P. P., Han Z., 1996, MNRAS 281, 257 (ZAMS)",
+    "Hurley J. R., Pols O. R., Tout C. A., 2000, MNRAS 315, 543 (TAMS, MS evolution, BGB, R_GB, "
+    "He ignition, AGB radius, core mass at the BAGB, white-dwarf radius)",
+    "Straizys V., Kuriliene G., 1981, Ap&SS 80, 353 (class II vs Ib luminosities: bright-giant band)",
+)
+
+
+@dataclass(frozen=True)
+class Curve:
+    """One locus: arrays of (log Teff, log L) and the initial mass of each point (NaN if none)."""
+
+    name: str
+    label: str
+    logt: np.ndarray
+    logl: np.ndarray
+    mass: np.ndarray
+
+
+def _interp_monotone(x, xp, fp, left=np.nan, right=np.nan):
+    xp = np.asarray(xp, float)
+    fp = np.asarray(fp, float)
+    ok = np.isfinite(xp) & np.isfinite(fp)
+    xp, fp = xp[ok], fp[ok]
+    o = np.argsort(xp, kind="stable")
+    return np.interp(x, xp[o], fp[o], left=left, right=right)
+
+
+def _invert_tracks(track_logt, track_logl, logm, row_logl, col_logt):
+    """Mass raster from tracks: each track is cut at each row's log L, masses interpolated in T.
+
+    Rows where fewer than two tracks reach the luminosity get NaN; along a row, cells beyond the
+    outermost tracks get the mass of the nearest one (clamped).
+    """
+    n_m = len(logm)
+    tcut = np.full((len(row_logl), n_m), np.nan)
+    for i in range(n_m):
+        tl, tt = track_logl[i], track_logt[i]
+        ok = np.isfinite(tl) & np.isfinite(tt)
+        if ok.sum() < 2:
+            continue
+        tl, tt = tl[ok], tt[ok]
+        if tl[-1] < tl[0]:
+            tl, tt = tl[::-1], tt[::-1]
+        tl = np.maximum.accumulate(tl)
+        tcut[:, i] = np.interp(row_logl, tl, tt, left=np.nan, right=np.nan)
+    out = np.full((len(row_logl), len(col_logt)), np.nan, dtype=np.float32)
+    for r in range(len(row_logl)):
+        ok = np.isfinite(tcut[r])
+        if ok.sum() < 2:
+            continue
+        tt, mm = tcut[r, ok], logm[ok]
+        o = np.argsort(tt, kind="stable")
+        out[r] = np.interp(col_logt, tt[o], mm[o])
+    return out
+
+
+class StageMap:
+    """Stage boundaries and regions in (log Teff, log L) for one metallicity.
+
+    Build through :func:`stage_map` (cached). Attributes: ``feh`` (the [Fe/H] asked for), ``z``
+    (the fits' Z actually used, clipped to 1e-4..0.03), ``z_clipped``, ``params``
+    (:class:`StageParams`), ``curves``, ``regions``, ``grid`` (raster extent and resolution),
+    ``m_hef``, ``m_fgb``, ``m_sg`` (supergiant mass), ``m_age`` (mass reaching its TAMS at
+    ``max_age_myr``).
+    """
+
+    grid = Grid()
+    #: the mass raster is coarser by these factors in log T and log L
+    mass_factor = (2, 4)
+
+    def __init__(self, feh: float = 0.0, params: StageParams | None = None):
+        self.params = params if params is not None else StageParams()
+        feh = float(feh)
+        if not np.isfinite(feh):
+            raise HrstageInputError(f"stage map: [Fe/H]={feh!r} is not a finite number")
+        zc, clipped = clip_z(z_from_feh(feh))
+        self.feh = feh
+        self.z = float(zc)
+        self.z_clipped = bool(clipped)
+        self.feh_used = float(feh_from_z(self.z))
+        self.loci = Loci(self.z, self.params)
+        L = self.loci
+        self.m_hef, self.m_fgb, self.m_sg, self.m_age = L.m_hef, L.m_fgb, L.m_sg, L.m_age
+        self._edges()
+        self._paint()
+        self._masses()
+        self._regions = None
+
+    # ------------------------------------------------------------------ construction
+    def _edges(self):
+        p, L, g = self.params, self.loci, self.grid
+        m = L.m
+        zt, zl = L.zams
+        ut, ul = L.ms_upper
+        # low-mass upper edge moved to the cool side (full below 0.45 Msun, none above 0.7)
+        w = np.clip(np.log10(0.7 / m) / np.log10(0.7 / 0.45), 0.0, 1.0)
+        ut = ut - p.ms_cool_logt * w
+        lower_t, lower_l = zt + p.ms_hot_logt, zl - p.ms_below_zams
+        # extension of both MS edges below 0.1 Msun, straight in (log T, log L)
+        k = 6
+        slope_z = np.polyfit(lower_t[:k], lower_l[:k], 1)[0]
+        slope_u = np.polyfit(ut[:k], ul[:k], 1)[0]
+        ext_t = np.linspace(LOGT_MS_EXTENSION, lower_t[0], 8)[:-1]
+        ext_tu = np.linspace(LOGT_MS_EXTENSION - p.ms_cool_logt, ut[0], 8)[:-1]
+        self._ms_lower = (np.r_[ext_t, lower_t], np.r_[lower_l[0] + slope_z * (ext_t - lower_t[0]), lower_l])
+        self._ms_top = (np.r_[ext_tu, ut], np.r_[ul[0] + slope_u * (ext_tu - ut[0]), ul])
+        self._logt_valid_min = float(zt[0])
+        # supergiant lower edge: the Hertzsprung-gap track of M_sg, then flat to the cool edge
+        ht, hl = L.hg_track(self.m_sg)
+        self._sg_lower = (np.r_[ht, g.t0 - 0.01], np.r_[hl, hl[-1]])
+        # white-dwarf band edges (constant radius lines)
+        r_hi = float(hpt.wd_radius(p.wd_mass_min))
+        r_lo = float(hpt.wd_radius(p.wd_mass_max))
+        self._wd_logr = (np.log10(r_lo), np.log10(r_hi))
+        self._logt_wd_min = float(np.log10(p.wd_teff_min))
+
+    def wd_edge(self, logt, which: str):
+        """log L of the lower ('lower') or upper ('upper') edge of the white-dwarf band at logt."""
+        p = self.params
+        if which == "lower":
+            return 2 * self._wd_logr[0] + 4 * (np.asarray(logt) - LOG_TSUN) - p.wd_tolerance
+        return 2 * self._wd_logr[1] + 4 * (np.asarray(logt) - LOG_TSUN) + p.wd_tolerance
+
+    def ms_lower_at(self, logt):
+        """log L of the lower edge of the main-sequence band (ZAMS - ms_below_zams) at logt."""
+        t, l = self._ms_lower
+        return _interp_monotone(logt, t, l)
+
+    def _polygons(self):
+        """Painting order and polygons (later ones paint over earlier ones)."""
+        p, L, g = self.params, self.loci, self.grid
+        top = g.l1 + 0.1
+        cold = g.t0 - 0.01
+        hot = g.t1 + 0.01
+        polys = []
+        # subdwarfs and hot subdwarfs: under the MS lower edge
+        t_hsd = np.log10(np.asarray(p.hot_subdwarf_teff))
+        tt = np.linspace(LOGT_MS_EXTENSION, t_hsd[0], 120)
+        upper = self.ms_lower_at(tt)
+        lower = upper - p.subdwarf_depth
+        wd_up = np.where(tt >= self._logt_wd_min, self.wd_edge(tt, "upper"), -np.inf)
+        lower = np.maximum(lower, wd_up)
+        keep = lower < upper
+        polys.append((SUBDWARF, np.c_[np.r_[tt[keep], tt[keep][::-1]], np.r_[upper[keep], lower[keep][::-1]]]))
+        th = np.linspace(t_hsd[0], t_hsd[1], 40)
+        polys.append((HOT_SUBDWARF, np.c_[np.r_[th, th[::-1]], np.r_[self.ms_lower_at(th), self.wd_edge(th, "upper")[::-1]]]))
+        tw = np.array([self._logt_wd_min, hot])
+        polys.append((WHITE_DWARF, np.c_[np.r_[tw, tw[::-1]], np.r_[self.wd_edge(tw, "upper"), self.wd_edge(tw, "lower")[::-1]]]))
+        # giants: cooler than the end of the Hertzsprung gap, masses m_age .. M_sg
+        sel = (L.m >= L.m_age) & (L.m <= self.m_sg)
+        et, el = L.ehg[0][sel], L.ehg[1][sel]
+        polys.append((GIANT, np.c_[np.r_[cold, et, et[-1], cold], np.r_[el[0], el, top, top]]))
+        # subgiants: between the TAMS and the end of the gap, same masses
+        tt_, tl_ = L.tams[0][sel], L.tams[1][sel]
+        polys.append((SUBGIANT, np.c_[np.r_[tt_, et[::-1]], np.r_[tl_, el[::-1]]]))
+        # bright giants: a band under the supergiant lower edge
+        st, sl = self._sg_lower
+        polys.append((BRIGHT_GIANT, np.c_[np.r_[st, st[::-1]], np.r_[sl - p.bright_giant_width, sl[::-1]]]))
+        # supergiants: above the M_sg track, cooler than the TAMS of the more massive stars
+        hi = L.m >= self.m_sg
+        tat, tal = L.tams[0][hi], L.tams[1][hi]
+        polys.append((SUPERGIANT, np.c_[np.r_[st, cold, tat[-1], tat[::-1]], np.r_[sl, top, top, tal[::-1]]]))
+        # main sequence, then the binary band
+        lt_, ll_ = self._ms_lower
+        ut_, ul_ = self._ms_top
+        polys.append((MAIN_SEQUENCE, np.c_[np.r_[lt_, ut_[::-1]], np.r_[ll_, ul_[::-1]]]))
+        band = np.c_[np.r_[ut_, ut_[::-1]], np.r_[ul_, ul_[::-1] + p.binary_offset]]
+        polys.append(("binary", band))
+        return polys
+
+    def _paint(self):
+        g = self.grid
+        raw = np.full((g.ny, g.nx), UNCLASSIFIED, dtype=np.int8)
+        for code, poly in self._polygons():
+            mask = fill_polygon(poly, g)
+            if code == "binary":
+                mask &= (raw & RAW_STAGE) != MAIN_SEQUENCE
+                if self.params.binary_promote:
+                    raw[mask] |= RAW_BINARY
+                else:
+                    raw[mask] = MAIN_SEQUENCE | RAW_BINARY
+            else:
+                raw[mask] = code
+        # main sequence cooler than the ZAMS of 0.1 Msun: extrapolated
+        tc, _ = g.centres()
+        cool = tc < self._logt_valid_min
+        ms = (raw[:, cool] & RAW_STAGE) == MAIN_SEQUENCE
+        raw[:, cool] = np.where(ms, raw[:, cool] | RAW_EXTRAPOLATED, raw[:, cool])
+        self.raw = Lookup(raw, g, np.int8(UNCLASSIFIED))
+        self.codes = Lookup((raw & RAW_STAGE).astype(np.int8), g, np.int8(UNCLASSIFIED))
+
+    def _masses(self):
+        """Coarse raster of the mass estimate of each cell, by the method of its stage."""
+        L, g = self.loci, self.grid
+        fx, fy = self.mass_factor
+        cg = g.coarsen(fx, fy)
+        ct, cl = cg.centres()
+        codes = self.codes.values[fy // 2 :: fy, fx // 2 :: fx][: cg.ny, : cg.nx]
+        mass = np.full((cg.ny, cg.nx), np.nan, dtype=np.float32)
+        m = L.m
+        logm = np.log10(m)
+        # main sequence
+        tr_t, tr_l = L.ms_tracks(m)
+        ms_raster = _invert_tracks(tr_t, tr_l, logm, cl, ct)
+        # Hertzsprung gap
+        ev = L.evolved & (m < 0.999 * self.m_fgb)
+        hg_t, hg_l = L.hg_tracks(m[ev])
+        hg_raster = _invert_tracks(hg_t, hg_l, logm[ev], cl, ct)
+        # giant branch / AGB (masses below M_FGB have a giant branch)
+        gb = L.evolved & (m < 0.999 * self.m_fgb)
+        gt, gl = L.giant_tracks(m[gb], logl_max=min(g.l1, 5.5))
+        gb_raster = _invert_tracks(gt, gl, logm[gb], cl, ct)
+        # supergiants: mean post-MS luminosity -> mass (monotone part above M_HeF)
+        hi = (m >= self.m_hef) & np.isfinite(L.logl_post)
+        lp = np.maximum.accumulate(L.logl_post[hi])
+        sg_row = np.interp(cl, lp, logm[hi], left=np.nan, right=np.nan)
+        sg_raster = np.broadcast_to(sg_row[:, None], mass.shape)
+        # white dwarfs: radius from (T, L), then eq 91 inverted
+        mw = np.linspace(0.1, 1.43, 400)
+        rw = np.log10(hpt.wd_radius(mw))
+        logr = 0.5 * cl[:, None] - 2.0 * (ct[None, :] - LOG_TSUN)
+        wd_raster = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.nan)
+        for code, src in (
+            (MAIN_SEQUENCE, ms_raster),
+            (SUBGIANT, hg_raster),
+            (GIANT, gb_raster),
+            (BRIGHT_GIANT, gb_raster),
+            (SUPERGIANT, sg_raster),
+            (WHITE_DWARF, wd_raster),
+        ):
+            sel = codes == code
+            mass[sel] = src[sel]
+        # bright giants without a giant-branch solution: luminosity relation
+        fallback = (codes == BRIGHT_GIANT) & ~np.isfinite(mass)
+        mass[fallback] = sg_raster[fallback]
+        self.mass_grid = cg
+        self.mass_lookup = Lookup((10.0 ** mass).astype(np.float32), cg, np.float32(np.nan))
+        # 1-D relations along the ZAMS
+        self._zams_logt = L.zams[0]
+        self._zams_logl = L.zams[1]
+        self._logm = logm
+
+    # ------------------------------------------------------------------ public interface
+    def locate(self, logt, logl) -> np.ndarray:
+        """Stage codes (int8, ``hrstage.stages``) of positions; NaN/out-of-map -> unclassified."""
+        return self.codes(logt, logl)
+
+    def locate_raw(self, logt, logl) -> np.ndarray:
+        """Raw raster codes: stage code | RAW_BINARY | RAW_EXTRAPOLATED."""
+        return self.raw(logt, logl)
+
+    def mass_at(self, logt, logl) -> np.ndarray:
+        """Mass estimate (Msun) of the cell each position falls in, by its stage's method."""
+        return self.mass_lookup(logt, logl).astype(float)
+
+    def ms_mass_from_logt(self, logt) -> np.ndarray:
+        """ZAMS mass (Msun) of the same Teff (NaN outside the 0.1-100 Msun ZAMS)."""
+        return 10.0 ** _interp_monotone(logt, self._zams_logt, self._logm)
+
+    def ms_mass_from_logl(self, logl) -> np.ndarray:
+        """ZAMS mass (Msun) of the same luminosity (NaN outside the 0.1-100 Msun ZAMS)."""
+        return 10.0 ** _interp_monotone(logl, self._zams_logl, self._logm)
+
+    @functools.cached_property
+    def curves(self) -> dict:
+        """The loci and region edges as :class:`Curve` objects, keyed by name."""
+        L, p = self.loci, self.params
+        m = L.m
+        nan = np.full_like(m, np.nan)
+        ev = L.evolved
+        out = {}
+
+        def add(name, label, t, l, mass):
+            out[name] = Curve(name, label, np.asarray(t, float), np.asarray(l, float), np.asarray(mass, float))
+
+        add("zams", "ZAMS (Tout et al. 1996)", *L.zams, m)
+        lt, ll = self._ms_lower
+        add("ms_lower", f"Main-sequence lower edge (ZAMS - {p.ms_below_zams:g} dex, +{p.ms_hot_logt:g} dex in log T)", lt, ll,
+            np.r_[np.full(len(lt) - len(m), np.nan), m])
+        ut, ul = self._ms_top
+        mu = np.r_[np.full(len(ut) - len(m), np.nan), m]
+        add("ms_upper", f"Main-sequence upper edge (TAMS, or position at {p.max_age_myr / 1e3:g} Gyr)", ut, ul, mu)
+        add("binary_upper", f"Unresolved-binary band top (+{p.binary_offset:g} dex)", ut, ul + p.binary_offset, mu)
+        add("tams", "TAMS (HPT2000 eqs 8-9)", L.tams[0][ev], L.tams[1][ev], m[ev])
+        gb = ev & L.below_fgb
+        add("bgb", "Base of the giant branch (HPT2000 eqs 10, 46)", L.bgb[0][gb], L.bgb[1][gb], m[gb])
+        add("ehg", "End of the Hertzsprung gap", L.ehg[0][ev], L.ehg[1][ev], m[ev])
+        # He ignition with a NaN row at the M_FGB jump
+        ht, hl, hm = L.hei[0][ev], L.hei[1][ev], m[ev]
+        j = np.searchsorted(hm, self.m_fgb)
+        add("hei", "He ignition / giant-branch tip (HPT2000 eqs 49-50)",
+            np.insert(ht, j, np.nan), np.insert(hl, j, np.nan), np.insert(hm, j, np.nan))
+        add("giant_tip", "Giant-branch tip (He ignition below M_FGB)", ht[hm < self.m_fgb], hl[hm < self.m_fgb], hm[hm < self.m_fgb])
+        sub = ev & (m <= self.m_sg)
+        add("agb", "AGB radius (HPT2000 eq 74) at the He-ignition luminosity", L.agb[0][sub], L.agb[1][sub], m[sub])
+        st, sl = self._sg_lower
+        add("sg_lower", f"Supergiant lower edge (track of {self.m_sg:.2f} Msun)", st, sl, np.full_like(st, self.m_sg))
+        add("bg_lower", f"Bright-giant lower edge (-{p.bright_giant_width:g} dex)", st, sl - p.bright_giant_width,
+            np.full_like(st, self.m_sg))
+        tw = np.linspace(self._logt_wd_min, self.grid.t1, 50)
+        add("wd_min", f"White-dwarf band lower edge ({p.wd_mass_max:g} Msun, -{p.wd_tolerance:g} dex)",
+            tw, self.wd_edge(tw, "lower"), np.full_like(tw, p.wd_mass_max))
+        add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance:g} dex)",
+            tw, self.wd_edge(tw, "upper"), np.full_like(tw, p.wd_mass_min))
+        del nan
+        return out
+
+    @property
+    def regions(self) -> dict:
+        """Closed outlines (K, 2) in (log Teff, log L) of each stage's region, traced on the raster.
+
+        Traced from the same raster :meth:`locate` uses (at half its resolution), so what is drawn
+        is what is classified. Holes, if any, are listed in :attr:`region_holes`.
+        """
+        if self._regions is None:
+            self._trace()
+        return self._regions
+
+    @property
+    def region_holes(self) -> dict:
+        """Inner rings (holes) of the regions, same layout as :attr:`regions`."""
+        if self._regions is None:
+            self._trace()
+        return self._holes
+
+    def _trace(self):
+        import contourpy
+
+        g = self.grid
+        step = 2
+        codes = self.codes.values[::step, ::step]
+        tc, lc = g.centres()
+        tc, lc = tc[::step], lc[::step]
+        self._regions, self._holes = {}, {}
+        for name in STAGES:
+            if name == "unclassified":
+                continue
+            k = CODE[name]
+            z = np.zeros((codes.shape[0] + 2, codes.shape[1] + 2))
+            z[1:-1, 1:-1] = codes == k
+            x = np.r_[tc[0] - g.dt * step, tc, tc[-1] + g.dt * step]
+            y = np.r_[lc[0] - g.dl * step, lc, lc[-1] + g.dl * step]
+            gen = contourpy.contour_generator(x, y, z, fill_type="OuterOffset")
+            pts, offs = gen.filled(0.5, 1.5)
+            outer, holes = [], []
+            for p, o in zip(pts, offs):
+                rings = [p[o[i] : o[i + 1]] for i in range(len(o) - 1)]
+                outer.append(rings[0])
+                holes.extend(rings[1:])
+            self._regions[name] = outer
+            self._holes[name] = holes
+
+    def distance_to_boundaries(self, logt, logl, names=None) -> dict:
+        """Signed distances of positions to each curve.
+
+        Returns ``{name: (dlogl, dlogt)}``: ``dlogl`` is log L of the position minus that of the
+        nearest crossing of the curve with the vertical line through it (positive: above), and
+        ``dlogt`` the same along the horizontal line (positive: hotter); NaN where the curve does
+        not reach that Teff / L. Costs (stars x curve points): meant for explanations and small
+        sets, not whole catalogues.
+        """
+        logt = np.atleast_1d(np.asarray(logt, float))
+        logl = np.atleast_1d(np.asarray(logl, float))
+        out = {}
+        for name, c in self.curves.items():
+            if names is not None and name not in names:
+                continue
+            out[name] = (_cross(c.logt, c.logl, logt, logl), _cross(c.logl, c.logt, logl, logt))
+        return out
+
+    def to_table(self):
+        """All curves in long format (curve, mass, logt, logl) with metadata, as an astropy Table."""
+        from astropy.table import Table
+
+        rows = {"curve": [], "mass": [], "logt": [], "logl": []}
+        for name, c in self.curves.items():
+            ok = np.isfinite(c.logt) & np.isfinite(c.logl)
+            rows["curve"] += [name] * int(ok.sum())
+            rows["mass"].append(c.mass[ok])
+            rows["logt"].append(c.logt[ok])
+            rows["logl"].append(c.logl[ok])
+        t = Table(
+            {
+                "curve": np.array(rows["curve"], dtype=str),
+                "mass": np.concatenate(rows["mass"]),
+                "logt": np.concatenate(rows["logt"]),
+                "logl": np.concatenate(rows["logl"]),
+            }
+        )
+        t["mass"].unit = "solMass"
+        t["logt"].unit = "dex(K)"
+        t["logl"].unit = "dex(solLum)"
+        t["mass"].description = "Initial mass of the point (NaN for extrapolated points)"
+        t["logt"].description = "log10 effective temperature"
+        t["logl"].description = "log10 luminosity"
+        t.meta.update(
+            {
+                "feh": self.feh,
+                "z": self.z,
+                "z_clipped": self.z_clipped,
+                "m_hef": self.m_hef,
+                "m_fgb": self.m_fgb,
+                "supergiant_mass": self.m_sg,
+                "age_limit_mass": self.m_age,
+                "params": self.params.as_dict(),
+                "curve_labels": {n: c.label for n, c in self.curves.items()},
+                "citations": list(CITATIONS),
+                "note": "Indicative boundaries from analytic fits to single-star models; not a "
+                "substitute for a spectroscopic analysis.",
+            }
+        )
+        return t
+
+    def __repr__(self):
+        return (
+            f"StageMap(feh={self.feh:+.3f}, z={self.z:.5f}{' clipped' if self.z_clipped else ''}, "
+            f"M_sg={self.m_sg:.2f}, M_FGB={self.m_fgb:.2f}, age-limit mass={self.m_age:.3f})"
+        )
+
+
+def _cross(xc, yc, x, y):
+    """Signed y - y_curve at the crossing of the curve with the line X = x nearest to y."""
+    xa, xb = xc[:-1], xc[1:]
+    ya, yb = yc[:-1], yc[1:]
+    ok = np.isfinite(xa) & np.isfinite(xb) & np.isfinite(ya) & np.isfinite(yb) & (xa != xb)
+    xa, xb, ya, yb = xa[ok], xb[ok], ya[ok], yb[ok]
+    out = np.full(x.shape, np.nan)
+    for s in range(0, len(x), 2048):
+        xs, ys = x[s : s + 2048, None], y[s : s + 2048, None]
+        f = (xs - xa) / (xb - xa)
+        inside = (f >= 0) & (f <= 1)
+        yy = ya + f * (yb - ya)
+        d = np.where(inside, ys - yy, np.inf)
+        i = np.argmin(np.abs(d), axis=1)
+        best = d[np.arange(len(i)), i]
+        out[s : s + 2048] = np.where(np.isfinite(best), best, np.nan)
+    return out
+
+
+@functools.lru_cache(maxsize=24)
+def _cached(feh_key: float, params: StageParams) -> StageMap:
+    return StageMap(feh_key, params)
+
+
+def stage_map(feh: float = 0.0, **params) -> StageMap:
+    """The (cached) stage map for [Fe/H] ``feh`` (rounded to 0.001 dex) and stage parameters.
+
+    Parameters
+    ----------
+    feh : float
+        [Fe/H] in dex; Z = 0.02 x 10^feh in the fits' scale, clipped to 1e-4..0.03 (the map says
+        ``z_clipped``).
+    **params
+        Any field of :class:`StageParams`; or ``params=StageParams(...)``.
+    """
+    if "params" in params:
+        sp = params.pop("params")
+        if params:
+            raise HrstageInputError("stage_map: give either params=StageParams(...) or keywords, not both")
+        if not isinstance(sp, StageParams):
+            raise HrstageInputError("stage_map: params must be a StageParams")
+    else:
+        sp = StageParams.from_kwargs(**params)
+    try:
+        feh = float(feh)
+    except (TypeError, ValueError):
+        raise HrstageInputError(f"stage map: [Fe/H]={feh!r} is not a number") from None
+    if not np.isfinite(feh):
+        raise HrstageInputError(f"stage map: [Fe/H]={feh!r} is not a finite number")
+    return _cached(round(feh, 3), sp)

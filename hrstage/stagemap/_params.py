@@ -1,0 +1,133 @@
+"""Named tolerances of the stage map, with their defaults and the reasons for them."""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass, fields
+
+from ..errors import HrstageInputError
+
+
+@dataclass(frozen=True)
+class StageParams:
+    """Tolerances and choices that turn the model loci into stage regions.
+
+    Every value is a documented choice, not a fitted number; see ``docs/stagemap.md``.
+
+    Parameters
+    ----------
+    ms_below_zams : float, default 0.12
+        Depth (dex in log L) below the ZAMS still counted as main sequence. Covers the fit
+        accuracy of Tout et al. (1996) (a few per cent in L and R), a moderate metallicity error
+        and the zero-point mismatch between the fits' Z = 0.02 scale and modern solar models.
+    ms_hot_logt : float, default 0.025
+        Shift (dex in log Teff) of the lower main-sequence edge to the hot side of the ZAMS, where
+        the ZAMS is steep (O/B stars and M dwarfs) and a vertical tolerance alone is almost nil:
+        about 6 per cent in Teff, the usual Teff uncertainty of hot stars.
+    ms_cool_logt : float, default 0.10
+        Shift (dex in log Teff) of the upper main-sequence edge to the cool side for low masses
+        (full below 0.45 Msun, tapering to zero at 0.7 Msun in log M). The fits' low-mass ZAMS is
+        too hot: observed M1V-M4V dwarfs (Pecaut & Mamajek 2013) lie 0.02 dex and PARSEC v1.2S
+        0.1-0.2 Msun models up to 0.09 dex cooler at the same L. These masses do not evolve in a
+        Hubble time, so no other stage competes for the cells.
+    binary_offset : float, default 0.30
+        Height (dex) above the main-sequence upper edge of the unresolved-binary band: an
+        equal-mass pair is twice as bright (log 2 = 0.30, i.e. 0.75 mag) at the same colour.
+    binary_promote : bool, default False
+        False: stars in the binary band stay ``main_sequence`` and get the POSSIBLE_BINARY flag
+        (the design rule "flag, do not promote"). True: they keep the label of the region below
+        the band (usually subgiant) and are still flagged.
+    max_age_myr : float, default 13800
+        Age of the Universe (Myr). Masses whose main-sequence lifetime is longer get, as the
+        main-sequence upper edge, their position at this age instead of the TAMS; the subgiant
+        region starts at the mass that just reaches its TAMS at this age.
+    supergiant_mass : float or None, default None
+        Initial mass (Msun) from which post-main-sequence stars are supergiants. None: the
+        carbon-ignition mass of HPT2000 eq. 66 for the core mass ``supergiant_core_mass`` at the
+        base of the AGB, at the map's metallicity.
+    supergiant_core_mass : float, default 2.25
+        Core mass at the base of the AGB (Msun) that defines the default ``supergiant_mass``:
+        2.25 Msun is the HPT2000 split between ONe white dwarfs and core collapse, 8.2 Msun at
+        Z = 0.02 (log L about 3.9 at the TAMS), the usual "about 8 Msun" supergiant threshold.
+    bright_giant_width : float, default 0.8
+        Depth (dex) of the bright-giant band below the supergiant lower edge. Class II sits about
+        0.8 dex below class Ib at G5-M0 in the Straizys & Kuriliene (1981) calibration.
+    wd_mass_min, wd_mass_max : float, default 0.2, 1.35
+        Mass range (Msun) of the white-dwarf band, between the constant-radius lines of the
+        HPT2000 eq. 91 mass-radius relation.
+    wd_tolerance : float, default 0.25
+        Widening (dex in log L) of the white-dwarf band on both sides: eq. 91 is a zero-temperature
+        relation, hot and low-mass white dwarfs with hydrogen envelopes are larger.
+    wd_teff_min : float, default 4000
+        Coolest Teff (K) of the white-dwarf band (design: "Teff > ~4000 K").
+    subdwarf_depth : float, default 1.2
+        Depth (dex) below the lower main-sequence edge down to which cool stars are subdwarfs
+        (metal-poor dwarfs lie up to about 1 dex under the solar ZAMS at fixed Teff).
+    hot_subdwarf_teff : tuple of float, default (20000, 45000)
+        Teff range (K) of the hot-subdwarf box between the white-dwarf band and the ZAMS.
+    n_mass : int, default 360
+        Number of log-spaced masses (0.1-100 Msun) on which the loci are sampled; extra masses
+        are added around M_HeF, M_FGB, the supergiant mass and the age-limit mass.
+    """
+
+    ms_below_zams: float = 0.12
+    ms_hot_logt: float = 0.025
+    ms_cool_logt: float = 0.10
+    binary_offset: float = 0.30
+    binary_promote: bool = False
+    max_age_myr: float = 13800.0
+    supergiant_mass: float | None = None
+    supergiant_core_mass: float = 2.25
+    bright_giant_width: float = 0.8
+    wd_mass_min: float = 0.2
+    wd_mass_max: float = 1.35
+    wd_tolerance: float = 0.25
+    wd_teff_min: float = 4000.0
+    subdwarf_depth: float = 1.2
+    hot_subdwarf_teff: tuple = (20000.0, 45000.0)
+    n_mass: int = 360
+
+    def __post_init__(self):
+        checks = [
+            ("ms_below_zams", 0.0 <= self.ms_below_zams <= 1.0, "between 0 and 1 dex"),
+            ("ms_hot_logt", 0.0 <= self.ms_hot_logt <= 0.2, "between 0 and 0.2 dex"),
+            ("ms_cool_logt", 0.0 <= self.ms_cool_logt <= 0.3, "between 0 and 0.3 dex"),
+            ("binary_offset", 0.0 <= self.binary_offset <= 1.0, "between 0 and 1 dex"),
+            ("max_age_myr", 100.0 <= self.max_age_myr <= 2.0e4, "between 100 and 20000 Myr"),
+            ("supergiant_core_mass", 1.0 <= self.supergiant_core_mass <= 3.0, "between 1 and 3 Msun"),
+            ("bright_giant_width", 0.0 <= self.bright_giant_width <= 2.0, "between 0 and 2 dex"),
+            ("wd_mass_min", 0.1 <= self.wd_mass_min < self.wd_mass_max, "0.1 <= wd_mass_min < wd_mass_max"),
+            ("wd_mass_max", self.wd_mass_max <= 1.43, "at most 1.43 Msun (below the Chandrasekhar mass 1.44)"),
+            ("wd_tolerance", 0.0 <= self.wd_tolerance <= 1.0, "between 0 and 1 dex"),
+            ("wd_teff_min", 2000.0 <= self.wd_teff_min <= 20000.0, "between 2000 and 20000 K"),
+            ("subdwarf_depth", 0.0 <= self.subdwarf_depth <= 5.0, "between 0 and 5 dex"),
+            ("n_mass", 50 <= int(self.n_mass) <= 5000, "between 50 and 5000"),
+        ]
+        if self.supergiant_mass is not None:
+            checks.append(("supergiant_mass", 2.0 <= float(self.supergiant_mass) <= 60.0, "between 2 and 60 Msun"))
+        lo, hi = self.hot_subdwarf_teff
+        checks.append(("hot_subdwarf_teff", 8000.0 <= lo < hi <= 100000.0, "(low, high) with 8000 <= low < high <= 1e5 K"))
+        for name, ok, what in checks:
+            if not ok:
+                raise HrstageInputError(f"stage parameter {name}={getattr(self, name)!r}: expected {what}")
+        object.__setattr__(self, "hot_subdwarf_teff", (float(lo), float(hi)))
+
+    @classmethod
+    def names(cls) -> tuple[str, ...]:
+        """Names of all parameters."""
+        return tuple(f.name for f in fields(cls))
+
+    @classmethod
+    def from_kwargs(cls, **kwargs) -> "StageParams":
+        """Build from keyword arguments, with a one-line error for an unknown name."""
+        unknown = sorted(set(kwargs) - set(cls.names()))
+        if unknown:
+            raise HrstageInputError(
+                f"unknown stage parameter(s) {', '.join(unknown)}; known: {', '.join(cls.names())}"
+            )
+        return cls(**kwargs)
+
+    def as_dict(self) -> dict:
+        """Plain dict of the values (for table metadata)."""
+        d = asdict(self)
+        d["hot_subdwarf_teff"] = list(self.hot_subdwarf_teff)
+        return d
