@@ -1,0 +1,492 @@
+"""Photometry + parallax -> (Teff, L): the Gaia-style and Johnson-style paths.
+
+See ``docs/derive.md`` for the relations, the choice rules, fallbacks and the error model.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from astropy import units as u
+
+from .. import flags as F
+from ..errors import HrstageInputError
+from ..models import bolometric, casagrande2010, casagrande2021, flower_teff, mucciarelli2021, riello2021
+from . import extinction
+from ._constants import LN10, LOGG_SUN, TEFF_SUN
+from ._errors import Propagator, derivative
+from ._inputs import broadcast, check_values, error_or_zero, to_float
+from ._position import HRPosition
+
+#: log g split between the "dwarf" and "giant" branches of the colour relations
+#: (Casagrande et al. 2021 use 3.2 for their validity ranges; we use it for every Gaia relation).
+GAIA_LOGG_SPLIT = casagrande2021.LOGG_SPLIT
+#: log g above which a Johnson-path star counts as dwarf/subgiant (Casagrande 2010 applies).
+JOHNSON_DWARF_LOGG = 3.5
+#: Mass (Msun) assumed when estimating log g from (Teff, L) to pick a colour relation.
+ASSUMED_MASS = 1.0
+#: log g estimates above this are far below the main sequence (white-dwarf-like): flagged.
+LOGG_FAR_BELOW_MS = 6.0
+#: log g used when no luminosity is available to estimate one (dwarf assumed).
+DEFAULT_DWARF_LOGG = 4.4
+#: Johnson path: log L at or above which cool stars ((B-V)_0 >= 0.3) use Flower's supergiant branch.
+SUPERGIANT_LOGL = 4.0
+SUPERGIANT_MIN_BV = 0.3
+#: Johnson path: dwarfs redder than this in (B-V)_0 get Flower's Teff flagged COLOUR_OUT_OF_RANGE
+#: (B-V no longer tracks Teff for M dwarfs; supply V-Ks or a Teff).
+DWARF_MAX_BV_FLOWER = 1.40
+#: Offset bringing Flower's BC_V scale (M_bol,sun = 4.73) onto the IAU scale (4.74) of BC_G.
+_FLOWER_TO_IAU = bolometric.IAU_MBOL_SUN - bolometric.FLOWER_MBOL_SUN
+_N_ITER = 2  # log g estimate updates (then one final evaluation): converged to ~1 K
+
+
+# --------------------------------------------------------------------------------------------
+# shared pieces
+# --------------------------------------------------------------------------------------------
+
+def _parallax(plx, plx_err, zp, min_snr, flags):
+    """Corrected parallax, distance modulus term and flags (NaN where no distance)."""
+    plx_c = plx - zp
+    ok = check_values(flags, plx_c)
+    nonpos = ok & (plx_c <= 0)
+    flags |= np.where(nonpos, F.NONPOSITIVE_PARALLAX, 0)
+    good = ok & (plx_c > 0)
+    safe = np.where(good, plx_c, np.nan)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        snr = np.where(plx_err > 0, safe / plx_err, np.inf)
+    flags |= np.where(good & (snr < min_snr), F.LOW_PARALLAX_SNR, 0)
+    dist_pc = 1000.0 / safe
+    mu_term = 5.0 * np.log10(safe) - 10.0          # M = m + 5 log10(plx / mas) - 10
+    dlogl_dplx = -2.0 / (safe * LN10)
+    return safe, dist_pc, mu_term, dlogl_dplx, snr
+
+
+def _logg_estimate(teff, logl):
+    """log g from (Teff, L) for an assumed mass of :data:`ASSUMED_MASS` Msun (cgs)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return LOGG_SUN + np.log10(ASSUMED_MASS) + 4.0 * np.log10(teff / TEFF_SUN) - logl
+
+
+def _source_table(teff_labels, lum_labels, ext_labels):
+    table = [f"{t}; {l}; {e}" for t in teff_labels for l in lum_labels for e in ext_labels]
+    return np.array(table, dtype=object)
+
+
+def _finish(n, teff, logl, prop, flags, source, extra):
+    logt_err, logl_err, corr = prop.result()
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logt = np.log10(teff)
+    tbad = ~np.isfinite(teff)
+    lbad = ~np.isfinite(logl)
+    logt_err = np.where(tbad, np.nan, logt_err)
+    logl_err = np.where(lbad, np.nan, logl_err)
+    corr = np.where(tbad | lbad, np.nan, corr)
+    # no NaN without a flag: a row whose value is NaN but carries no derive/input flag gets MISSING_INPUT
+    reason = (F.MISSING_INPUT | F.BAD_INPUT | F.NONPOSITIVE_PARALLAX | F.COLOUR_OUT_OF_RANGE
+              | F.OUTSIDE_VALIDITY)
+    flags |= np.where((tbad | lbad) & ((flags & reason) == 0), F.MISSING_INPUT, 0)
+    return HRPosition(teff=teff, logt=logt, logl=logl, logt_err=logt_err, logl_err=logl_err,
+                      corr=corr, flags=flags.astype(np.int64), source=source, extra=extra)
+
+
+# --------------------------------------------------------------------------------------------
+# Gaia
+# --------------------------------------------------------------------------------------------
+
+def _gaia_bc(teff, c0):
+    """BC_G on the IAU scale: Andrae 2018 inside 3300-8000 K, else Flower BC_V - (G-V)(Riello)."""
+    bc = bolometric.bc_g_andrae(teff)
+    use_fb = ~np.isfinite(bc)
+    idx = np.flatnonzero(use_fb & np.isfinite(teff))   # evaluate the fallback only where needed
+    if idx.size:
+        bc[idx] = bolometric.bc_v_flower(teff[idx]) - riello2021.g_minus_v(c0[idx]) + _FLOWER_TO_IAU
+    return bc, use_fb
+
+
+def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=None, parallax_zp=0.0,
+              a_g=None, e_bp_rp=None, a_v=None, r_v=3.1, feh=None, logg=None, teff=None, teff_err=None,
+              min_parallax_snr=5.0, teff_relation="casagrande2021", gaia_release="dr3",
+              extinction_curve="G23") -> HRPosition:
+    """(Teff, L) from Gaia G, BP-RP and parallax.
+
+    Parameters
+    ----------
+    g, bp_rp : array_like or Quantity [mag]
+        Gaia G magnitude and BP-RP colour (observed, i.e. reddened).
+    parallax : array_like or Quantity [angle]
+        Parallax, mas if plain numbers. ``parallax - parallax_zp`` is used.
+    g_err, bp_rp_err, parallax_err : array_like, optional
+        1-sigma errors (default 0). ``parallax_err`` also sets the parallax signal-to-noise.
+    parallax_zp : float or array_like, default 0.0
+        Parallax zero-point offset (mas) subtracted from ``parallax`` (Gaia EDR3 parallaxes are
+        too small by a few hundredths of a mas; pass e.g. ``-0.017`` for the global offset, so that
+        corrected = parallax + 0.017).
+    a_g, e_bp_rp, a_v : array_like, optional
+        Extinction A_G, colour excess E(BP-RP) and/or A_V (mag). Whatever is given is used
+        directly; the rest follows from the extinction curve (:mod:`hrstage.derive.extinction`).
+        NaN in a row means "not known" for that row. No extinction at all: none applied and
+        NO_EXTINCTION flagged.
+    r_v : float, default 3.1
+        R_V of the extinction curve.
+    feh : array_like, optional
+        [Fe/H] for the colour relation (default 0).
+    logg : array_like, optional
+        log g (cgs) for the colour relation; where missing it is estimated (see Notes).
+    teff, teff_err : array_like or Quantity [K], optional
+        Teff to use instead of the colour relation where given (e.g. spectroscopic, or a white
+        dwarf's model Teff); the colour is then used only for the BC fallback.
+    min_parallax_snr : float, default 5.0
+        Parallax_over_error below which LOW_PARALLAX_SNR is flagged (the value is still given).
+    teff_relation : {"casagrande2021", "mucciarelli2021"}
+        Colour-Teff relation (default Casagrande et al. 2021).
+    gaia_release : {"dr3", "dr2"}
+        Photometry release, selects the Casagrande et al. 2021 coefficient set.
+    extinction_curve : {"G23", "F99"}
+        Extinction curve of dust_extinction.
+
+    Returns
+    -------
+    HRPosition
+
+    Notes
+    -----
+    Teff: (BP-RP)_0 through the chosen relation. Where log g is not given it is estimated from
+    (Teff, L) assuming 1 Msun, updated twice starting from 4.4 (the relations depend on log g by
+    only ~20-90 K per dex); rows without a luminosity keep log g = 4.4 (or 2.0 where the dwarf colour range is exceeded but the giant one is not). The estimated log g is
+    clipped to 0-5; estimates above 6 (far below the main sequence: white dwarfs) are flagged
+    OUTSIDE_VALIDITY because the colour relations do not apply there — supply ``teff``.
+    Outside the colour range: Teff NaN and COLOUR_OUT_OF_RANGE (with ``mucciarelli2021`` the
+    Casagrande 2021 relation is tried first as fallback).
+    L: -2.5 log L = M_G + BC_G - 4.74 (IAU 2015 B2) with BC_G of Andrae et al. 2018 inside
+    3300-8000 K; outside, BC_G = BC_V(Flower/Torres) - (G-V)(Riello et al. 2021, from (BP-RP)_0)
+    + 0.01 (the 4.73 -> 4.74 zero-point shift), flagged BC_FALLBACK.
+    """
+    if teff_relation not in ("casagrande2021", "mucciarelli2021"):
+        raise HrstageInputError(f"teff_relation must be 'casagrande2021' or 'mucciarelli2021', got {teff_relation!r}")
+    if gaia_release not in casagrande2021.RELEASES:
+        raise HrstageInputError(f"gaia_release must be one of {casagrande2021.RELEASES}, got {gaia_release!r}")
+    mas = u.mas
+    raw = {
+        "g": to_float(g, "g", u.mag), "bp_rp": to_float(bp_rp, "bp_rp", u.mag),
+        "plx": to_float(parallax, "parallax", mas), "g_err": to_float(g_err, "g_err", u.mag),
+        "bp_rp_err": to_float(bp_rp_err, "bp_rp_err", u.mag),
+        "plx_err": to_float(parallax_err, "parallax_err", mas),
+        "zp": to_float(parallax_zp, "parallax_zp", mas),
+        "a_g": to_float(a_g, "a_g", u.mag), "e_bp_rp": to_float(e_bp_rp, "e_bp_rp", u.mag),
+        "a_v": to_float(a_v, "a_v", u.mag), "feh": to_float(feh, "feh"), "logg": to_float(logg, "logg"),
+        "teff": to_float(teff, "teff", u.K), "teff_err": to_float(teff_err, "teff_err", u.K),
+    }
+    n, a = broadcast(raw)
+    flags = np.zeros(n, dtype=np.int64)
+    nan = np.full(n, np.nan)
+
+    gmag = a["g"]
+    colour = a["bp_rp"]
+    g_ok = check_values(flags, gmag)
+    colour_finite = np.isfinite(colour)
+    flags |= np.where(np.isinf(colour), F.BAD_INPUT, 0)
+    g_sig = error_or_zero(a["g_err"], n, flags, "g_err")
+    c_sig = error_or_zero(a["bp_rp_err"], n, flags, "bp_rp_err")
+    p_sig = error_or_zero(a["plx_err"], n, flags, "parallax_err")
+    t_sig_in = error_or_zero(a["teff_err"], n, flags, "teff_err")
+    feh_used = np.where(np.isfinite(a["feh"]), a["feh"], 0.0) if a["feh"] is not None else np.zeros(n)
+    teff_in = a["teff"] if a["teff"] is not None else nan.copy()
+    flags |= np.where(np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT, 0)
+    teff_given = np.isfinite(teff_in) & (teff_in > 0)
+
+    # --- extinction ---------------------------------------------------------------------------
+    ext_given = np.zeros(n, dtype=bool)
+    a_g_arr = np.zeros(n)
+    e_arr = np.zeros(n)
+    if any(a[k] is not None for k in ("a_g", "e_bp_rp", "a_v")):
+        k = extinction.coefficients(extinction_curve, r_v)
+        kg, kbr = k["G"], k["BP"] - k["RP"]
+        av = a["a_v"] if a["a_v"] is not None else nan.copy()
+        ag = a["a_g"] if a["a_g"] is not None else nan.copy()
+        ebr = a["e_bp_rp"] if a["e_bp_rp"] is not None else nan.copy()
+        # A_V where only one of the others is known
+        av_est = np.where(np.isfinite(av), av, np.where(np.isfinite(ag), ag / kg, ebr / kbr))
+        a_g_arr = np.where(np.isfinite(ag), ag, kg * av_est)
+        e_arr = np.where(np.isfinite(ebr), ebr, kbr * av_est)
+        ext_given = np.isfinite(a_g_arr) & np.isfinite(e_arr)
+        a_g_arr = np.where(ext_given, a_g_arr, 0.0)
+        e_arr = np.where(ext_given, e_arr, 0.0)
+        ext_label = f"ext: {extinction_curve} R_V={float(r_v):g}"
+    else:
+        ext_label = "ext: none"
+    flags |= np.where(ext_given, 0, F.NO_EXTINCTION)
+    c0 = np.where(colour_finite, colour - e_arr, np.nan)
+    g0 = np.where(g_ok, gmag - a_g_arr, np.nan)
+
+    # --- distance -----------------------------------------------------------------------------
+    plx_c, dist_pc, mu_term, dlogl_dplx, snr = _parallax(a["plx"], p_sig, a["zp"] if a["zp"] is not None else 0.0,
+                                                         min_parallax_snr, flags)
+    abs_g = g0 + mu_term
+
+    # --- Teff from colour, with the log g choice ----------------------------------------------
+    logg_in = a["logg"] if a["logg"] is not None else nan.copy()
+    logg_known = np.isfinite(logg_in)
+    c21 = casagrande2021
+    rel_kw = {"release": gaia_release}
+
+    def c21_teff(x, gg):
+        return c21.teff(x, np.clip(gg, *c21.LOGG_RANGE), feh_used, **rel_kw)
+
+    # starting log g: the input, else a dwarf; where the dwarf branch is out of range, a giant
+    gw = np.where(logg_known, logg_in, DEFAULT_DWARF_LOGG)
+    t_try = c21_teff(c0, gw)
+    gw = np.where(~logg_known & ~np.isfinite(t_try), 2.0, gw)
+    far_below = np.zeros(n, dtype=bool)
+    for _ in range(_N_ITER):
+        t_c = c21_teff(c0, gw)
+        t_for_l = np.where(teff_given, teff_in, t_c)
+        bc, _ = _gaia_bc(t_for_l, c0)
+        logl_iter = bolometric.logl_from_mbol(abs_g + bc, bolometric.IAU_MBOL_SUN)
+        g_est = _logg_estimate(t_c, logl_iter)
+        upd = ~logg_known & np.isfinite(g_est)
+        far_below = upd & (g_est > LOGG_FAR_BELOW_MS)
+        gw = np.where(upd, np.clip(g_est, *c21.LOGG_RANGE), gw)
+    gw_eval = np.clip(gw, *c21.LOGG_RANGE)
+
+    if teff_relation == "casagrande2021":
+        t_col = c21_teff(c0, gw_eval)
+        sig_cal = np.full(n, np.hypot(c21.SIGMA, c21.ZERO_POINT_SIGMA))
+        tcode = np.where(logg_known, 2, 3)
+
+        def t_of_c(x):
+            return c21_teff(x, gw_eval)
+    else:
+        giant = gw_eval <= GAIA_LOGG_SPLIT
+        t_d = mucciarelli2021.teff(c0, feh_used, kind="dwarf")
+        t_g = mucciarelli2021.teff(c0, feh_used, kind="giant")
+        t_m = np.where(giant, t_g, t_d)
+        t_c21 = c21_teff(c0, gw_eval)
+        fb = ~np.isfinite(t_m) & np.isfinite(t_c21)
+        t_col = np.where(fb, t_c21, t_m)
+        sig_cal = np.where(fb, np.hypot(c21.SIGMA, c21.ZERO_POINT_SIGMA),
+                           np.where(giant, mucciarelli2021.SIGMA["giant"], mucciarelli2021.SIGMA["dwarf"]))
+        tcode = np.where(fb, 6, np.where(giant, 5, 4))
+        flags |= np.where(fb & ~teff_given, F.COLOUR_OUT_OF_RANGE, 0)
+
+        def t_of_c(x):
+            td = mucciarelli2021.teff(x, feh_used, kind="dwarf")
+            tg = mucciarelli2021.teff(x, feh_used, kind="giant")
+            tm = np.where(giant, tg, td)
+            return np.where(fb, c21_teff(x, gw_eval), tm)
+
+    need_colour = ~teff_given
+    flags |= np.where(need_colour & ~colour_finite & ~np.isinf(colour), F.MISSING_INPUT, 0)
+    col_out = need_colour & colour_finite & ~np.isfinite(t_col)
+    flags |= np.where(col_out, F.COLOUR_OUT_OF_RANGE, 0)
+    flags |= np.where(need_colour & far_below & np.isfinite(t_col), F.OUTSIDE_VALIDITY, 0)
+    teff_out = np.where(teff_given, teff_in, t_col)
+    tcode = np.where(teff_given, 1, np.where(np.isfinite(teff_out), tcode, 0))
+
+    # --- bolometric correction and luminosity ------------------------------------------------
+    bc, use_fb = _gaia_bc(teff_out, c0)
+    t_ok = np.isfinite(teff_out)
+    fb_used = t_ok & use_fb & np.isfinite(bc)
+    flags |= np.where(fb_used, F.BC_FALLBACK, 0)
+    flags |= np.where(t_ok & ~np.isfinite(bc) & ~colour_finite, F.MISSING_INPUT, 0)
+    flags |= np.where(t_ok & ~np.isfinite(bc) & colour_finite, F.OUTSIDE_VALIDITY, 0)
+    logl = bolometric.logl_from_mbol(abs_g + bc, bolometric.IAU_MBOL_SUN)
+    lcode = np.where(np.isfinite(logl), np.where(fb_used, 2, 1), 0)
+    bc_sig = np.where(fb_used, riello2021.SIGMA, bolometric.bc_g_andrae_sigma(teff_out))
+    bc_sig = np.where(np.isfinite(bc_sig), bc_sig, 0.0)
+
+    # --- errors -------------------------------------------------------------------------------
+    def bc_of_t(t):
+        return _gaia_bc(t, c0)[0]
+
+    dbc_dt = derivative(bc_of_t, teff_out, 0.5)
+    dtdc = np.where(teff_given, 0.0, derivative(t_of_c, c0, 1e-3))
+    dgv_dc = np.where(fb_used, derivative(riello2021.g_minus_v, c0, 1e-3), 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        inv_tln = 1.0 / (teff_out * LN10)
+    prop = Propagator(n)
+    prop.add(g_sig, 0.0, -0.4)
+    prop.add(c_sig, dtdc * inv_tln, -0.4 * (dbc_dt * dtdc - dgv_dc))
+    prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
+    prop.add(p_sig, 0.0, dlogl_dplx)
+    prop.add(bc_sig, 0.0, -0.4)
+
+    rel_name = f"Casagrande+2021 {gaia_release.upper()}"
+    teff_labels = ["Teff: none", "Teff: input",
+                   f"Teff: {rel_name} (BP-RP)0, logg input",
+                   f"Teff: {rel_name} (BP-RP)0, logg est. (1 Msun)",
+                   "Teff: Mucciarelli+2021 dwarf (BP-RP)0",
+                   "Teff: Mucciarelli+2021 giant (BP-RP)0",
+                   f"Teff: {rel_name} (BP-RP)0 [fallback]"]
+    lum_labels = ["L: none", "L: G+BC_G(Andrae+2018)+parallax",
+                  "L: G+BC_V(Flower/Torres)-(G-V)(Riello+2021)+parallax [BC fallback]"]
+    table = _source_table(teff_labels, lum_labels, [ext_label])
+    source = table[tcode * len(lum_labels) + lcode]
+    extra = {
+        "distance_pc": dist_pc, "parallax_corrected": plx_c, "parallax_snr": np.where(np.isfinite(snr), snr, np.nan),
+        "abs_mag": abs_g, "bc": bc, "extinction": a_g_arr, "colour_excess": e_arr, "colour0": c0,
+        "logg_used": np.where(teff_given, np.nan, gw_eval), "feh_used": feh_used,
+    }
+    return _finish(n, teff_out, logl, prop, flags, source, extra)
+
+
+# --------------------------------------------------------------------------------------------
+# Johnson
+# --------------------------------------------------------------------------------------------
+
+def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=None, v_ks=None, v_ks_err=None,
+                 e_b_v=None, a_v=None, r_v=3.1, feh=None, teff=None, teff_err=None, parallax_zp=0.0,
+                 min_parallax_snr=5.0, extinction_curve="G23") -> HRPosition:
+    """(Teff, L) from Johnson V, B-V (and V-Ks) and parallax.
+
+    Parameters
+    ----------
+    v, b_v : array_like or Quantity [mag]
+        Johnson V and B-V (observed).
+    parallax : array_like or Quantity [angle]
+        Parallax (mas if plain numbers); ``parallax - parallax_zp`` is used.
+    v_err, b_v_err, parallax_err, v_ks_err : array_like, optional
+        1-sigma errors (default 0).
+    v_ks : array_like, optional
+        V - K_s (2MASS K_s), preferred for the Teff of dwarfs where inside its range.
+    e_b_v, a_v : array_like, optional
+        E(B-V) and/or A_V; A_V = R_V E(B-V) when only E(B-V) is given, E(B-V) from the curve when
+        only A_V is. None given: NO_EXTINCTION.
+    r_v : float, default 3.1
+    feh : array_like, optional
+        [Fe/H] (default 0) for Casagrande et al. 2010.
+    teff, teff_err : array_like or Quantity [K], optional
+        Teff to use where given instead of the colours.
+    parallax_zp, min_parallax_snr, extinction_curve
+        As in :func:`from_gaia`.
+
+    Returns
+    -------
+    HRPosition
+
+    Notes
+    -----
+    Dwarf or giant is decided from a first pass with Flower's Teff(B-V): log g estimated from
+    (Teff, L) for 1 Msun; log g >= 3.5 (or no luminosity) counts as dwarf/subgiant. Dwarfs take
+    Casagrande et al. 2010 V-Ks (25 K scatter) if inside its range, else its B-V (73 K), else
+    Flower. Giants take Flower's dwarf/giant branch; cool stars ((B-V)_0 >= 0.3) with log L >= 4
+    take Flower's supergiant branch. Dwarfs left with Flower's Teff at (B-V)_0 > 1.40 (M dwarfs, where
+    B-V saturates) are flagged COLOUR_OUT_OF_RANGE. L: -2.5 log L = M_V + BC_V(Flower/Torres) - 4.73.
+    """
+    mas = u.mas
+    raw = {
+        "v": to_float(v, "v", u.mag), "b_v": to_float(b_v, "b_v", u.mag), "plx": to_float(parallax, "parallax", mas),
+        "v_err": to_float(v_err, "v_err", u.mag), "b_v_err": to_float(b_v_err, "b_v_err", u.mag),
+        "plx_err": to_float(parallax_err, "parallax_err", mas), "v_ks": to_float(v_ks, "v_ks", u.mag),
+        "v_ks_err": to_float(v_ks_err, "v_ks_err", u.mag), "e_b_v": to_float(e_b_v, "e_b_v", u.mag),
+        "a_v": to_float(a_v, "a_v", u.mag), "feh": to_float(feh, "feh"), "teff": to_float(teff, "teff", u.K),
+        "teff_err": to_float(teff_err, "teff_err", u.K), "zp": to_float(parallax_zp, "parallax_zp", mas),
+    }
+    n, a = broadcast(raw)
+    flags = np.zeros(n, dtype=np.int64)
+    nan = np.full(n, np.nan)
+    vmag = a["v"]
+    v_ok = check_values(flags, vmag)
+    bv = a["b_v"]
+    bv_finite = np.isfinite(bv)
+    flags |= np.where(np.isinf(bv), F.BAD_INPUT, 0)
+    vks = a["v_ks"] if a["v_ks"] is not None else nan.copy()
+    v_sig = error_or_zero(a["v_err"], n, flags, "v_err")
+    bv_sig = error_or_zero(a["b_v_err"], n, flags, "b_v_err")
+    vks_sig = error_or_zero(a["v_ks_err"], n, flags, "v_ks_err")
+    p_sig = error_or_zero(a["plx_err"], n, flags, "parallax_err")
+    t_sig_in = error_or_zero(a["teff_err"], n, flags, "teff_err")
+    feh_used = np.where(np.isfinite(a["feh"]), a["feh"], 0.0) if a["feh"] is not None else np.zeros(n)
+    teff_in = a["teff"] if a["teff"] is not None else nan.copy()
+    flags |= np.where(np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT, 0)
+    teff_given = np.isfinite(teff_in) & (teff_in > 0)
+
+    # --- extinction ---------------------------------------------------------------------------
+    av_arr = np.zeros(n)
+    ebv_arr = np.zeros(n)
+    ext_given = np.zeros(n, dtype=bool)
+    k_ks = 0.0
+    if a["e_b_v"] is not None or a["a_v"] is not None:
+        k = extinction.coefficients(extinction_curve, r_v)
+        k_ks = k["Ks"]
+        ebv = a["e_b_v"] if a["e_b_v"] is not None else nan.copy()
+        av = a["a_v"] if a["a_v"] is not None else nan.copy()
+        av_arr = np.where(np.isfinite(av), av, float(r_v) * ebv)
+        ebv_arr = np.where(np.isfinite(ebv), ebv, (k["B"] - k["V"]) * av_arr)
+        ext_given = np.isfinite(av_arr) & np.isfinite(ebv_arr)
+        av_arr = np.where(ext_given, av_arr, 0.0)
+        ebv_arr = np.where(ext_given, ebv_arr, 0.0)
+        ext_label = f"ext: {extinction_curve} R_V={float(r_v):g}"
+    else:
+        ext_label = "ext: none"
+    flags |= np.where(ext_given, 0, F.NO_EXTINCTION)
+    bv0 = np.where(bv_finite, bv - ebv_arr, np.nan)
+    vks0 = vks - av_arr * (1.0 - k_ks)
+    v0 = np.where(v_ok, vmag - av_arr, np.nan)
+
+    plx_c, dist_pc, mu_term, dlogl_dplx, snr = _parallax(a["plx"], p_sig, a["zp"] if a["zp"] is not None else 0.0,
+                                                         min_parallax_snr, flags)
+    abs_v = v0 + mu_term
+
+    # --- first pass: dwarf or giant? ----------------------------------------------------------
+    t_fl = flower_teff.teff(bv0)
+    t_first = np.where(teff_given, teff_in, t_fl)
+    logl_first = bolometric.logl_from_mbol(abs_v + bolometric.bc_v_flower(t_first), bolometric.FLOWER_MBOL_SUN)
+    g_est = _logg_estimate(t_first, logl_first)
+    dwarf = ~np.isfinite(g_est) | (g_est >= JOHNSON_DWARF_LOGG)
+    far_below = np.isfinite(g_est) & (g_est > LOGG_FAR_BELOW_MS)
+    supergiant = ~dwarf & (logl_first >= SUPERGIANT_LOGL) & (bv0 >= SUPERGIANT_MIN_BV)
+
+    t_vks = casagrande2010.teff(vks0, feh_used, which="V-Ks")
+    t_c10bv = casagrande2010.teff(bv0, feh_used, which="B-V")
+    t_sg = flower_teff.teff(bv0, branch="supergiant")
+    use_vks = dwarf & np.isfinite(t_vks)
+    use_c10bv = dwarf & ~use_vks & np.isfinite(t_c10bv)
+    use_sg = supergiant & np.isfinite(t_sg)
+    # codes: 2 C10 V-Ks, 3 C10 B-V, 4 Flower dwarf/giant, 5 Flower supergiant
+    tcode = np.where(use_vks, 2, np.where(use_c10bv, 3, np.where(use_sg, 5, 4)))
+    t_col = np.select([tcode == 2, tcode == 3, tcode == 5], [t_vks, t_c10bv, t_sg], t_fl)
+    sig_cal = np.select([tcode == 2, tcode == 3], [casagrande2010.RELATIONS["V-Ks"].sigma,
+                                                   casagrande2010.RELATIONS["B-V"].sigma], flower_teff.SIGMA)
+
+    need_colour = ~teff_given
+    flags |= np.where(need_colour & ~bv_finite & ~np.isinf(bv) & ~np.isfinite(t_col), F.MISSING_INPUT, 0)
+    flags |= np.where(need_colour & bv_finite & ~np.isfinite(t_col), F.COLOUR_OUT_OF_RANGE, 0)
+    flags |= np.where(need_colour & far_below & np.isfinite(t_col), F.OUTSIDE_VALIDITY, 0)
+    # B-V saturates for M dwarfs: Flower's Teff of a dwarf redder than 1.40 is kept but flagged
+    flags |= np.where(need_colour & dwarf & (tcode == 4) & (bv0 > DWARF_MAX_BV_FLOWER), F.COLOUR_OUT_OF_RANGE, 0)
+    teff_out = np.where(teff_given, teff_in, t_col)
+    tcode = np.where(teff_given, 1, np.where(np.isfinite(teff_out), tcode, 0))
+
+    bc = bolometric.bc_v_flower(teff_out)
+    flags |= np.where(np.isfinite(teff_out) & ~np.isfinite(bc), F.OUTSIDE_VALIDITY, 0)
+    logl = bolometric.logl_from_mbol(abs_v + bc, bolometric.FLOWER_MBOL_SUN)
+    lcode = np.where(np.isfinite(logl), 1, 0)
+
+    # --- errors -------------------------------------------------------------------------------
+    dbc_dt = derivative(bolometric.bc_v_flower, teff_out, 0.5)
+    d_vks = derivative(lambda x: casagrande2010.teff(x, feh_used, which="V-Ks"), vks0, 1e-3)
+    d_c10 = derivative(lambda x: casagrande2010.teff(x, feh_used, which="B-V"), bv0, 1e-3)
+    d_fl = derivative(flower_teff.teff, bv0, 1e-3)
+    d_sg = derivative(lambda x: flower_teff.teff(x, branch="supergiant"), bv0, 1e-3)
+    dt_dbv = np.select([tcode == 3, tcode == 4, tcode == 5], [d_c10, d_fl, d_sg], 0.0)
+    dt_dvks = np.where(tcode == 2, d_vks, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        inv_tln = 1.0 / (teff_out * LN10)
+    prop = Propagator(n)
+    prop.add(v_sig, 0.0, -0.4)
+    prop.add(bv_sig, dt_dbv * inv_tln, -0.4 * dbc_dt * dt_dbv)
+    prop.add(vks_sig, dt_dvks * inv_tln, -0.4 * dbc_dt * dt_dvks)
+    prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
+    prop.add(p_sig, 0.0, dlogl_dplx)
+
+    teff_labels = ["Teff: none", "Teff: input", "Teff: Casagrande+2010 (V-Ks)0 dwarf",
+                   "Teff: Casagrande+2010 (B-V)0 dwarf", "Teff: Flower 1996 (B-V)0",
+                   "Teff: Flower 1996 supergiant (B-V)0"]
+    lum_labels = ["L: none", "L: V+BC_V(Flower/Torres, Mbol_sun=4.73)+parallax"]
+    table = _source_table(teff_labels, lum_labels, [ext_label])
+    source = table[tcode * len(lum_labels) + lcode]
+    extra = {
+        "distance_pc": dist_pc, "parallax_corrected": plx_c, "parallax_snr": np.where(np.isfinite(snr), snr, np.nan),
+        "abs_mag": abs_v, "bc": bc, "extinction": av_arr, "colour_excess": ebv_arr, "colour0": bv0,
+        "logg_estimate": g_est, "feh_used": feh_used,
+    }
+    return _finish(n, teff_out, logl, prop, flags, source, extra)
