@@ -120,14 +120,14 @@ def _read_fits(path: Path, hdu=None) -> Table:
     from astropy.io import fits
 
     try:
-        idx = fits_table_hdu_index(path) if hdu is None else hdu
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
+            idx = fits_table_hdu_index(path) if hdu is None else hdu
             tbl = Table.read(path, format="fits", hdu=idx, mask_invalid=False, unit_parse_strict="silent")
             header = fits.getheader(path, idx)
-        # touch the last row so that truncated data fail here, not later
-        if len(tbl):
-            np.asarray(tbl[len(tbl) - 1].as_void())
+            # touch the last row so that truncated data fail here, not later
+            if len(tbl):
+                np.asarray(tbl[len(tbl) - 1].as_void())
     except HrstageInputError:
         raise
     except Exception as exc:
@@ -272,7 +272,35 @@ def read_table(path, format: str | None = None, *, hdu: int | None = None) -> Ta
             tbl = Table.read(path, format=astropy_fmt)
     except Exception as exc:
         raise HrstageInputError(f"cannot read {fmt.upper()} file {path.name}: {_one_line(exc)}") from None
+    if fmt == "ecsv":
+        _ecsv_empty_text(tbl)
+    _repair_units(tbl)
     return tbl
+
+
+def _repair_units(tbl: Table) -> None:
+    """Units a format's own unit grammar did not know (VOUnit has no ``dex(solLum)``): parse the
+    same text with astropy's generic grammar; leave the unrecognised unit when that fails too."""
+    for name in tbl.colnames:
+        col = tbl[name]
+        if isinstance(col.unit, u.UnrecognizedUnit):
+            try:
+                col.unit = u.Unit(str(col.unit))
+            except ValueError:
+                pass
+
+
+def _ecsv_empty_text(tbl: Table) -> None:
+    """ECSV writes an empty string and a masked string alike (``""``) and astropy reads both as
+    masked; we read them as the empty string the file holds, so text columns come back as written.
+    """
+    from astropy.table import Column
+
+    for name in tbl.colnames:
+        col = tbl[name]
+        if col.dtype.kind in "US" and getattr(col, "mask", None) is not None and np.any(col.mask):
+            tbl[name] = Column(np.where(col.mask, "", np.ma.getdata(col)), name=name, unit=col.unit,
+                               description=col.description, meta=col.meta)
 
 
 def describe_columns(table: Table, names=None, prefix: str = "") -> Table:

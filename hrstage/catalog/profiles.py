@@ -91,16 +91,16 @@ ROUTES = {
 
 _COMMON = {
     "teff": ("teff", "t_eff", "tef", "teff_k", "teffk"),
-    "teff_err": ("teff_err", "e_teff", "teff_error", "sig_teff", "teff_sigma", "err_teff", "teff_unc"),
+    "teff_err": ("teff_err", "e_teff", "teff_error", "sig_teff", "teff_sigma", "err_teff", "teff_unc", "s_teff"),
     "logt": ("logt", "log_teff", "logteff", "log_t", "logte"),
     "logt_err": ("logt_err", "e_logt", "e_logteff", "log_teff_err"),
     "feh": ("feh", "fe_h", "[fe/h]", "mh", "[m/h]", "metallicity", "m_h"),
-    "feh_err": ("feh_err", "e_feh", "e_[fe/h]", "feh_error", "e_mh", "mh_err", "e_fe_h"),
+    "feh_err": ("feh_err", "e_feh", "e_[fe/h]", "feh_error", "e_mh", "mh_err", "e_fe_h", "s_[fe/h]"),
     "mass": ("mass", "mass_msun", "mstar", "m_star"),
     "sptype": ("sptype", "sp_type", "spectral_type", "spt", "mk_type", "spectype", "spec_type"),
     "id": ("id", "name", "star", "star_id", "object", "designation", "target"),
     "logg": ("logg", "log_g", "logg_cgs"),
-    "logg_err": ("logg_err", "e_logg", "logg_error", "sig_logg", "e_log_g"),
+    "logg_err": ("logg_err", "e_logg", "logg_error", "sig_logg", "e_log_g", "s_logg"),
 }
 
 
@@ -128,7 +128,7 @@ PROFILES = {
              "logl": ("logl", "log_l", "loglum", "log_lum", "logl_lsun", "log_lbol", "logl_bol"),
              "logl_err": ("logl_err", "e_logl", "e_log_l", "logl_error", "e_loglum"),
              "radius": ("radius", "rad", "r_rsun", "radius_rsun", "rstar", "r_star"),
-             "radius_err": ("radius_err", "e_radius", "e_rad", "radius_error", "e_rstar")},
+             "radius_err": ("radius_err", "e_radius", "e_rad", "radius_error", "e_rstar", "s_radius")},
             ("teff_lum", "teff_radius", "teff_logg"),
         ),
         Profile(

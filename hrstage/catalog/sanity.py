@@ -6,8 +6,10 @@ unusable entry is NaN, and a status code per row saying why it is unusable:
 
 * ``OK`` — a value;
 * ``MISSING`` — masked, null, empty or NaN in the input;
-* ``SENTINEL`` — a fill value such as 99.99, 999, 9999, -99, -999, -9999 (or, for magnitudes and
-  colours, anything with ``|x| >= 50``): treated as missing; the pipeline raises ``MISSING_INPUT``;
+* ``SENTINEL`` — a fill value such as 99.99, 999, 9999, -99, -999, -9999 (only the negative ones
+  for linear Teff, L, radius and mass, where 999 or 9999 can be real), for magnitudes and colours
+  anything with ``|x| >= 50``, and for log L, log g, [Fe/H], log Teff and parallax anything outside
+  a physically possible range: treated as missing; the pipeline raises ``MISSING_INPUT``;
 * ``NONPHYSICAL`` — a real number that cannot be the quantity (Teff <= 0, L <= 0, radius <= 0,
   infinite): the pipeline raises ``BAD_INPUT``.
 
@@ -42,9 +44,10 @@ SENTINELS = np.array([99.99, 99.999, 999.0, 999.9, 999.99, 9999.0, 9999.99, 9999
 _MAG_ROLES = {"g", "g_err", "bp_rp", "bp_rp_err", "bp", "rp", "v", "v_err", "b_v", "b_v_err",
               "ks", "ks_err", "a_v", "ebv", "a_g", "e_bp_rp"}
 _POSITIVE = {"teff", "lum", "radius", "mass"}
+_LINEAR = _POSITIVE | {"teff_err", "lum_err", "radius_err"}
 #: Outside these ranges a value is a fill value, not a measurement (common practice).
 _PLAUSIBLE = {"logl": (-10.0, 10.0), "logg": (-3.0, 12.0), "feh": (-8.0, 3.0), "logt": (2.0, 7.0),
-              "parallax": (-5000.0, 5000.0)}
+              "parallax": (-2000.0, 2000.0)}
 
 _NULL_TEXT = {"", "nan", "null", "na", "n/a", "none", "--", "-", "...", "inf?"}
 
@@ -64,7 +67,7 @@ def _text_to_float(values, colname: str, role: str) -> tuple[np.ndarray, np.ndar
             out[i] = float(text)
         except ValueError:
             row = int(np.flatnonzero(inv == i)[0])
-            raise HrstageInputError(f"column {colname} (role {role}) holds text {text!r} at row {row}; "
+            raise HrstageInputError(f"column {colname} (role {role}) holds text {str(text)!r} at row {row}; "
                                     "expected a number") from None
     return out[inv], missing[inv]
 
@@ -112,7 +115,9 @@ def column_values(col, role: str) -> tuple[np.ndarray, np.ndarray]:
     vals = np.where(status == OK, vals, np.nan)
     status[np.isnan(vals) & (status == OK)] = MISSING
     # fill values before units: they are written in the catalogue's own numbers
-    sentinel = np.isin(vals, SENTINELS)
+    # positive fill values (999, 9999 ...) are real numbers for linear Teff, L, R or M: only the
+    # negative ones count there
+    sentinel = np.isin(vals, SENTINELS[SENTINELS < 0] if role in _LINEAR else SENTINELS)
     if role in _MAG_ROLES:
         sentinel |= np.abs(vals) >= 50.0
     status[sentinel] = SENTINEL

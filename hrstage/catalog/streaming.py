@@ -117,16 +117,16 @@ def _iter_fits(path: Path, chunk_rows: int) -> Iterator[Table]:
     from astropy.io import fits
 
     try:
-        idx = fits_table_hdu_index(path)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
+            idx = fits_table_hdu_index(path)
             lazy = Table.read(path, format="fits", hdu=idx, memmap=True, mask_invalid=False,
                               unit_parse_strict="silent")
             header = fits.getheader(path, idx)
-        _fits_restore(lazy, header)
-        n = len(lazy)
-        if n:  # truncated data fail here, with a clear message
-            np.asarray(lazy[n - 1].as_void())
+            _fits_restore(lazy, header)
+            n = len(lazy)
+            if n:  # truncated data fail here, with a clear message
+                np.asarray(lazy[n - 1].as_void())
     except HrstageInputError:
         raise
     except Exception as exc:
