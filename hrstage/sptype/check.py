@@ -1,0 +1,477 @@
+"""Does a catalogued MK type agree with the star's HR-diagram position?
+
+For every star with a parsed type and an HR position (log Teff, log L) two questions are asked of
+the calibration (:mod:`hrstage.sptype.calibration`):
+
+* temperature: is the measured Teff within the scatter of the Teff expected for the type in its
+  class? ``nsigma_teff = max(0, |logt - logT_cal| - w_T) / sqrt(s_T^2 + logt_err^2)``, with
+  ``w_T`` half the span of a type range (R13) and ``s_T`` the class scatter (x1.5 when the type
+  carries an uncertainty mark);
+* luminosity: is log L within the scatter of the class sequence *at the measured Teff*?
+  ``nsigma_lum = |logl - logL_c(logt)| / sqrt(s_L^2 + logl_err^2 + (slope * logt_err)^2)``.
+  Dwarfs up to :data:`~hrstage.sptype.calibration.BINARY_ALLOWANCE_DEX` above the class-V
+  sequence are not counted (possible unresolved binary). A class range (``IV-V``) passes if any
+  class in it passes; Ia, Iab and Ib are tested together (their calibrations overlap, note §3.5);
+  a hypergiant (``0``) must be at least as bright as the Ia sequence; a cool subdwarf (``VI``/
+  ``sd``) at most as bright as the V sequence.
+
+Verdicts (our own names)
+------------------------
+``consistent``
+    both checks within ``threshold`` sigma (default 3).
+``lumclass_conflict``
+    luminosity class disagrees with the HR position (for a type with no class: no class fits).
+``tclass_conflict``
+    measured Teff disagrees with the temperature type.
+``tclass_and_lumclass_conflict``
+    both.
+``not_checkable:<why>``
+    ``no_type`` (empty), ``unparsed``, ``no_hr_position`` (Teff or L missing), ``no_calibration``
+    (white dwarf, hot subdwarf, Wolf–Rayet, carbon, S, special entries), ``no_lumclass`` (R14:
+    no class in the type, every class tested, the best one reported as suggested, Teff checked),
+    ``outside_calibration`` (the class sequence does not reach the star's Teff or type).
+
+The suggested class is the calibrated class (Ia … V) whose sequence at the measured Teff is nearest
+in sigma units; ``VI`` when the star lies more than ``threshold`` sigma below the V sequence, and
+``D`` when it lies more than 2 dex below it (white-dwarf region). All of this is indicative: a
+conflict may come from the type, the parallax, extinction, binarity or the calibration itself, and
+does not replace a spectroscopic analysis.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .. import flags as _flags
+from ..columns import SPTYPE_COLUMNS
+from ..errors import HrstageInputError
+from .calibration import BINARY_ALLOWANCE_DEX, CLASS_NUMBER, calibration, sigma_logl, sigma_logt
+from .lumclass import CHECK_CLASSES, expected_stage
+from .parser import SpType, parse_many
+
+__all__ = ["TypeCheck", "check_types", "summarise_checks", "class_separation", "VERDICTS"]
+
+VERDICTS = (
+    "consistent",
+    "lumclass_conflict",
+    "tclass_conflict",
+    "tclass_and_lumclass_conflict",
+    "not_checkable:no_type",
+    "not_checkable:unparsed",
+    "not_checkable:no_hr_position",
+    "not_checkable:no_calibration",
+    "not_checkable:no_lumclass",
+    "not_checkable:outside_calibration",
+)
+
+_NC = len(CHECK_CLASSES)
+_UNCERTAIN_FACTOR = 1.5
+_SUPERGIANTS = ("Ia", "Iab", "Ib")
+
+
+@dataclass
+class TypeCheck:
+    """Result of :func:`check_types`: one entry per star, in input order.
+
+    Attributes
+    ----------
+    sptypes : ndarray of SpType
+    verdict, lumclass, stage, suggested, parsed : ndarray of str
+    nsigma : ndarray of float
+        Size of the disagreement of the catalogued type (the larger of ``nsigma_teff`` and
+        ``nsigma_lum`` where both exist), in units of the calibration scatter.
+    nsigma_teff, nsigma_lum : ndarray of float
+        The two checks separately (NaN where not made).
+    expected_logt, expected_logl : ndarray of float
+        Calibrated log Teff of the type and log L of the class sequence at the measured Teff, for
+        the class that fitted best among those the type allows.
+    flags : ndarray of int64
+        ``SPTYPE_CONFLICT`` / ``SPTYPE_UNPARSED`` bits of :mod:`hrstage.flags`.
+    threshold : float
+    """
+
+    sptypes: np.ndarray
+    verdict: np.ndarray
+    lumclass: np.ndarray
+    stage: np.ndarray
+    suggested: np.ndarray
+    parsed: np.ndarray
+    nsigma: np.ndarray
+    nsigma_teff: np.ndarray
+    nsigma_lum: np.ndarray
+    expected_logt: np.ndarray
+    expected_logl: np.ndarray
+    flags: np.ndarray
+    threshold: float = 3.0
+    notes: dict = field(default_factory=dict)
+
+    def __len__(self) -> int:
+        return len(self.verdict)
+
+    @property
+    def is_conflict(self) -> np.ndarray:
+        """True where the verdict is one of the conflicts."""
+        return np.char.endswith(self.verdict.astype(str), "conflict")
+
+    def to_columns(self) -> dict:
+        """The output columns of :data:`hrstage.columns.SPTYPE_COLUMNS`, as plain arrays."""
+        cols = {
+            "sptype_parsed": self.parsed.astype(str),
+            "sptype_lumclass": self.lumclass.astype(str),
+            "sptype_stage": self.stage.astype(str),
+            "sptype_verdict": self.verdict.astype(str),
+            "sptype_suggested": self.suggested.astype(str),
+            "sptype_nsigma": self.nsigma.astype(float),
+        }
+        assert tuple(cols) == SPTYPE_COLUMNS
+        return cols
+
+
+# ---------------------------------------------------------------------------------------------
+# per-distinct-type properties
+# ---------------------------------------------------------------------------------------------
+
+_KIND_CODE = {"mk": 0, "am_ap": 0}  # everything else -> not calibrated
+
+
+def _type_table(types: list[SpType]) -> dict:
+    """Arrays describing each distinct parsed type (loop over distinct types only)."""
+    n = len(types)
+    out = {
+        "missing": np.zeros(n, bool),
+        "unparsed": np.zeros(n, bool),
+        "calibrated": np.zeros(n, bool),
+        "num_lo": np.full(n, np.nan),
+        "num_hi": np.full(n, np.nan),
+        "allowed": np.zeros((n, _NC), bool),
+        "has_class": np.zeros(n, bool),
+        "hyper": np.zeros(n, bool),
+        "subdwarf": np.zeros(n, bool),
+        "t_unc": np.zeros(n, bool),
+        "l_unc": np.zeros(n, bool),
+        "lumclass": np.empty(n, dtype=object),
+        "parsed": np.empty(n, dtype=object),
+        "stage": np.empty(n, dtype=object),
+    }
+    nums = np.array([CLASS_NUMBER[c] for c in CHECK_CLASSES])
+    for j, p in enumerate(types):
+        out["lumclass"][j] = p.lumclass
+        out["parsed"][j] = p.normalised
+        out["stage"][j] = expected_stage(p.lumclass)
+        if not p.ok:
+            if p.reason.startswith("no spectral type") or p.reason.startswith("empty"):
+                out["missing"][j] = True
+            else:
+                out["unparsed"][j] = True
+            continue
+        out["calibrated"][j] = p.kind in _KIND_CODE and np.isfinite(p.numeric)
+        out["num_lo"][j], out["num_hi"][j] = p.t_range
+        out["t_unc"][j] = p.temp_uncertain
+        out["l_unc"][j] = p.lum_uncertain
+        lo, hi = p.lum_range
+        if np.isfinite(lo):
+            out["has_class"][j] = True
+            if hi <= 0.0:  # hypergiant
+                out["hyper"][j] = True
+                out["allowed"][j] = [c == "Ia" for c in CHECK_CLASSES]
+            elif lo >= 6.75:  # VI and fainter
+                out["subdwarf"][j] = True
+                out["allowed"][j] = [c == "V" for c in CHECK_CLASSES]
+                if lo >= 7.75:  # VII/VIII hot-subdwarf classes: not on these sequences
+                    out["calibrated"][j] = False
+            else:
+                allowed = (nums >= lo - 0.26) & (nums <= hi + 0.26)
+                if not allowed.any():
+                    allowed = np.abs(nums - (lo + hi) / 2) == np.abs(nums - (lo + hi) / 2).min()
+                if allowed[list(CHECK_CLASSES).index("Ia"):list(CHECK_CLASSES).index("Ib") + 1].any():
+                    for c in _SUPERGIANTS:  # sub-classes overlap: test them together
+                        allowed[CHECK_CLASSES.index(c)] = True
+                out["allowed"][j] = allowed
+        else:
+            out["allowed"][j] = True
+    return out
+
+
+def _as_float(x, n: int, name: str) -> np.ndarray:
+    if x is None:
+        return np.zeros(n)
+    a = np.asarray(getattr(x, "value", x), dtype=float)
+    if a.ndim == 0:
+        a = np.full(n, float(a))
+    if a.shape != (n,):
+        raise HrstageInputError(f"{name}: expected {n} values (one per star), got shape {a.shape}")
+    return a
+
+
+def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, threshold: float = 3.0) -> TypeCheck:
+    """Check catalogued MK types against HR positions.
+
+    Parameters
+    ----------
+    sptypes : array-like of str or SpType
+        The catalogue's type strings (parsed here, each distinct string once) or parsed types.
+    logt, logl : array-like of float
+        log10 Teff/K and log10 L/Lsun of each star (NaN = no HR position).
+    logt_err, logl_err : array-like of float, optional
+        1-sigma errors of ``logt`` and ``logl`` (default 0: only the calibration scatter counts).
+    feh : array-like of float, optional
+        [Fe/H]. Accepted for interface symmetry; the shipped calibrations are solar-neighbourhood
+        means and are not shifted with metallicity (metal-poor stars may be flagged; see docs).
+    threshold : float, default 3.0
+        Number of sigma beyond which a check fails.
+
+    Returns
+    -------
+    TypeCheck
+    """
+    if not np.isfinite(threshold) or threshold <= 0:
+        raise HrstageInputError(f"threshold: expected a positive number of sigma, got {threshold!r}")
+    logt = np.atleast_1d(np.asarray(getattr(logt, "value", logt), dtype=float))
+    n = len(logt)
+    logl = _as_float(logl, n, "logl")
+    et = np.abs(_as_float(logt_err, n, "logt_err"))
+    el = np.abs(_as_float(logl_err, n, "logl_err"))
+    et = np.where(np.isfinite(et), et, 0.0)
+    el = np.where(np.isfinite(el), el, 0.0)
+    del feh  # documented: not used by the shipped calibration
+
+    sp = np.asarray(sptypes, dtype=object) if not isinstance(sptypes, np.ndarray) else sptypes
+    if len(sp) != n:
+        raise HrstageInputError(f"sptypes: expected {n} values (one per star), got {len(sp)}")
+    parsed = sp if (n and isinstance(sp.ravel()[0], SpType) and all_sptype(sp)) else parse_many(sp)
+    keys = _keys(parsed)
+    uniq, first, inverse = np.unique(keys, return_index=True, return_inverse=True)
+    inverse = inverse.ravel()
+    tt = _type_table([parsed[i] for i in first])
+
+    cal = calibration()
+    calibrated = tt["calibrated"][inverse]
+    num_lo = tt["num_lo"][inverse]
+    num_hi = tt["num_hi"][inverse]
+    num_mid = 0.5 * (num_lo + num_hi)
+    allowed = tt["allowed"][inverse]
+    has_class = tt["has_class"][inverse]
+    t_fac = np.where(tt["t_unc"][inverse], _UNCERTAIN_FACTOR, 1.0)
+    l_fac = np.where(tt["l_unc"][inverse], _UNCERTAIN_FACTOR, 1.0)
+    hyper = tt["hyper"][inverse]
+    subdw = tt["subdwarf"][inverse]
+    hr_ok = np.isfinite(logt) & np.isfinite(logl)
+
+    nsig_t = np.full((n, _NC), np.nan)
+    nsig_l = np.full((n, _NC), np.nan)  # signed: + brighter than the sequence
+    exp_t = np.full((n, _NC), np.nan)
+    exp_l = np.full((n, _NC), np.nan)
+    for k, cls in enumerate(CHECK_CLASSES):  # loop over the 7 calibrated classes only
+        lt_mid = cal.logt(num_mid, cls)
+        lt_lo = cal.logt(num_lo, cls)
+        lt_hi = cal.logt(num_hi, cls)
+        # a range partly outside the table: use the ends that exist
+        ends = np.where(np.isfinite(lt_lo), lt_lo, lt_hi)
+        lt_mid = np.where(np.isfinite(lt_mid), lt_mid, ends)
+        half = 0.5 * np.abs(np.where(np.isfinite(lt_lo), lt_lo, lt_mid) - np.where(np.isfinite(lt_hi), lt_hi, lt_mid))
+        st = sigma_logt(cls, num_mid) * t_fac
+        dt = np.maximum(0.0, np.abs(logt - lt_mid) - half)
+        nsig_t[:, k] = dt / np.hypot(st, et)
+        exp_t[:, k] = lt_mid
+
+        locus = cal.locus_logl(logt, cls)
+        slope = cal.locus_slope(logt, cls)
+        resid = logl - locus
+        if cls == "V":
+            resid = np.where(resid > 0, np.maximum(0.0, resid - BINARY_ALLOWANCE_DEX), resid)
+        sl = sigma_logl(cls, num_mid) * l_fac
+        nsig_l[:, k] = resid / np.sqrt(sl**2 + el**2 + (slope * et) ** 2)
+        exp_l[:, k] = locus
+
+    with np.errstate(invalid="ignore"):
+        # one-sided classes
+        iv = CHECK_CLASSES.index("V")
+        ia = CHECK_CLASSES.index("Ia")
+        lum_given = np.abs(nsig_l)
+        lum_given = np.where(allowed, lum_given, np.nan)
+        lum_given[hyper, ia] = np.maximum(0.0, -nsig_l[hyper, ia])
+        lum_given[subdw, iv] = np.maximum(0.0, nsig_l[subdw, iv])
+        t_given = np.where(allowed, nsig_t, np.nan)
+        # a class with a Teff calibration but no sequence at this Teff (e.g. IV later than K1):
+        # keep its Teff check, its luminosity check is missing
+        best_l = _nanargmin(lum_given)
+        nl = _take(lum_given, best_l)
+        best_t = _nanargmin(t_given)
+        nt = _take(t_given, best_t)
+
+        # suggested class: nearest sequence in sigma units at the measured Teff
+        sugg_k = _nanargmin(np.abs(nsig_l))
+        suggested = np.where(sugg_k >= 0, np.asarray(CHECK_CLASSES, dtype=object)[np.maximum(sugg_k, 0)], "")
+        dv = logl - exp_l[:, iv]
+        below_v = np.isfinite(nsig_l[:, iv]) & (nsig_l[:, iv] < -threshold)
+        suggested = np.where(below_v, "VI", suggested)
+        suggested = np.where(np.isfinite(dv) & (dv < -2.0), "D", suggested)
+        suggested = np.where(hr_ok, suggested, "")
+
+        t_bad = np.isfinite(nt) & (nt > threshold)
+        l_bad = np.isfinite(nl) & (nl > threshold)
+        l_none = ~np.isfinite(nl)
+
+    verdict = np.full(n, "consistent", dtype=object)
+    verdict[t_bad & ~l_bad] = "tclass_conflict"
+    verdict[l_bad & ~t_bad] = "lumclass_conflict"
+    verdict[l_bad & t_bad] = "tclass_and_lumclass_conflict"
+    verdict[~t_bad & l_none] = "not_checkable:outside_calibration"
+    verdict[~has_class & ~t_bad & ~l_bad] = "not_checkable:no_lumclass"
+    verdict[~calibrated] = "not_checkable:no_calibration"
+    verdict[~hr_ok] = "not_checkable:no_hr_position"
+    verdict[tt["unparsed"][inverse]] = "not_checkable:unparsed"
+    verdict[tt["missing"][inverse]] = "not_checkable:no_type"
+
+    checked = calibrated & hr_ok
+    nsigma = np.where(checked, np.fmax(nt, nl), np.nan)
+    nsigma_t = np.where(checked, nt, np.nan)
+    nsigma_l = np.where(checked, nl, np.nan)
+    bl = np.where(best_l >= 0, best_l, np.maximum(best_t, 0))
+    expected_logt = np.where(checked, _take(exp_t, np.where(best_t >= 0, best_t, bl)), np.nan)
+    expected_logl = np.where(checked, _take(exp_l, bl), np.nan)
+    suggested = np.where(checked | (hr_ok & ~tt["unparsed"][inverse] & ~tt["missing"][inverse]), suggested, "")
+
+    fl = np.zeros(n, dtype=np.int64)
+    verdict_s = verdict.astype(str)
+    fl[np.char.endswith(verdict_s, "conflict")] |= _flags.SPTYPE_CONFLICT
+    fl[verdict_s == "not_checkable:unparsed"] |= _flags.SPTYPE_UNPARSED
+
+    return TypeCheck(
+        sptypes=parsed,
+        verdict=verdict_s,
+        lumclass=tt["lumclass"][inverse].astype(str),
+        stage=tt["stage"][inverse].astype(str),
+        suggested=suggested.astype(str),
+        parsed=tt["parsed"][inverse].astype(str),
+        nsigma=nsigma,
+        nsigma_teff=nsigma_t,
+        nsigma_lum=nsigma_l,
+        expected_logt=expected_logt,
+        expected_logl=expected_logl,
+        flags=fl,
+        threshold=float(threshold),
+    )
+
+
+def class_separation(logt, class_a: str, class_b: str, numeric=None) -> np.ndarray:
+    """Distance between two class sequences at log Teff ``logt``, in units of their summed scatter.
+
+    ``|logL_a(logt) - logL_b(logt)| / (s_a + s_b)``. Where this is below the check threshold the
+    HR position cannot tell the two classes apart (e.g. V and III for B-F stars, where it is
+    ~1-2): a swap between them goes unnoticed, and "consistent" means only "not excluded".
+
+    Parameters
+    ----------
+    logt : array-like
+        log10 Teff.
+    class_a, class_b : str
+        Two of ``'Ia', 'Iab', 'Ib', 'II', 'III', 'IV', 'V'``.
+    numeric : array-like, optional
+        Type index used to pick the scatter group (default: from the V-sequence type at ``logt``).
+    """
+    cal = calibration()
+    logt = np.asarray(logt, dtype=float)
+    if numeric is None:
+        seq = cal._seq["V"]
+        order = np.argsort(seq.logt)
+        numeric = np.interp(logt, seq.logt[order], seq.numeric[order])
+    d = np.abs(cal.locus_logl(logt, class_a) - cal.locus_logl(logt, class_b))
+    return d / (sigma_logl(class_a, numeric) + sigma_logl(class_b, numeric))
+
+
+def all_sptype(arr: np.ndarray) -> bool:
+    """True when every element of an object array is an :class:`SpType`."""
+    return bool(np.all(_is_sptype(arr.ravel()).astype(bool))) if arr.size else True
+
+
+_is_sptype = np.frompyfunc(lambda v: isinstance(v, SpType), 1, 1)
+_raw_key = np.frompyfunc(lambda p: p.raw if p.ok or p.raw else "\x00" + p.reason, 1, 1)
+
+
+def _keys(parsed: np.ndarray) -> np.ndarray:
+    if not parsed.size:
+        return np.array([], dtype=str)
+    return _raw_key(parsed).astype(str)
+
+
+def _nanargmin(a: np.ndarray) -> np.ndarray:
+    """Row-wise argmin ignoring NaN; -1 for all-NaN rows."""
+    if a.shape[0] == 0:
+        return np.zeros(0, dtype=int)
+    filled = np.where(np.isfinite(a), a, np.inf)
+    k = np.argmin(filled, axis=1)
+    k[~np.isfinite(filled[np.arange(len(k)), k])] = -1
+    return k
+
+
+def _take(a: np.ndarray, k: np.ndarray) -> np.ndarray:
+    out = a[np.arange(a.shape[0]), np.maximum(k, 0)] if a.shape[0] else np.zeros(0)
+    return np.where(k >= 0, out, np.nan)
+
+
+def summarise_checks(chk: TypeCheck, *, by: str = "class"):
+    """Counts of verdicts per luminosity class, for reports.
+
+    Parameters
+    ----------
+    chk : TypeCheck
+    by : {'class', 'main'}
+        ``'class'`` groups by the normalised class as read (``'IIIb'``, ``'IV-V'``); ``'main'``
+        folds Keenan sub-classes into their main class (``'IIIb'`` -> ``'III'``).
+
+    Returns
+    -------
+    astropy.table.Table
+        Columns ``lumclass`` (``'(none)'`` for types without a class), ``n``, ``consistent``,
+        ``conflicts``, ``lumclass_conflicts``, ``tclass_conflicts``, ``not_checkable`` and
+        ``conflict_rate`` = conflicts / (consistent + conflicts) (NaN when nothing was checkable).
+        A last row ``'(all)'`` sums every class.
+    """
+    from astropy.table import Table
+
+    if by not in ("class", "main"):
+        raise HrstageInputError(f"by: expected 'class' or 'main', got {by!r}")
+    lc = chk.lumclass.astype(str)
+    if by == "main":
+        import re
+
+        fold = np.vectorize(lambda s: re.sub(r"(?<=[IV])(ab|a|b)\b", "", s) if not s.startswith("Ia")
+                            and not s.startswith("Iab") else s, otypes=[str])
+        lc = fold(lc) if lc.size else lc
+    lc = np.where(lc == "", "(none)", lc)
+    v = chk.verdict.astype(str)
+    conflict = np.char.endswith(v, "conflict")
+    cons = v == "consistent"
+    lconf = np.char.find(v, "lumclass_conflict") >= 0
+    tconf = np.char.startswith(v, "tclass")
+    nc = np.char.startswith(v, "not_checkable")
+    order = _class_order(np.unique(lc))
+    rows = []
+    for name in order + ["(all)"]:
+        m = np.ones(len(lc), bool) if name == "(all)" else lc == name
+        nn = int(m.sum())
+        ncons = int((cons & m).sum())
+        ncf = int((conflict & m).sum())
+        rows.append((name, nn, ncons, ncf, int((lconf & m).sum()), int((tconf & m).sum()), int((nc & m).sum()),
+                     ncf / (ncons + ncf) if ncons + ncf else np.nan))
+    names = ("lumclass", "n", "consistent", "conflicts", "lumclass_conflicts", "tclass_conflicts", "not_checkable",
+             "conflict_rate")
+    t = Table(rows=rows, names=names, dtype=(str, int, int, int, int, int, int, float))
+    t.meta["threshold_sigma"] = chk.threshold
+    t.meta["note"] = ("Indicative: conflicts may come from the type, the parallax, extinction, binarity or "
+                      "the calibration; they do not replace a spectroscopic analysis.")
+    return t
+
+
+_ORDER = ["0", "Ia", "Ia-Iab", "Iab", "Iab-Ib", "Ib", "I", "Ib-II", "II", "II-III", "III", "III-IV", "IV", "IV-V",
+          "V", "VI"]
+
+
+def _class_order(names) -> list[str]:
+    names = [str(x) for x in names]
+    known = [x for x in _ORDER if x in names]
+    rest = sorted(x for x in names if x not in _ORDER and x != "(none)")
+    return known + rest + (["(none)"] if "(none)" in names else [])
