@@ -13,7 +13,9 @@ One module per published relation, each with its citation, validity range and un
 - :mod:`hrstage.models.stellar` -- Stefan-Boltzmann law, surface gravity and bolometric
   magnitudes with the IAU 2015 nominal solar values (astropy).
 - :mod:`hrstage.models.bolometric` -- bolometric corrections (photometry area).
-- :mod:`hrstage.models.colour_teff` -- colour-temperature relations (photometry area).
+- :mod:`hrstage.models.colour_teff` -- colour-temperature relations (photometry area), with one
+  module per paper beside it (``ballesteros2012``, ``casagrande2010``, ``casagrande2021``,
+  ``flower_teff``, ``mucciarelli2021``, ``riello2021``).
 
 Conventions: masses in Msun, luminosities in Lsun, radii in Rsun, times in Myr, temperatures in K;
 plain float arrays in and out, broadcasting mass against metallicity. Masses outside a relation's
