@@ -1,0 +1,141 @@
+"""Parser behaviour beyond the reference rows: garbage never raises, caching, normalised text."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from hrstage.sptype import SpType, expected_stage, expected_stages, parse, parse_many
+
+GARBAGE = ["", "   ", "xyz", "12345", "???!!", "++", "+K0III", "IIIV", "\x00\x01", "K" * 500, "é", "()",
+           "((((", "-", "/", "Q+Q+", "V", "III", "sdX", "D", "W", "C-", "S/", "k", "kA2"]
+
+
+@pytest.mark.parametrize("text", GARBAGE)
+def test_garbage_never_raises_and_says_why(text):
+    p = parse(text)
+    assert isinstance(p, SpType)
+    if not p.ok:
+        assert p.kind == "unparsed"
+        assert p.reason and not p.reason.startswith("internal")
+        assert p.normalised == ""
+
+
+@pytest.mark.parametrize("value", [None, float("nan"), 3.5, 7, b"K0III", np.ma.masked, ["K0"]])
+def test_non_string_input(value):
+    p = parse(value)
+    if isinstance(value, bytes):
+        assert p.ok and p.tclass == "K"
+    else:
+        assert not p.ok and p.reason
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(alphabet="OBAFGKMLTYDWCSNRIVabepnsmkhz0123456789.:+-/?() ", max_size=24))
+def test_fuzz_grammar_alphabet(text):
+    # strings made of the grammar's own characters: the hardest garbage for a scanner
+    p = parse(text)
+    assert not p.reason.startswith("internal parser error"), (text, p.reason)
+    if p.ok:
+        lo, hi = p.t_range
+        assert math.isnan(lo) or lo <= hi
+        p.normalised  # renders without error
+        p.as_dict()
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.text(max_size=40))
+def test_fuzz_any_text(text):
+    p = parse(text)
+    assert not p.reason.startswith("internal parser error"), (text, p.reason)
+
+
+def test_unparsed_tail_is_kept_verbatim():
+    # research note §2.2 row 115 (HIP 5455): two types run together; flag, keep the tail
+    p = parse("G6/8wF8IV/V")
+    assert p.ok and p.unparsed_tail == "F8IV/V"
+    assert "F8IV/V" in p.reason
+
+
+def test_quarter_and_hypergiant_traps():
+    # R1: 'K0+II' is a quarter subtype, not a composite; 'B0Ia+WC5:' is a composite
+    assert not parse("K0+II").composite and parse("K0+II").numeric == pytest.approx(50.25)
+    assert parse("B0Ia+WC5:").composite
+    # R5: one digit before the point: 'G20-Ia' is G2 + hypergiant
+    assert parse("G20-Ia").numeric == pytest.approx(42.0) and parse("G20-Ia").lumclass == "0"
+    # 'Ia+' with nothing after the plus is the hypergiant class
+    assert parse("B1Ia+").lumclass == "0" and not parse("B1Ia+").composite
+
+
+def test_missing_class_is_unknown_not_dwarf():
+    # R14: 'K0' carries no luminosity class
+    p = parse("K0")
+    assert p.lumclass == "" and math.isnan(p.lum_range[0])
+    assert expected_stage(p.lumclass) == ""
+
+
+def test_normalised_is_our_canonical_form():
+    assert parse("K0IIIbCN-0.5").normalised == "K0 IIIb CN-0.5"
+    assert parse("K2 III").normalised == parse("K2III").normalised == "K2 III"
+    assert parse("B5/6IV/V").normalised == "B5-B6 IV-V"
+    assert parse("G8V+K3V").normalised == "G8 V + K3 V"
+    # the canonical form parses back to the same reading
+    for text in ("K0IIIbCN-0.5", "G7+IIIHdel -0.5", "B5/6IV/V", "M1-2Ia-Iab", "A2IIIShell?", "F6Va vw"):
+        a, b = parse(text), parse(parse(text).normalised)
+        assert (a.tclass, a.t_range, a.lumclass, a.lum_uncertain) == (b.tclass, b.t_range, b.lumclass, b.lum_uncertain)
+
+
+def test_parse_many_keeps_order_and_handles_masks():
+    from astropy.table import MaskedColumn
+
+    col = MaskedColumn(["K0III", "G2V", "K0III", "", "xyz"], mask=[False, False, False, True, False])
+    out = parse_many(col)
+    assert [p.tclass for p in out] == ["K", "G", "K", "", ""]
+    assert out[0] is out[2]  # one parse per distinct string
+    assert not out[3].ok and out[3].reason.startswith("no spectral type")
+    assert not out[4].ok
+    objs = parse_many(np.array(["A0V", None, float("nan")], dtype=object))
+    assert objs[0].ok and not objs[1].ok and not objs[2].ok
+    assert len(parse_many([])) == 0
+
+
+@pytest.mark.parametrize(
+    "lumclass,stages",
+    [
+        # MK luminosity classes and their stages (Morgan, Keenan & Kellman 1943; common practice)
+        ("V", ("main_sequence",)),
+        ("Vb", ("main_sequence",)),
+        ("IV", ("subgiant",)),
+        ("III", ("giant",)),
+        ("IIIa", ("giant",)),
+        ("II", ("bright_giant",)),
+        ("Ib", ("supergiant",)),
+        ("Iab-Ib", ("supergiant",)),
+        ("0", ("supergiant",)),
+        ("IV-V", ("subgiant", "main_sequence")),
+        ("II-III", ("bright_giant", "giant")),
+        ("VI", ("subdwarf",)),
+        ("sdB", ("hot_subdwarf",)),
+        ("VIII", ("hot_subdwarf",)),
+        ("D", ("white_dwarf",)),
+        ("", ()),
+        ("nonsense", ()),
+    ],
+)
+def test_expected_stage(lumclass, stages):
+    assert expected_stages(lumclass) == stages
+    assert expected_stage(lumclass) == "|".join(stages)
+
+
+def test_prefixes_map_to_classes():
+    # R11 (Mount Wilson prefixes; mapping from memory in the note, common practice)
+    assert parse("dK5").lumclass == "V"
+    assert parse("gK0").lumclass == "III"
+    assert parse("cF8").lumclass == "I"
+    assert parse("sdG8").lumclass == "VI"
+    # hot subdwarfs are a different family (note §1.4 "family trap")
+    assert parse("sdB").kind == "hot_subdwarf" and expected_stage(parse("sdB").lumclass) == "hot_subdwarf"
