@@ -194,7 +194,8 @@ def from_teff_logg(teff, logg, *, feh=None, teff_err=None, logg_err=None, feh_er
     flags |= np.where(ok & ~(conv & np.isfinite(logl)), F.LOGG_ITERATION, 0)
 
     # finite-difference Jacobian through the whole iteration
-    h_t, h_g, h_f = 2e-4, 1e-3, 1e-2
+    # steps well above the iteration's 1e-3 dex tolerance, so that the differences are not noise
+    h_t, h_g, h_f = 5e-3, 5e-2, 0.1
     lp, _, _ = run(lt_s + h_t, lg_s, feh_used)
     lm, _, _ = run(lt_s - h_t, lg_s, feh_used)
     dl_dt = (lp - lm) / (2 * h_t)

@@ -61,8 +61,15 @@ def test_sun_through_logg():
     r = from_teff_logg(5772.0, 4.438, teff_err=50, logg_err=0.1)
     assert r.logl[0] == pytest.approx(0.0, abs=0.15)
     assert 0.7 < r.extra["mass_used"][0] < 1.3
-    assert r.logl_err[0] > 0.09        # log g error enters L one-to-one through R^2 = GM/g
-    assert np.isfinite(r.corr[0])
+    assert np.isfinite(r.corr[0]) and 0.03 < r.logl_err[0] < 0.2
+    # the propagated log g error matches a brute-force recomputation at log g +- 0.1
+    # (less than one-to-one: the model mass grows with L at fixed Teff)
+    e = from_teff_logg(5772.0, 4.438, logg_err=0.1)
+    up, dn = from_teff_logg(5772.0, [4.538, 4.338]).logl
+    assert e.logl_err[0] == pytest.approx(abs(up - dn) / 2, rel=0.25)
+    # a row without log g is flagged, not dropped
+    bad = from_teff_logg([5772.0, 5772.0], [4.438, np.nan])
+    assert len(bad) == 2 and np.isnan(bad.logl[1]) and bad.flags[1] & F.MISSING_INPUT
 
 
 def test_parallax_edge_cases():
