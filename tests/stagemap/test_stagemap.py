@@ -1,0 +1,140 @@
+"""Stage map: geometry, raster accuracy, cache, export (checks against outside values named inline)."""
+
+import numpy as np
+import pytest
+from matplotlib.path import Path
+
+from hrstage.errors import HrstageInputError
+from hrstage.stagemap import StageParams, stage_map
+from hrstage.stagemap._raster import Grid, fill_polygon
+from hrstage.stages import CODE, STAGES
+
+
+@pytest.fixture(scope="module")
+def sm():
+    return stage_map(0.0)
+
+
+def test_fill_polygon_matches_point_in_polygon():
+    # reference: matplotlib Path.contains_points (a general-purpose library), random star polygons
+    g = Grid(dt=0.01, dl=0.02)
+    rng = np.random.default_rng(3)
+    tx, ly = g.centres()
+    X, Y = np.meshgrid(tx, ly)
+    for _ in range(4):
+        ang = np.sort(rng.uniform(0, 2 * np.pi, 25))
+        r = rng.uniform(0.2, 0.9, 25)
+        poly = np.c_[4.3 + r * np.cos(ang), 0.5 + 5 * r * np.sin(ang)]
+        ref = Path(poly).contains_points(np.c_[X.ravel(), Y.ravel()]).reshape(X.shape)
+        assert (fill_polygon(poly, g) != ref).sum() == 0
+
+
+def test_critical_masses_and_thresholds(sm):
+    # formulae.md §2.1 [C]: M_HeF = 1.995, M_FGB = 13.032 at Z = 0.02; §2.1/§6.3: M(Mc,BAGB=2.25) = 8.20
+    assert sm.m_hef == pytest.approx(1.995, abs=1e-3)
+    assert sm.m_fgb == pytest.approx(13.032, abs=2e-3)
+    assert sm.m_sg == pytest.approx(8.20, abs=0.02)
+    # 13.8 Gyr mass: HPT2000 t_MS(1 Msun) = 11.0 Gyr (formulae.md §2.9), so it lies just below 1 Msun
+    assert 0.9 < sm.m_age < 1.0
+
+
+def test_curves_follow_the_relations(sm):
+    c = sm.curves
+    # formulae.md §1.4 [C]: ZAMS Z=0.02, 1 Msun: L = 0.697717, Teff = 5597 K
+    i = np.argmin(np.abs(c["zams"].mass - 1.0))
+    assert c["zams"].mass[i] == pytest.approx(1.0, rel=2e-2)
+    l1 = np.interp(0.0, np.log10(c["zams"].mass), c["zams"].logl)
+    t1 = np.interp(0.0, np.log10(c["zams"].mass), c["zams"].logt)
+    assert 10**l1 == pytest.approx(0.697717, rel=2e-3)
+    assert 10**t1 == pytest.approx(5597, abs=5)
+    # formulae.md §2.9 [C]: 2 Msun TAMS L = 37.57, Teff 7568; BGB 5 Msun L = 860.7, Teff 4562
+    lt = np.interp(np.log10(2.0), np.log10(c["tams"].mass), c["tams"].logl)
+    tt = np.interp(np.log10(2.0), np.log10(c["tams"].mass), c["tams"].logt)
+    assert 10**lt == pytest.approx(37.57, rel=1e-2)
+    assert 10**tt == pytest.approx(7568, rel=5e-3)
+    lb = np.interp(np.log10(5.0), np.log10(c["bgb"].mass), c["bgb"].logl)
+    tb = np.interp(np.log10(5.0), np.log10(c["bgb"].mass), c["bgb"].logt)
+    assert 10**lb == pytest.approx(860.7, rel=1e-2)
+    assert 10**tb == pytest.approx(4562, rel=5e-3)
+    # geometry note formulae.md §2.9: L_BGB < L_TMS for M >~ 2 Msun (5 Msun: 1509 vs 861)
+    assert lb < np.interp(np.log10(5.0), np.log10(c["tams"].mass), c["tams"].logl)
+    # the He-ignition curve is broken (NaN) at the M_FGB jump (formulae.md §2.7)
+    assert np.isnan(c["hei"].logt).sum() == 1
+    for name in ("zams", "tams", "ms_upper", "bgb", "hei", "agb", "wd_min", "wd_max", "giant_tip"):
+        assert name in c
+
+
+def test_white_dwarf_band(sm):
+    # formulae.md §2.8 [C]: a 0.6 Msun white dwarf has log L = -1.63 at 20 000 K, -3.22 at 8 000 K
+    for teff, logl in ((20000, -1.63), (8000, -3.22)):
+        assert STAGES[sm.locate(np.log10(teff), logl)] == "white_dwarf"
+        assert sm.mass_at(np.log10(teff), logl) == pytest.approx(0.6, abs=0.03)
+
+
+def test_locate_matches_regions(sm):
+    # the outlines drawn are the raster classified: random points inside each outline get its code
+    rng = np.random.default_rng(5)
+    for name, polys in sm.regions.items():
+        assert polys, name
+        big = max(polys, key=len)
+        lo, hi = big.min(axis=0), big.max(axis=0)
+        pts = rng.uniform(lo, hi, size=(4000, 2))
+        inside = Path(big).contains_points(pts)
+        holes = sm.region_holes[name]
+        for h in holes:
+            inside &= ~Path(h).contains_points(pts)
+        codes = sm.locate(pts[inside, 0], pts[inside, 1])
+        # resolution of the traced outline (half the raster) leaves a thin disagreeing rim
+        assert np.mean(codes == CODE[name]) > 0.97, name
+
+
+def test_out_of_map_and_nan_are_unclassified(sm):
+    codes = sm.locate([np.nan, 3.0, 6.0, 3.7], [0.0, 0.0, 0.0, np.inf])
+    assert (codes == CODE["unclassified"]).all()
+
+
+def test_cache_and_params():
+    a = stage_map(0.0)
+    assert stage_map(0.0004) is a  # rounded to 0.001 dex
+    b = stage_map(0.0, binary_offset=0.2)
+    assert b is not a and b.params.binary_offset == 0.2
+    with pytest.raises(HrstageInputError, match="unknown stage parameter"):
+        stage_map(0.0, not_a_param=1)
+    with pytest.raises(HrstageInputError, match="ms_below_zams"):
+        StageParams(ms_below_zams=-1)
+
+
+def test_metallicity_clipped():
+    sm = stage_map(-3.0)
+    # Z = 0.02 x 10^-3 = 2e-5 < 1e-4: clipped to the fits' edge (formulae.md §1.3)
+    assert sm.z_clipped and sm.z == pytest.approx(1e-4)
+    # formulae.md §2.1 [C]: M_FGB falls with Z (10.34 at Z = 0.001)
+    assert stage_map(np.log10(0.001 / 0.02)).m_fgb == pytest.approx(10.344, abs=0.01)
+
+
+def test_to_table(sm):
+    t = sm.to_table()
+    assert set(t.colnames) == {"curve", "mass", "logt", "logl"}
+    assert set(np.unique(t["curve"])) >= {"zams", "tams", "ms_upper", "bgb"}
+    assert t.meta["z"] == pytest.approx(0.02)
+    assert any("Tout" in c for c in t.meta["citations"])
+    assert np.isfinite(t["logt"]).all()
+
+
+def test_distance_to_boundaries(sm):
+    # the Sun (common practice: 5772 K, 1 Lsun) lies above the ZAMS and below the MS upper edge
+    d = sm.distance_to_boundaries(np.log10(5772.0), 0.0, names=["zams", "ms_upper"])
+    assert 0 < d["zams"][0][0] < 0.2
+    assert d["ms_upper"][0][0] < 0
+
+
+def test_raster_accuracy_near_zams(sm):
+    # cells of 0.001 dex x 0.0025 dex: a boundary is placed to half a cell, i.e. within
+    # 0.00125 + |slope| x 0.0005 dex in log L; positions twice that far off the lower MS edge are
+    # on the right side of it
+    t = np.linspace(3.6, 4.4, 50)
+    edge = sm.ms_lower_at(t)
+    slope = np.abs(sm.ms_lower_at(t + 1e-3) - sm.ms_lower_at(t - 1e-3)) / 2e-3
+    tol = 2 * (0.00125 + slope * 0.0005)
+    assert (sm.locate(t, edge + tol) == CODE["main_sequence"]).all()
+    assert (sm.locate(t, edge - tol) != CODE["main_sequence"]).all()
