@@ -77,7 +77,7 @@ def mbol_to_logl(mbol):
     return (MBOL_SUN - np.asarray(mbol, dtype=float)) / 2.5
 
 
-def sptype_ticks(lo_logt: float, hi_logt: float, min_spacing: float = 0.04):
+def sptype_ticks(lo_logt: float, hi_logt: float, min_spacing: float = 0.035):
     """Positions (log Teff) and labels of the spectral-type anchors between two log Teff values.
 
     Anchors closer than ``min_spacing`` times the axis range to one already kept are dropped

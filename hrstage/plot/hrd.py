@@ -29,7 +29,7 @@ from .colour import blackbody_colour
 from .labels import place_labels
 from .palette import FLAG_MARKS, get_palette
 
-__all__ = ["hr_diagram", "kiel_diagram", "colour_magnitude_diagram", "DEFAULT_RADII"]
+__all__ = ["hr_diagram", "kiel_diagram", "colour_magnitude_diagram", "DEFAULT_RADII", "DEFAULT_CURVES", "CURVE_SHORT"]
 
 LOGT_SUN = np.log10(5772.0)  # IAU 2015 B3 nominal solar Teff
 #: Radii (R_sun) of the default constant-radius lines.
@@ -48,6 +48,28 @@ _CURVE_STYLE = {
     "agb": dict(lw=1.0, ls=(0, (3, 1.5))),
     "wd_min": dict(lw=0.9, ls="-"),
     "wd_max": dict(lw=0.9, ls="-"),
+}
+
+#: Curves drawn by default (``show_curves=True``): the named stellar loci. ``"all"`` draws every
+#: curve of the stage map, a sequence of names draws those.
+DEFAULT_CURVES = ("zams", "tams", "bgb", "hei")
+
+#: Short on-figure names of the stage-map curves (the Line2D label keeps the full, cited name).
+CURVE_SHORT = {
+    "zams": "ZAMS",
+    "tams": "TAMS",
+    "ms_upper": "MS edge (13.8 Gyr)",
+    "ms_lower": "MS lower edge",
+    "binary_upper": "binary band",
+    "bgb": "BGB",
+    "ehg": "end of HG",
+    "hei": "He ignition",
+    "giant_tip": "RGB tip",
+    "agb": "AGB",
+    "sg_lower": "supergiant edge",
+    "bg_lower": "bright-giant edge",
+    "wd_min": "WD edge (1.35 M$_\\odot$)",
+    "wd_max": "WD edge (0.2 M$_\\odot$)",
 }
 
 FLAG_GROUPS = {
@@ -129,7 +151,7 @@ def _segment_distance(p, a, b):
     return np.sqrt(((p[:, None, :] - closest) ** 2).sum(axis=2)).min(axis=1)
 
 
-def _interior_point(ax, polygons, n_grid=70, blocked=None):
+def _interior_point(ax, polygons, n_grid=70, blocked=None, half_size=(0.0, 0.0)):
     """A point well inside the union of ``polygons`` (data coords) and inside the view.
 
     Grid search in axes-fraction space for the point farthest from the polygon edges and the
@@ -148,10 +170,10 @@ def _interior_point(ax, polygons, n_grid=70, blocked=None):
         if not inside.any():
             continue
         if blocked is not None and len(blocked):
-            pad = 0.02
+            px, py = half_size[0] + 0.01, half_size[1] + 0.01
             hit = (
-                (grid[:, None, 0] > blocked[None, :, 0] - pad) & (grid[:, None, 0] < blocked[None, :, 2] + pad)
-                & (grid[:, None, 1] > blocked[None, :, 1] - pad) & (grid[:, None, 1] < blocked[None, :, 3] + pad)
+                (grid[:, None, 0] > blocked[None, :, 0] - px) & (grid[:, None, 0] < blocked[None, :, 2] + px)
+                & (grid[:, None, 1] > blocked[None, :, 1] - py) & (grid[:, None, 1] < blocked[None, :, 3] + py)
             ).any(axis=1)
             inside &= ~hit
             if not inside.any():
@@ -425,8 +447,13 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
         Face colour of the points: the stage colour of ``palette``, or the blackbody display colour
         of the star's Teff (:func:`hrstage.plot.blackbody_colour`); the marker always shows the stage.
     palette : {"default", "colourblind"} or Palette
-    show_regions, show_curves : bool
-        Draw the filled stage regions (with their names) and the labelled boundary curves.
+    show_regions : bool
+        Draw the filled stage regions of the stage map, each with its name.
+    show_curves : bool, "all" or sequence of str
+        Draw labelled boundary curves: ``True`` the loci of :data:`DEFAULT_CURVES` (ZAMS, TAMS,
+        base of the giant branch, He ignition), ``"all"`` every curve of the stage map, or the
+        curves named (keys of ``StageMap.curves``). On the figure each curve carries a short name
+        (:data:`CURVE_SHORT`); its Line2D label is the stage map's full, cited name.
     radius_lines : sequence of float or None
         Radii in R_sun of the dashed constant-radius lines (L = R^2 (Teff / 5772 K)^4).
     error_bars : bool or "ellipse"
@@ -481,7 +508,7 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
     if radius_lines:
         _draw_radius_lines(ax, radius_lines)
     if sm is not None and show_curves:
-        _draw_curves(ax, sm, pal)
+        _draw_curves(ax, sm, pal, show_curves)
     if sm is not None and show_regions:
         _draw_regions(ax, sm, pal)  # after the line labels, so the region names avoid them
 
@@ -509,14 +536,14 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
     return ax
 
 
-def _text_frac_boxes(ax):
-    """Boxes (axes fraction) of the texts already on ``ax``."""
+def _text_frac_boxes(ax, texts=None):
+    """Boxes (axes fraction) of the given texts (default: all texts already on ``ax``)."""
     from .labels import renderer_of
 
     renderer = renderer_of(ax.figure)
     inv = ax.transAxes.inverted()
     out = []
-    for t in ax.texts:
+    for t in ax.texts if texts is None else texts:
         bb = t.get_window_extent(renderer)
         (u0, v0), (u1, v1) = inv.transform([(bb.x0, bb.y0), (bb.x1, bb.y1)])
         out.append((min(u0, u1), min(v0, v1), max(u0, u1), max(v0, v1)))
@@ -541,23 +568,46 @@ def _draw_regions(ax, sm, pal):
                             alpha=pal.region_alpha, zorder=0.5, label=style.label if k == 0 else None)
             patch.set_gid(f"region:{name}")
             ax.add_patch(patch)
-        spot = _interior_point(ax, polys, blocked=blocked)
-        if spot is not None and spot[2] > 0.015:
-            t = ax.text(spot[0], spot[1], style.label, ha="center", va="center", fontsize="small",
-                        fontstyle="italic", color=_darker(style.colour), alpha=0.9, zorder=1)
-            t.set_gid(f"region_label:{name}")
+        t = ax.text(0.5, 0.5, style.label, ha="center", va="center", fontsize="small", fontstyle="italic",
+                    color=_darker(style.colour), alpha=0.9, zorder=1, transform=ax.transAxes)
+        box = _text_frac_boxes(ax, [t])[0]
+        half = ((box[2] - box[0]) / 2, (box[3] - box[1]) / 2)
+        spot = _interior_point(ax, polys, blocked=blocked, half_size=half)
+        if spot is None or spot[2] <= 0.015:
+            t.remove()
+            continue
+        t.set_transform(ax.transData)
+        t.set_position((spot[0], spot[1]))
+        t.set_gid(f"region_label:{name}")
+        blocked = np.vstack([blocked, _text_frac_boxes(ax, [t])])
 
 
-def _draw_curves(ax, sm, pal):
+def _select_curves(sm, show_curves):
     curves = getattr(sm, "curves", {}) or {}
+    if show_curves is True:
+        names = [n for n in DEFAULT_CURVES if n in curves]
+    elif show_curves == "all":
+        names = list(curves)
+    else:
+        names = list(show_curves)
+        unknown = [n for n in names if n not in curves]
+        if unknown:
+            raise HrstageInputError(
+                f"show_curves: unknown curve(s) {', '.join(unknown)}; the stage map has {', '.join(curves)}"
+            )
+    return [(n, curves[n]) for n in names]
+
+
+def _draw_curves(ax, sm, pal, show_curves=True):
     placed = []
-    for name, curve in curves.items():
+    for name, curve in _select_curves(sm, show_curves):
         style = _CURVE_STYLE.get(name, dict(lw=0.8, ls="-"))
         label = getattr(curve, "label", None) or name
         (line,) = ax.plot(curve.logt, curve.logl, color=pal.curve, zorder=2.5, label=label, **style)
         line.set_gid(f"curve:{name}")
         t = _along_line_label(
-            ax, curve.logt, curve.logl, label, prefer=0.5, avoid=placed, gid=f"curve_label:{name}",
+            ax, curve.logt, curve.logl, CURVE_SHORT.get(name, label), prefer=0.5, avoid=placed,
+            gid=f"curve_label:{name}",
             fontsize="x-small", color=pal.curve,
             bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.75),
         )
@@ -595,7 +645,7 @@ def _curve_logg(curve):
         return LOGG_SUN + np.log10(mass) + 4.0 * (np.asarray(curve.logt, float) - LOGT_SUN) - np.asarray(curve.logl, float)
 
 
-def _kiel_regions(ax, sm, pal, feh, n=260):
+def _kiel_regions(ax, sm, pal, feh, n=170):
     try:
         from ..classifier import logl_from_logg
     except ImportError:
@@ -606,7 +656,8 @@ def _kiel_regions(ax, sm, pal, feh, n=260):
     gx = np.linspace(x0, x1, n)
     gy = np.linspace(y0, y1, n)
     lt, lg = np.meshgrid(gx, gy)
-    ll = np.asarray(logl_from_logg(lt.ravel(), lg.ravel(), feh), dtype=float)
+    res = logl_from_logg(lt.ravel(), lg.ravel(), feh)
+    ll = np.asarray(res[0] if isinstance(res, tuple) else res, dtype=float)
     codes = np.asarray(sm.locate(lt.ravel(), ll), dtype=int).reshape(lt.shape)
     codes[~np.isfinite(ll.reshape(lt.shape))] = STAGES.index("unclassified")
     from matplotlib.colors import to_rgba
@@ -677,11 +728,13 @@ def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flag
     ax.minorticks_on()
     ax.tick_params(which="both", direction="in", right=True, top=top_axis is None)
     feh_value = _feh_of(sm, feh) if sm is not None else None
+    note = ""
     if sm is not None and show_regions:
-        _kiel_regions(ax, sm, pal, feh_value if feh_value is not None else 0.0)
+        if _kiel_regions(ax, sm, pal, feh_value if feh_value is not None else 0.0) is None:
+            note = "regions not shaded: hrstage.classifier.logl_from_logg unavailable"
     if sm is not None and show_curves:
         placed = []
-        for name, curve in (getattr(sm, "curves", {}) or {}).items():
+        for name, curve in _select_curves(sm, show_curves):
             cg = _curve_logg(curve)
             if cg is None:
                 continue
@@ -689,7 +742,7 @@ def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flag
             label = getattr(curve, "label", None) or name
             (line,) = ax.plot(curve.logt, cg, color=pal.curve, zorder=2.5, label=label, **style)
             line.set_gid(f"curve:{name}")
-            t = _along_line_label(ax, curve.logt, cg, label, avoid=placed, gid=f"curve_label:{name}",
+            t = _along_line_label(ax, curve.logt, cg, CURVE_SHORT.get(name, label), avoid=placed, gid=f"curve_label:{name}",
                                   fontsize="x-small", color=pal.curve,
                                   bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.75))
             if t is not None:
@@ -709,7 +762,7 @@ def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flag
         _legend(ax, handles, own)
     if caption:
         n_missing = int((~(np.isfinite(x) & np.isfinite(g))).sum())
-        _caption(ax, _caption_text(feh_value, n_missing))
+        _caption(ax, _caption_text(feh_value, n_missing, note))
     _label_targets(ax, data, stars.n, x, g, label_column, label_rows, labels)
     return ax
 

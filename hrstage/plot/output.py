@@ -74,6 +74,7 @@ def write_figure(ax_or_fig, path, *, overwrite=False, dpi=200):
     try:
         with os.fdopen(fd, "wb") as fh:
             fig.savefig(fh, format=fmt, dpi=dpi, metadata=metadata)
+        os.chmod(tmp, (path.stat().st_mode & 0o7777) if path.exists() else 0o644)
         os.replace(tmp, path)
     except BaseException:
         try:
