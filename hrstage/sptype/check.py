@@ -427,7 +427,9 @@ def summarise_checks(chk: TypeCheck, *, by: str = "class"):
     astropy.table.Table
         Columns ``lumclass`` (``'(none)'`` for types without a class), ``n``, ``consistent``,
         ``conflicts``, ``lumclass_conflicts``, ``tclass_conflicts``, ``not_checkable`` and
-        ``conflict_rate`` = conflicts / (consistent + conflicts) (NaN when nothing was checkable).
+        ``conflict_rate`` = conflicts / checked, where checked counts the consistent stars, the
+        conflicts and the types without a class whose Teff was checked and passed
+        (``not_checkable:no_lumclass``); NaN when nothing was checkable.
         A last row ``'(all)'`` sums every class.
     """
     from astropy.table import Table
@@ -436,10 +438,7 @@ def summarise_checks(chk: TypeCheck, *, by: str = "class"):
         raise HrstageInputError(f"by: expected 'class' or 'main', got {by!r}")
     lc = chk.lumclass.astype(str)
     if by == "main":
-        import re
-
-        fold = np.vectorize(lambda s: re.sub(r"(?<=[IV])(ab|a|b)\b", "", s) if not s.startswith("Ia")
-                            and not s.startswith("Iab") else s, otypes=[str])
+        fold = np.vectorize(_fold_main, otypes=[str])
         lc = fold(lc) if lc.size else lc
     lc = np.where(lc == "", "(none)", lc)
     v = chk.verdict.astype(str)
@@ -448,6 +447,7 @@ def summarise_checks(chk: TypeCheck, *, by: str = "class"):
     lconf = np.char.find(v, "lumclass_conflict") >= 0
     tconf = np.char.startswith(v, "tclass")
     nc = np.char.startswith(v, "not_checkable")
+    t_only = v == "not_checkable:no_lumclass"  # Teff was checked and passed
     order = _class_order(np.unique(lc))
     rows = []
     for name in order + ["(all)"]:
@@ -455,8 +455,9 @@ def summarise_checks(chk: TypeCheck, *, by: str = "class"):
         nn = int(m.sum())
         ncons = int((cons & m).sum())
         ncf = int((conflict & m).sum())
+        checked = ncons + ncf + int((t_only & m).sum())
         rows.append((name, nn, ncons, ncf, int((lconf & m).sum()), int((tconf & m).sum()), int((nc & m).sum()),
-                     ncf / (ncons + ncf) if ncons + ncf else np.nan))
+                     ncf / checked if checked else np.nan))
     names = ("lumclass", "n", "consistent", "conflicts", "lumclass_conflicts", "tclass_conflicts", "not_checkable",
              "conflict_rate")
     t = Table(rows=rows, names=names, dtype=(str, int, int, int, int, int, int, float))
@@ -464,6 +465,19 @@ def summarise_checks(chk: TypeCheck, *, by: str = "class"):
     t.meta["note"] = ("Indicative: conflicts may come from the type, the parallax, extinction, binarity or "
                       "the calibration; they do not replace a spectroscopic analysis.")
     return t
+
+
+def _fold_v(m) -> str:
+    return "V" if m.group(0).startswith("V") else ""
+
+
+def _fold_main(lc: str) -> str:
+    """Fold Keenan sub-classes of II-V into the main class: 'IIIb' -> 'III', 'III-IIIb' -> 'III'."""
+    import re
+
+    parts = [re.sub(r"(?<=II|IV|.V)(ab|a|b)$|^V(ab|a|b)$", _fold_v, p) for p in lc.split("-")] if lc else [lc]
+    parts = list(dict.fromkeys(parts))
+    return "-".join(parts)
 
 
 _ORDER = ["0", "Ia", "Ia-Iab", "Iab", "Iab-Ib", "Ib", "I", "Ib-II", "II", "II-III", "III", "III-IV", "IV", "IV-V",
