@@ -1,0 +1,237 @@
+"""The HTML report: contents, escaping, self-containment, and a headless-Chromium check."""
+
+import datetime as dt
+import re
+import shutil
+import subprocess
+from html.parser import HTMLParser
+
+import numpy as np
+import pytest
+from astropy.table import Table
+
+from hrstage import flags as F
+from hrstage.errors import HrstageInputError
+from hrstage.report import INFORMATIONAL_BITS, render_report, write_report
+
+EVIL = "<script>alert(1)</script>"
+WHEN = dt.datetime(2030, 1, 2, 3, 4, 5, tzinfo=dt.timezone.utc)
+
+# invented scenario: a survey of 40 synthetic stars with known stage counts
+COUNTS = {"main_sequence": 20, "subgiant": 6, "giant": 8, "supergiant": 2, "white_dwarf": 3, "unclassified": 1}
+
+
+def synthetic_table():
+    stage = np.concatenate([[s] * k for s, k in COUNTS.items()])
+    n = stage.size
+    flags = np.full(n, F.NO_METALLICITY, dtype=np.int64)
+    flags[[1, 4, 9]] |= F.LOW_PARALLAX_SNR
+    flags[[2, 30]] |= F.COOL_BUT_MASSIVE
+    flags[[5]] |= F.OUTSIDE_VALIDITY
+    flags[[7, 8]] |= F.BC_FALLBACK
+    names = [f"Synth-{i:02d}" for i in range(n)]
+    names[4] = EVIL
+    verdict = np.array(["consistent"] * n, dtype=object)
+    verdict[[3, 4, 25]] = "lumclass_conflict"
+    verdict[[6]] = "tclass_conflict"
+    verdict[[10, 11]] = "not_checkable:no_type"
+    flags[[3, 4, 25, 6]] |= F.SPTYPE_CONFLICT
+    return Table(
+        {
+            "name": names,
+            "teff_used": np.linspace(3500.0, 20000.0, n),
+            "logl_used": np.linspace(-2.0, 4.0, n),
+            "stage": stage,
+            "stage_prob": np.full(n, 0.9),
+            "flags": flags,
+            "flag_text": [F.describe(f) for f in flags],
+            "sptype": ["K0 III"] * n,
+            "sptype_verdict": verdict.astype(str),
+            "sptype_suggested": ["V"] * n,
+            "sptype_nsigma": np.full(n, 3.5),
+            f"odd {EVIL} column": np.zeros(n),
+        }
+    )
+
+
+class _Tables(HTMLParser):
+    """Collects the rows of each <table id=...> and the page's text and tag names."""
+
+    def __init__(self):
+        super().__init__()
+        self.tables, self.tags, self.text = {}, [], []
+        self._table = None
+        self._section = None
+        self._row = None
+        self._cell = None
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append(tag)
+        a = dict(attrs)
+        if tag == "table":
+            self._table = a.get("id")
+            self.tables[self._table] = {"tbody": [], "tfoot": []}
+        elif tag in ("tbody", "tfoot", "thead"):
+            self._section = tag
+        elif tag == "tr":
+            self._row = []
+        elif tag == "td":
+            self._cell = []
+
+    def handle_endtag(self, tag):
+        if tag == "td" and self._cell is not None:
+            self._row.append("".join(self._cell).strip())
+            self._cell = None
+        elif tag == "tr" and self._row is not None:
+            if self._section in ("tbody", "tfoot") and self._table:
+                self.tables[self._table][self._section].append(self._row)
+            self._row = None
+
+    def handle_data(self, data):
+        self.text.append(data)
+        if self._cell is not None:
+            self._cell.append(data)
+
+
+def parse(doc):
+    p = _Tables()
+    p.feed(doc)
+    return p
+
+
+@pytest.fixture(scope="module")
+def doc():
+    return render_report(synthetic_table(), figure=False, generated_at=WHEN,
+                         settings={"feh": "column [Fe/H]", "n_draws": 128, EVIL: EVIL})
+
+
+def test_stage_counts(doc):
+    rows = parse(doc).tables["stage-counts"]["tbody"]
+    got = {r[1]: int(r[2]) for r in rows}
+    assert got == COUNTS
+    share = {r[1]: r[3] for r in rows}
+    assert share["main_sequence"] == "50.0 %" and share["white_dwarf"] == "7.5 %"  # 20/40, 3/40
+    assert parse(doc).tables["stage-counts"]["tfoot"][0][2] == "40"
+
+
+def test_catalogue_text_is_escaped(doc):
+    assert EVIL not in doc
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in doc
+    p = parse(doc)
+    assert "script" not in p.tags  # no script element at all
+    assert EVIL in "".join(p.text)  # ... but the name is there, as text (star name, column name, setting)
+    assert doc.count("&lt;script&gt;alert(1)&lt;/script&gt;") >= 4
+
+
+def test_self_contained(doc):
+    assert not re.search(r"""(src|href)\s*=\s*["']?\s*(https?:|//)""", doc, re.I)
+    assert "@import" not in doc and "url(" not in doc
+
+
+def test_flagged_and_sptype_tables(doc):
+    t = synthetic_table()
+    p = parse(doc)
+    fl = np.asarray(t["flags"])
+    notable = np.flatnonzero((fl & ~INFORMATIONAL_BITS) != 0)
+    rows = p.tables["flagged-stars"]["tbody"]
+    assert [int(r[0]) for r in rows] == list(notable)
+    assert any("LOW_PARALLAX_SNR" in r[4] for r in rows)
+    conflicts = p.tables["sptype-conflicts"]["tbody"]
+    assert [int(r[0]) for r in conflicts] == [3, 4, 6, 25]
+    assert conflicts[1][1] == EVIL and conflicts[0][4] == "lumclass_conflict" and conflicts[0][5] == "V"
+    verdicts = {r[0]: int(r[1]) for r in p.tables["sptype-verdicts"]["tbody"]}
+    assert verdicts == {"consistent": 34, "lumclass_conflict": 3, "not_checkable": 2, "tclass_conflict": 1}
+
+
+def test_cautions(doc):
+    text = " ".join(parse(doc).text)
+    assert "do not replace a spectroscopic analysis" in text
+    assert "3 star(s) have a parallax signal-to-noise below" in text
+    assert "1 star(s) lie outside the validity range" in text
+    assert "2 needed a fallback" in text
+
+
+def test_settings_and_versions(doc):
+    p = parse(doc)
+    versions = {r[0] for r in p.tables["versions"]["tbody"]}
+    assert {"hrstage", "python", "numpy", "astropy", "matplotlib"} <= versions
+    settings = {r[0]: r[1] for r in p.tables["settings-table"]["tbody"]}
+    assert settings["n_draws"] == "128"
+    assert "2030-01-02 03:04:05" in doc
+
+
+def test_row_cap():
+    doc = render_report(synthetic_table(), figure=False, max_rows=2, generated_at=WHEN)
+    p = parse(doc)
+    assert len(p.tables["flagged-stars"]["tbody"]) == 2
+    assert len(p.tables["sptype-conflicts"]["tbody"]) == 2
+    n_flagged = int(((np.asarray(synthetic_table()["flags"]) & ~INFORMATIONAL_BITS) != 0).sum())
+    assert f"{n_flagged - 2} more flagged stars not shown" in doc
+    assert "2 more spectral-type conflicts not shown" in doc
+
+
+def test_missing_optional_columns():
+    t = Table({"teff": [5000.0, 6000.0], "lum": [1.0, 2.0], "stage": ["main_sequence", "giant"]})
+    doc = render_report(t, figure=False)
+    assert "No flagged stars" in doc and 'id="sptype"' not in doc
+    with pytest.raises(HrstageInputError, match="stage"):
+        render_report(Table({"teff": [5000.0]}), figure=False)
+
+
+def test_write_report(tmp_path):
+    path = write_report(synthetic_table(), tmp_path / "r.html", figure=False)
+    assert path.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
+    with pytest.raises(HrstageInputError, match="exists"):
+        write_report(synthetic_table(), path, figure=False)
+    write_report(synthetic_table(), path, figure=False, overwrite=True)
+    with pytest.raises(HrstageInputError, match="html"):
+        write_report(synthetic_table(), tmp_path / "r.txt", figure=False)
+    assert not list(tmp_path.glob("*.part"))
+
+
+@pytest.fixture(scope="module")
+def report_with_figure(tmp_path_factory):
+    stagemap = pytest.importorskip("hrstage.stagemap")
+    path = tmp_path_factory.mktemp("report") / "report.html"
+    write_report(synthetic_table(), path, stage_map=stagemap.stage_map(feh=0.0), generated_at=WHEN)
+    return path
+
+
+def test_figure_embedded(report_with_figure):
+    doc = report_with_figure.read_text(encoding="utf-8")
+    m = re.search(r'<img id="hr-diagram" src="data:image/png;base64,([A-Za-z0-9+/=]+)"', doc)
+    assert m
+    import base64
+
+    assert base64.b64decode(m.group(1)).startswith(b"\x89PNG")
+
+
+def _chromium(args, tmp_path, timeout=90):
+    exe = shutil.which("chromium") or shutil.which("chromium-browser")
+    if exe is None:
+        pytest.skip("chromium is not on PATH (Debian package 'chromium'; .ci/run installs it)")
+    cmd = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+           "--disable-background-networking", "--disable-component-update", "--disable-sync",
+           f"--user-data-dir={tmp_path / 'profile'}", *args]
+    return subprocess.run(cmd, capture_output=True, timeout=timeout, check=False)
+
+
+def test_chromium_screenshot_and_dom(report_with_figure, tmp_path):
+    shot = tmp_path / "shot.png"
+    run = _chromium([f"--screenshot={shot}", "--window-size=1200,2000", report_with_figure.as_uri()], tmp_path)
+    assert shot.is_file() and shot.stat().st_size > 10_000, run.stderr.decode(errors="replace")[-2000:]
+    import matplotlib.image as mpimg
+
+    img = mpimg.imread(shot)
+    assert img.shape[0] == 2000 and img.shape[1] == 1200
+    assert float(img[..., :3].std()) > 0.05  # not a blank page
+
+    dom = _chromium(["--dump-dom", report_with_figure.as_uri()], tmp_path).stdout.decode("utf-8")
+    p = parse(dom)
+    t = synthetic_table()
+    n_flagged = int(((np.asarray(t["flags"]) & ~INFORMATIONAL_BITS) != 0).sum())
+    assert len(p.tables["stage-counts"]["tbody"]) == len(COUNTS)
+    assert len(p.tables["flagged-stars"]["tbody"]) == n_flagged
+    assert len(p.tables["sptype-conflicts"]["tbody"]) == 4
+    assert "script" not in p.tags  # the browser built no script element
+    assert EVIL in "".join(p.text)  # the name is rendered as text
