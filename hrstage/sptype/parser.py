@@ -324,6 +324,11 @@ class _Comp:
         self.tail = ""
         self.notes: list[str] = []
         self.quarter = ""
+        self.hot_sd_class = ""
+
+    def has_m(self) -> bool:
+        """Metallic-line code 'm' present."""
+        return any(p.rstrip(":?") == "m" for p in self.pecs)
 
     def lum(self) -> tuple[str, tuple[float, float]]:
         if not self.lum_tokens:
@@ -397,7 +402,7 @@ def _read_temp(sc: _Scan, c: _Comp, first: bool = True) -> bool:
         c.notes.append(f"{letter}{cno}: CNO-anomaly class read as {letter} with code {cno}")
     # range of subtypes or classes (R2/R3)
     rm = sc.peek(_TRANGE)
-    if rm and (rm.group(2) or rm.group(3)) and not sc.peek(_P_TYPERANGE_FULL):
+    if rm and (rm.group(2) or rm.group(3)):
         sc.match(_TRANGE)
         letter2 = rm.group(2) or letter
         s2, lo2, hi2 = _type_numeric(letter2, rm.group(3), rm.group(4))
@@ -413,11 +418,6 @@ def _read_temp(sc: _Scan, c: _Comp, first: bool = True) -> bool:
     if um:
         c.temp_unc = True
     return True
-
-
-# a full type after '-' or '/': class letter + digit, then (later) a luminosity class or pec.
-# Used to tell 'F6Ib-G2Ib' (type range, read after the class) from 'A3-F0V' (subtype range).
-_P_TYPERANGE_FULL = _R(r"$^")  # subtype ranges are always read inside _read_temp
 
 
 def _read_lum(sc: _Scan, c: _Comp) -> None:
@@ -581,16 +581,10 @@ def _parse_mk(sc: _Scan, c: _Comp) -> bool:
         c.notes.append(f"prefix {c.prefix!r} and a luminosity class both given; the class is used")
     # chemically peculiar / metallic-line stars
     chem = any(p.rstrip(":?")[:2] in _CHEMICAL for p in c.pecs)
-    if c.tclass in ("B", "A", "F") and (chem or c.has_m()) or (c.tclass == "A" and "p" in [p.rstrip(":?") for p in c.pecs]):
+    is_p = "p" in [p.rstrip(":?") for p in c.pecs]
+    if (c.tclass in ("B", "A", "F") and (chem or c.has_m())) or (c.tclass == "A" and is_p):
         c.kind = "am_ap"
     return True
-
-
-def _has_m(self: _Comp) -> bool:
-    return any(p.rstrip(":?") == "m" for p in self.pecs)
-
-
-_Comp.has_m = _has_m  # type: ignore[attr-defined]
 
 
 def _parse_am(sc: _Scan, c: _Comp) -> bool:
@@ -816,7 +810,7 @@ def _parse_hot_sd(sc: _Scan, c: _Comp) -> bool:
         c.temp_unc = True
     _read_pecs(sc, c)
     if not c.lum_tokens:
-        c.hot_sd_class = "sd" + m.group(1)  # type: ignore[attr-defined]
+        c.hot_sd_class = "sd" + m.group(1)
     return True
 
 
@@ -873,7 +867,7 @@ def _parse_component(text: str) -> SpType:
     if not ok:
         return SpType(raw=raw, reason=f"no spectral class found at {s[:20]!r}")
     out = c.freeze()
-    hs = getattr(c, "hot_sd_class", None)
+    hs = c.hot_sd_class
     if hs:
         out = replace(out, lumclass=hs, lum_range=(8.0, 9.0))
     if out.kind == "white_dwarf":
