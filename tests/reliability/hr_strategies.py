@@ -26,6 +26,9 @@ hostile_float = st.one_of(nasty_float, any_float)
 #: The HR box in which stars live (log Teff 3.3..5.0, i.e. 2000..100 000 K; log L -5..7).
 logt_box = st.floats(3.3, 5.0, allow_nan=False, allow_infinity=False)
 logl_box = st.floats(-5.0, 7.0, allow_nan=False, allow_infinity=False)
+#: What classify_hr accepts as log Teff (documented: 2 <= logt <= 6.5, or not finite = missing;
+#: a finite value outside is taken as a unit mistake and raises HrstageInputError).
+logt_domain = st.one_of(st.floats(2.0, 6.5), st.sampled_from([2.0, 6.5, np.nan, np.inf, -np.inf]))
 #: Metallicities the analytic fits are meant for, and a little beyond (clipping path).
 feh_box = st.floats(-2.5, 0.5, allow_nan=False, allow_infinity=False)
 
@@ -39,12 +42,15 @@ def float_arrays(n: int, elements=hostile_float):
 def hostile_hr_inputs(draw, max_rows: int = 40):
     """Keyword arguments for ``classify_hr`` where every value may be hostile.
 
+    log Teff stays inside the classifier's documented domain (or is not finite); log L, [Fe/H]
+    and mass may be anything.
+
     Errors are non-negative, NaN or infinite (a negative sigma is a different contract: the row
     must be rejected with a reason, tested separately); the correlation lies in [-1, 1] or is NaN.
     """
     n = draw(st.integers(1, max_rows))
     kwargs = {
-        "logt": draw(float_arrays(n, st.one_of(hostile_float, logt_box))),
+        "logt": draw(float_arrays(n, st.one_of(logt_domain, logt_box))),
         "logl": draw(float_arrays(n, st.one_of(hostile_float, logl_box))),
     }
     if draw(st.booleans()):
