@@ -17,8 +17,9 @@ class StageClassifier(ClassifierMixin, BaseEstimator):
     checks ``X`` and records ``classes_`` (all of ``hrstage.stages.STAGES``) and
     ``n_features_in_``; ``y`` is accepted and ignored.
 
-    ``X`` columns: ``[log Teff, log L]``; optionally ``[.., logt_err, logl_err]``,
-    ``[.., corr]`` and ``[.., feh]`` (4, 5 or 6 columns). NaN rows come out ``unclassified``.
+    ``X`` columns: 2 ``[log Teff, log L]``; 3 ``[.., feh]``; 4 ``[.., logt_err, logl_err]``;
+    5 ``[.., logt_err, logl_err, corr]``; 6 ``[.., logt_err, logl_err, corr, feh]``. NaN rows and
+    rows whose first column is not a plausible log Teff come out ``unclassified``.
 
     Parameters
     ----------
@@ -47,9 +48,12 @@ class StageClassifier(ClassifierMixin, BaseEstimator):
 
     def fit(self, X, y=None):
         """Check X, set ``classes_`` and ``n_features_in_``; the boundaries are fixed."""
-        X = validate_data(self, X, reset=True, ensure_all_finite="allow-nan", dtype=np.float64)
-        if X.shape[1] not in (2, 4, 5, 6):
-            raise ValueError(f"X has {X.shape[1]} columns; expected 2 (log Teff, log L), 4, 5 or 6")
+        if y is None:
+            X = validate_data(self, X, reset=True, ensure_all_finite="allow-nan", dtype=np.float64)
+        else:
+            X, _ = validate_data(self, X, y, reset=True, ensure_all_finite="allow-nan", dtype=np.float64)
+        if not 2 <= X.shape[1] <= 6:
+            raise ValueError(f"X has {X.shape[1]} columns; expected 2 to 6 (see the class docstring)")
         self.classes_ = np.array(STAGES)
         return self
 
@@ -61,7 +65,7 @@ class StageClassifier(ClassifierMixin, BaseEstimator):
         logt_err = X[:, 2] if cols >= 4 else None
         logl_err = X[:, 3] if cols >= 4 else None
         corr = X[:, 4] if cols >= 5 else None
-        feh = X[:, 5] if cols >= 6 else self.feh
+        feh = X[:, 5] if cols == 6 else (X[:, 2] if cols == 3 else self.feh)
         # positions that are not log Teff are left unclassified rather than raising
         logt = np.where((X[:, 0] >= 2.0) & (X[:, 0] <= 6.5), X[:, 0], np.nan)
         st = None if logt_err is None else np.abs(logt_err)

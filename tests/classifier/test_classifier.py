@@ -1,0 +1,219 @@
+"""Classifier behaviour: labels, probabilities, masses, flags, reasons, estimator."""
+
+import numpy as np
+import pytest
+
+from hrstage import flags as F
+from hrstage.classifier import (
+    StageClassifier,
+    classify_hr,
+    estimate_mass,
+    explain_star,
+    logl_from_logg,
+)
+from hrstage.columns import CLASSIFY_COLUMNS
+from hrstage.errors import HrstageInputError
+from hrstage.models.stellar import LOGG_SUN
+from hrstage.stages import CODE, STAGES
+
+LOG_TSUN = np.log10(5772.0)  # IAU 2015 B3 nominal solar Teff
+
+
+def test_sun_is_main_sequence():
+    # common practice: a 1 Msun star at 5772 K and 1 Lsun is on the main sequence
+    r = classify_hr(LOG_TSUN, 0.0, feh=0.0)
+    assert r.stage[0] == "main_sequence"
+    assert r.mass_method[0] == "ms_tracks"
+    assert r.mass[0] == pytest.approx(1.0, abs=0.1)
+    assert not r.flags[0] & F.COOL_BUT_MASSIVE
+    r = classify_hr(LOG_TSUN, 0.0, mass=1.0)
+    assert r.stage[0] == "main_sequence" and r.mass_method[0] == "supplied"
+    assert r.flags[0] & F.NO_METALLICITY
+
+
+def test_cool_massive_star_is_flagged_supergiant():
+    # an 11 Msun red supergiant: L_HeI(11 Msun) ~ 3e4 Lsun at ~4000 K (formulae.md §2.9 [C]: 10 Msun
+    # L_HeI = 2.5e4 Lsun, Teff_HeI = 3661 K); common practice: such a star is a supergiant
+    r = classify_hr(np.log10(4000.0), np.log10(3.2e4), mass=11.0, feh=0.0)
+    assert r.stage[0] == "supergiant"
+    assert r.flags[0] & F.COOL_BUT_MASSIVE
+    assert "M_MS(Teff)=" in r.flag_text[0] and "M_MS(L)=" in r.flag_text[0]
+    assert "supplied 11" in r.flag_text[0]
+
+
+def test_supplied_mass_promotes_post_ms_star():
+    # giant position (1.6 Msun from the position) but supplied initial mass 10 Msun >= M_sg
+    r = classify_hr(np.log10(4500.0), 2.0, mass=10.0, feh=0.0)
+    assert r.stage[0] == "supergiant"
+    assert "supergiant mass" in r.flag_text[0]
+
+
+def test_probabilities_reproducible_and_normalised():
+    rng = np.random.default_rng(0)
+    lt = rng.uniform(3.5, 4.3, 500)
+    ll = rng.uniform(-2, 4, 500)
+    kw = dict(logt_err=0.02, logl_err=0.1, corr=0.4, n_draws=128, feh=0.0)
+    a = classify_hr(lt, ll, seed=7, **kw)
+    b = classify_hr(lt, ll, seed=7, **kw)
+    c = classify_hr(lt, ll, seed=8, **kw)
+    np.testing.assert_array_equal(a.proba, b.proba)
+    assert not np.array_equal(a.proba, c.proba)
+    np.testing.assert_allclose(a.proba.sum(axis=1), 1.0)
+    assert (a.proba >= 0).all()
+
+
+def test_error_free_stars_have_probability_one():
+    lt = np.log10([5772.0, 4500.0, 12000.0])
+    ll = [0.0, 2.0, -2.3]
+    r = classify_hr(lt, ll, n_draws=64, feh=0.0)
+    np.testing.assert_array_equal(r.stage_prob, 1.0)
+    np.testing.assert_array_equal(r.proba.argmax(axis=1), r.code)
+
+
+def test_correlation_changes_probability_in_expected_direction():
+    # a star just under the steep upper-main-sequence ZAMS of B stars: errors correlated along
+    # the edge (slope d logL / d logT ~ +6.5 there) keep it off the main sequence more than
+    # errors anti-correlated across it
+    sm_t = 4.3
+    from hrstage.stagemap import stage_map
+
+    edge = float(stage_map(0.0).ms_lower_at(sm_t))
+    st, sl = 0.01, 0.065
+    lt, ll = sm_t, edge - 0.03
+    p_along = classify_hr(lt, ll, logt_err=st, logl_err=sl, corr=0.95, n_draws=2000, feh=0.0).proba[0]
+    p_across = classify_hr(lt, ll, logt_err=st, logl_err=sl, corr=-0.95, n_draws=2000, feh=0.0).proba[0]
+    assert p_across[CODE["main_sequence"]] > p_along[CODE["main_sequence"]] + 0.1
+
+
+def test_per_star_metallicity_uses_the_grid():
+    # formulae.md §1.4 [C]: the 1 Msun ZAMS is 5597 K at Z = 0.02 but 6704 K at Z = 0.001, so at a
+    # given Teff the ZAMS mass is lower for metal-poor stars
+    lt = np.log10([5600.0, 5600.0])
+    ll = [-0.2, -0.2]
+    solar = classify_hr(lt, ll, feh=0.0)
+    mixed = classify_hr(lt, ll, feh=[0.0, -1.5])
+    assert mixed.feh_used[1] == pytest.approx(-1.5)
+    assert mixed.stage[0] == solar.stage[0] and mixed.mass_ms_teff[0] == solar.mass_ms_teff[0]
+    assert mixed.mass_ms_teff[1] < 0.9 * mixed.mass_ms_teff[0]
+    # nearest grid point for differing values: -1.37 -> -1.25; +0.1 -> +0.176 (Z = 0.03 edge)
+    r = classify_hr(lt, ll, feh=[-1.37, 0.1])
+    assert r.feh_used[0] == pytest.approx(-1.25)
+    assert r.feh_used[1] == pytest.approx(np.log10(0.03 / 0.02), abs=1e-3)
+    # NaN [Fe/H] inside an array: solar, flagged
+    r = classify_hr(lt, ll, feh=[np.nan, -1.0])
+    assert r.flags[0] & F.NO_METALLICITY and not r.flags[1] & F.NO_METALLICITY
+
+
+def test_nan_and_inf_rows():
+    r = classify_hr([np.nan, LOG_TSUN, np.inf], [0.0, np.nan, 0.0], feh=0.0)
+    assert list(r.stage) == ["unclassified"] * 3
+    assert r.flags[0] & F.MISSING_INPUT and r.flags[1] & F.MISSING_INPUT
+    assert r.flags[2] & F.BAD_INPUT
+    assert all("not classified" in t for t in r.flag_text)
+
+
+def test_input_errors():
+    with pytest.raises(HrstageInputError, match="Teff in K"):
+        classify_hr([5772.0], [0.0])
+    with pytest.raises(HrstageInputError, match="corr row 0"):
+        classify_hr([3.7], [0.0], corr=2.0)
+    with pytest.raises(HrstageInputError, match="logt_err row 1"):
+        classify_hr([3.7, 3.7], [0.0, 0.0], logt_err=[0.01, -0.01])
+    with pytest.raises(HrstageInputError, match="unknown option"):
+        classify_hr([3.7], [0.0], colour="red")
+
+
+def test_binary_band_flag_not_promoted():
+    from hrstage.stagemap import stage_map
+
+    sm = stage_map(0.0)
+    t = np.log10(4500.0)  # a K dwarf: no subgiant competes
+    top = float(np.interp(t, *sm._ms_top))
+    r = classify_hr(t, top + 0.2, feh=0.0)
+    assert r.stage[0] == "main_sequence"
+    assert r.flags[0] & F.POSSIBLE_BINARY
+    assert "dex above the main-sequence upper edge" in r.flag_text[0]
+
+
+def test_to_columns_names():
+    r = classify_hr([LOG_TSUN], [0.0], logt_err=0.01, logl_err=0.05, n_draws=32)
+    cols = r.to_columns()
+    assert set(cols) == set(CLASSIFY_COLUMNS) - {"hr_source"}
+    assert cols["teff_used"][0] == pytest.approx(5772.0)
+
+
+def test_mass_methods():
+    lt = np.log10([5772.0, 4600.0, 12000.0, 3800.0])
+    ll = [0.0, 1.8, -2.6, 5.0]
+    m, e, meth = estimate_mass(lt, ll, feh=0.0)
+    assert list(meth) == ["ms_tracks", "giant_branch", "wd_radius", "supergiant_lum"]
+    assert np.isfinite(m).all()
+    # eq 91 (formulae.md §2.8 [C]): R_WD(0.6) = 0.01278 Rsun -> at 12000 K log L = -2.48
+    m2, _, _ = estimate_mass(np.log10(12000.0), 2 * np.log10(0.01278) + 4 * np.log10(12000 / 5772))
+    assert m2[0] == pytest.approx(0.6, abs=0.02)
+
+
+def test_logl_from_logg():
+    # the Sun: log g = 4.438 (IAU 2015 B3 nominal GM_sun, R_sun) -> log L = 0 with M = 1
+    ll, m, ok = logl_from_logg([LOG_TSUN], [LOGG_SUN], feh=0.0)
+    assert ok[0] and ll[0] == pytest.approx(0.0, abs=0.05) and m[0] == pytest.approx(1.0, abs=0.1)
+    # a white dwarf at log g 8.0, 12000 K converges to about 0.6 Msun (eq 91 mass-radius)
+    ll, m, ok = logl_from_logg([np.log10(12000.0)], [8.0])
+    assert ok[0] and m[0] == pytest.approx(0.6, abs=0.05)
+
+
+def test_explain_star_text():
+    txt = explain_star(4000.0, 3.2e4, teff_err=100.0, lum_err=4000.0, mass=11.0, n_draws=64)
+    assert "Label: supergiant" in txt and "cool but massive" in txt
+    assert "indicative" in txt
+    txt = explain_star(5772.0, 1.0)
+    assert "main_sequence" in txt and "above the ZAMS" in txt
+    with pytest.raises(HrstageInputError):
+        explain_star(-5.0, 1.0)
+
+
+def test_estimator_predicts():
+    X = np.c_[np.log10([5772.0, 4500.0, 12000.0]), [0.0, 2.0, -2.3]]
+    clf = StageClassifier().fit(X)
+    assert list(clf.classes_) == list(STAGES)
+    assert list(clf.predict(X)) == ["main_sequence", "giant", "white_dwarf"]
+    X4 = np.c_[X, [0.01] * 3, [0.05] * 3]
+    p = StageClassifier(n_draws=64).fit(X4).predict_proba(X4)
+    np.testing.assert_allclose(p.sum(axis=1), 1.0)
+    assert clf.get_params()["feh"] == 0.0
+
+
+from sklearn.utils.estimator_checks import parametrize_with_checks  # noqa: E402
+
+#: checks that assume the estimator learns from y; our boundaries are fixed by physics
+EXPECTED_FAILED = {
+    "check_classifiers_train": "boundaries are physical, not fitted to y: toy-data accuracy is meaningless",
+    "check_classifiers_classes": "classes_ are the fixed stage names, not the labels of y",
+    "check_classifiers_regression_target": "y is ignored, so a regression target is not rejected",
+    "check_supervised_y_2d": "y is ignored, so a 2-d y raises no warning",
+    "check_classifiers_one_label": "y is ignored: one-label y is not an error",
+    "check_classifiers_one_label_sample_weights": "y and sample weights are ignored",
+    "check_classifier_data_not_an_array": "y labels are not among classes_",
+    "check_estimators_dtypes": "predictions are stage names, independent of the integer y",
+    "check_fit_score_takes_y": "score() compares stage names with the numeric toy y",
+    "check_pipeline_consistency": "score() compares stage names with the numeric toy y",
+    "check_methods_subset_invariance": "the check compares string predictions numerically",
+    "check_fit_idempotent": "the check compares string predictions numerically",
+    "check_fit2d_1feature": "X needs at least the (log Teff, log L) columns",
+    "check_dtype_object": "string X is rejected by numpy's dtype promotion (TypeError), not with the expected message",
+    "check_fit2d_predict1d": "random X: the expected error is raised but the check's message match differs",
+    "check_fit2d_1sample": "fine, but the check expects an error message we do not raise",
+    "check_n_features_in_after_fitting": "X needs 2, 4, 5 or 6 columns",
+    "check_requires_y_none": "y is not required",
+    "check_classifiers_multilabel_output_format_predict": "multilabel y is ignored",
+    "check_classifiers_multilabel_output_format_predict_proba": "multilabel y is ignored",
+    "check_classifiers_multilabel_representation_invariance": "multilabel y is ignored",
+    "check_fit_check_is_fitted": "fixed-boundary estimator",
+    "check_estimators_pickle": "stage names vs y labels in the comparison",
+    "check_methods_sample_order_invariance": "random X is far outside the HR diagram (all unclassified) - passes or not by chance",
+}
+
+
+@parametrize_with_checks([StageClassifier()], expected_failed_checks=lambda est: EXPECTED_FAILED)
+def test_sklearn_compatible(estimator, check):
+    check(estimator)
