@@ -43,7 +43,6 @@ _TEFF_LUM_ROWS = [
     ("zero_lum", 5000.0, 0.0, 0.0, "reject", F.BAD_INPUT),
     ("zero_teff", 0.0, 1.0, 0.0, "reject", F.BAD_INPUT),
     ("negative_teff", -5000.0, 1.0, 0.0, "reject", F.BAD_INPUT),
-    ("absurd_teff", 1e30, 1.0, 0.0, "any", 0),
     ("absurd_lum", 5000.0, 1e300, 0.0, "any", 0),
     ("tiny_lum", 5000.0, 1e-300, 0.0, "any", 0),
     ("nan_feh", 5772.0, 1.0, np.nan, "any", 0),
@@ -53,7 +52,11 @@ _TEFF_LUM_ROWS = [
 ]
 
 
-def teff_lum_table(repeat: int = 3, masked_rows: bool = True) -> tuple[Table, list[str], list[int]]:
+#: A Teff no star has (1e30 K, log Teff = 30): must be one bad row, not the end of the catalogue.
+ABSURD_TEFF_ROW = ("absurd_teff", 1e30, 1.0, 0.0, "reject", F.BAD_INPUT | F.MISSING_INPUT)
+
+
+def teff_lum_table(repeat: int = 3, masked_rows: bool = True, extra_rows=()) -> tuple[Table, list[str], list[int]]:
     """A ``teff``/``lum``/``feh`` table mixing good stars with every kind of bad value.
 
     The block of rows is repeated ``repeat`` times (shuffled with a fixed seed) so that bad rows
@@ -68,7 +71,7 @@ def teff_lum_table(repeat: int = 3, masked_rows: bool = True) -> tuple[Table, li
     bits : list of int
         Flag bits that must be set on ``"reject"`` rows (0 otherwise).
     """
-    rows = [r for _ in range(repeat) for r in _TEFF_LUM_ROWS]
+    rows = [r for _ in range(repeat) for r in (*_TEFF_LUM_ROWS, *extra_rows)]
     order = np.random.default_rng(8).permutation(len(rows))
     rows = [rows[i] for i in order]
     ids = [f"syn-{i:04d}-{r[0]}" for i, r in enumerate(rows)]
