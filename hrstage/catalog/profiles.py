@@ -98,7 +98,7 @@ _COMMON = {
     "feh_err": ("feh_err", "e_feh", "e_[fe/h]", "feh_error", "e_mh", "mh_err", "e_fe_h", "s_[fe/h]"),
     "mass": ("mass", "mass_msun", "mstar", "m_star"),
     "sptype": ("sptype", "sp_type", "spectral_type", "spt", "mk_type", "spectype", "spec_type"),
-    "id": ("id", "name", "star", "star_id", "object", "designation", "target"),
+    "id": ("id", "name", "star", "star_id", "object", "designation", "target", "target_id", "obj_id"),
     "logg": ("logg", "log_g", "logg_cgs"),
     "logg_err": ("logg_err", "e_logg", "logg_error", "sig_logg", "e_log_g", "s_logg"),
 }

@@ -1,0 +1,625 @@
+"""The pipeline face: a catalogue in, the same catalogue with stage columns out.
+
+:func:`classify_table` (``hrstage.classify``) works on an astropy Table in memory;
+:func:`classify_chunk` does the work for one chunk (astropy Table or pyarrow Table / RecordBatch)
+with options resolved once (:func:`resolve_options`), so the streaming path
+(:func:`classify_file`) and the Dask face reuse it; :func:`classify_file` streams a file of any
+size from disk to disk.
+
+For every row the pipeline
+
+1. reads the columns of the detected (or named) profile (:mod:`hrstage.catalog.profiles`) and
+   cleans them (:mod:`hrstage.catalog.sanity`: units, fill values, masks);
+2. places the star on the HR diagram (:mod:`hrstage.derive`) by the first route of the profile
+   whose inputs the row has (Teff+L, Teff+R, Gaia photometry+parallax, Johnson+parallax,
+   Teff+log g), falling back row by row to the next route;
+3. labels it (:func:`hrstage.classifier.classify_hr`) and, when an MK type column is present,
+   checks the type (:func:`hrstage.sptype.check_types`).
+
+Every input row comes out, in input order, with its columns untouched; a row that cannot be placed
+is ``unclassified`` with the reason in ``flag_text``. Labels are indicative: they come from analytic
+relations and the HR position and do not replace a spectroscopic analysis.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from . import __version__
+from . import flags as F
+from .catalog.profiles import ROLES, ROUTES, ColumnInfo, ColumnMapping, detect_profile, infos_from_table
+from .catalog.sanity import MISSING, NONPHYSICAL, OK, SENTINEL, STATUS_TEXT, extract_roles
+from .columns import CLASSIFY_COLUMNS, COLUMNS, SPTYPE_COLUMNS
+from .errors import HrstageInputError
+from .stages import STAGES
+
+CAUTION = ("Stage labels are indicative: they follow from the HR position and analytic stellar relations "
+           "and do not replace a spectroscopic analysis; luminosities from low signal-to-noise parallaxes "
+           "and relations used outside their range are flagged.")
+
+#: Roles whose absence makes a row's route impossible, per route (first alternative is the one read).
+_ROUTE_NEEDS = {
+    "teff_lum": ("teff", "logl"),
+    "teff_radius": ("teff", "radius"),
+    "gaia": ("g", "bp_rp", "parallax"),
+    "johnson": ("v", "b_v", "parallax"),
+    "teff_logg": ("teff", "logg"),
+}
+_ROUTE_ERRS = {
+    "teff_lum": ("teff_err", "logl_err"),
+    "teff_radius": ("teff_err", "radius_err"),
+    "gaia": ("g_err", "bp_rp_err", "parallax_err"),
+    "johnson": ("v_err", "b_v_err", "parallax_err"),
+    "teff_logg": ("teff_err", "logg_err"),
+}
+_ROUTE_TEXT = {
+    "teff_lum": "Teff and L", "teff_radius": "Teff and radius", "gaia": "Gaia G, BP-RP and parallax",
+    "johnson": "V, B-V and parallax", "teff_logg": "Teff and log g",
+}
+
+
+@dataclass
+class ClassifyOptions:
+    """Everything :func:`classify_chunk` needs, resolved once per catalogue.
+
+    Attributes
+    ----------
+    mapping : ColumnMapping or None
+        Role -> column (``None``: detect from the first chunk).
+    profile : str or None
+        Profile to force (``None``: detect; ``"none"``: only the named columns).
+    columns : dict
+        Explicit ``{role: column}``.
+    feh : float or None
+        [Fe/H] for rows without one (``None``: solar, flagged ``NO_METALLICITY``).
+    n_draws : int
+        Monte Carlo draws per star for the stage probabilities (0: point classification).
+    seed : int
+        Seed of the draws (reproducible; the stream also depends on the chunk's first row).
+    min_parallax_snr, parallax_zp, r_v : float
+        Passed to the photometric routes.
+    prefix : str
+        Put in front of the names of our columns (for inputs that already have one of them).
+    check_sptypes : bool
+        Check MK types when an ``sptype`` column is present.
+    params : dict
+        Further keyword parameters for :func:`hrstage.classifier.classify_hr`.
+    """
+
+    mapping: ColumnMapping | None = None
+    profile: str | None = None
+    columns: dict = field(default_factory=dict)
+    feh: float | None = None
+    n_draws: int = 0
+    seed: int = 20240601
+    min_parallax_snr: float = 5.0
+    parallax_zp: float = 0.0
+    r_v: float = 3.1
+    prefix: str = ""
+    check_sptypes: bool = True
+    params: dict = field(default_factory=dict)
+    source: str = "the table"
+
+    def settings(self) -> dict:
+        """JSON-friendly summary, written into the output's metadata."""
+        return {"profile": self.mapping.profile if self.mapping else self.profile,
+                "roles": dict(self.mapping.roles) if self.mapping else dict(self.columns),
+                "routes": list(self.mapping.routes) if self.mapping else [],
+                "feh_default": self.feh, "n_draws": self.n_draws, "seed": self.seed,
+                "min_parallax_snr": self.min_parallax_snr, "parallax_zp": self.parallax_zp,
+                "r_v": self.r_v, "prefix": self.prefix, "params": dict(self.params)}
+
+
+_OPTION_NAMES = {"profile", "columns", "feh", "n_draws", "draws", "seed", "min_parallax_snr", "parallax_zp",
+                 "r_v", "prefix", "check_sptypes", "params", "source"}
+
+
+def make_options(**options) -> ClassifyOptions:
+    """Keyword options -> :class:`ClassifyOptions` (mapping not yet resolved).
+
+    Role names are accepted as keywords for explicit columns (``teff="TEFF"``). ``feh`` and
+    ``mass`` may be a column name (str) or, for ``feh``, a number used for every row without one.
+    Unknown keywords raise :class:`~hrstage.errors.HrstageInputError` (typos do not pass silently).
+    """
+    columns = dict(options.pop("columns", None) or {})
+    kw = {}
+    for key, value in options.items():
+        if key == "feh" and value is not None and not isinstance(value, str):
+            kw["feh"] = float(value)
+        elif key in ROLES and key not in _OPTION_NAMES - {"feh"}:
+            if value is not None:
+                if not isinstance(value, str):
+                    raise HrstageInputError(f"option {key}= names a column and must be a string, got {value!r}")
+                columns[key] = value
+        elif key in ("draws", "n_draws"):
+            n = int(value)
+            if n < 0:
+                raise HrstageInputError(f"number of draws must be >= 0, got {value}")
+            kw["n_draws"] = n
+        elif key in _OPTION_NAMES:
+            kw[key] = value
+        else:
+            raise HrstageInputError(f"unknown option {key!r}; options are {', '.join(sorted(_OPTION_NAMES))} "
+                                    f"and the role names ({', '.join(ROLES)})")
+    if kw.get("min_parallax_snr") is not None and float(kw["min_parallax_snr"]) < 0:
+        raise HrstageInputError("min_parallax_snr must be >= 0")
+    return ClassifyOptions(columns=columns, **{k: v for k, v in kw.items() if v is not None or k == "feh"})
+
+
+def resolve_options(infos, opts: ClassifyOptions) -> ClassifyOptions:
+    """Detect the profile on the columns ``infos`` (names, units, UCDs) and fix the mapping."""
+    if opts.mapping is not None:
+        return opts
+    mapping = detect_profile(infos, profile=opts.profile, explicit=opts.columns, source=opts.source)
+    names = [i.name for i in infos]
+    clash = [opts.prefix + c for c in (*CLASSIFY_COLUMNS, *SPTYPE_COLUMNS) if opts.prefix + c in names]
+    if clash:
+        raise HrstageInputError(
+            f"the input already has column(s) {', '.join(clash)} that hrstage would add; pass a prefix for "
+            "ours (Python prefix='hrs_', command line --prefix hrs_) - input columns are never overwritten")
+    return replace(opts, mapping=mapping)
+
+
+# ----------------------------------------------------------------------------------- rows
+def _ok(status, role):
+    return status[role] == OK if role in status else None
+
+
+def _log_lum(values, status):
+    """One log L per row from lum and/or logl (lum first), with its error in dex."""
+    n = len(next(iter(values.values())))
+    logl = np.full(n, np.nan)
+    err = np.full(n, np.nan)
+    st = np.full(n, MISSING, dtype=np.int8)
+    if "logl" in values:
+        logl = values["logl"].copy()
+        st = status["logl"].copy()
+        if "logl_err" in values:
+            err = values["logl_err"].copy()
+    if "lum" in values:
+        good = status["lum"] == OK
+        with np.errstate(divide="ignore", invalid="ignore"):
+            logl = np.where(good, np.log10(values["lum"]), logl)
+            if "lum_err" in values:
+                err = np.where(good, values["lum_err"] / (values["lum"] * np.log(10.0)), err)
+        worse = ~good & (st != OK)
+        st = np.where(good, OK, np.where(worse, np.maximum(st, status["lum"]), st)).astype(np.int8)
+    return logl, err, st
+
+
+def _opt(values, role, idx):
+    return values[role][idx] if role in values else None
+
+
+def _run_route(route, idx, values, opts, feh):
+    """Call the derive function of one route on the rows ``idx``; returns an HRPosition."""
+    from . import derive
+
+    teff = _opt(values, "teff", idx)
+    teff_err = _opt(values, "teff_err", idx)
+    f = feh[idx]
+    if route == "teff_lum":
+        return derive.from_teff_lum(teff, values["logl"][idx], teff_err=teff_err,
+                                    lum_err=_opt(values, "logl_err", idx), lum_is_log=True, feh=f)
+    if route == "teff_radius":
+        return derive.from_teff_radius(teff, values["radius"][idx], teff_err=teff_err,
+                                       radius_err=_opt(values, "radius_err", idx), feh=f)
+    if route == "teff_logg":
+        return derive.from_teff_logg(teff, values["logg"][idx], feh=f, teff_err=teff_err,
+                                     logg_err=_opt(values, "logg_err", idx), feh_err=_opt(values, "feh_err", idx))
+    if route == "gaia":
+        return derive.from_gaia(values["g"][idx], values["bp_rp"][idx], values["parallax"][idx],
+                                g_err=_opt(values, "g_err", idx), bp_rp_err=_opt(values, "bp_rp_err", idx),
+                                parallax_err=_opt(values, "parallax_err", idx), parallax_zp=opts.parallax_zp,
+                                a_g=_opt(values, "a_g", idx), e_bp_rp=_opt(values, "e_bp_rp", idx),
+                                a_v=_opt(values, "a_v", idx), r_v=opts.r_v, feh=f,
+                                logg=_opt(values, "logg", idx), teff=teff, teff_err=teff_err,
+                                min_parallax_snr=opts.min_parallax_snr)
+    if route == "johnson":
+        v_ks = v_ks_err = None
+        if "ks" in values:
+            v_ks = values["v"][idx] - values["ks"][idx]
+            if "v_err" in values and "ks_err" in values:
+                v_ks_err = np.hypot(values["v_err"][idx], values["ks_err"][idx])
+        return derive.from_johnson(values["v"][idx], values["b_v"][idx], values["parallax"][idx],
+                                   v_err=_opt(values, "v_err", idx), b_v_err=_opt(values, "b_v_err", idx),
+                                   parallax_err=_opt(values, "parallax_err", idx), v_ks=v_ks, v_ks_err=v_ks_err,
+                                   e_b_v=_opt(values, "ebv", idx), a_v=_opt(values, "a_v", idx), r_v=opts.r_v,
+                                   feh=f, teff=teff, teff_err=teff_err, parallax_zp=opts.parallax_zp,
+                                   min_parallax_snr=opts.min_parallax_snr)
+    raise ValueError(route)  # pragma: no cover
+
+
+def _status_reason(route, status, mapping, rows):
+    """Per-row text for rows whose route inputs are not all usable."""
+    needs = [r for r in _ROUTE_NEEDS[route] if r in status]
+    code = np.zeros(len(rows), dtype=np.int64)
+    for k, role in enumerate(needs):
+        code += status[role][rows].astype(np.int64) * (4 ** k)
+    uniq, inv = np.unique(code, return_inverse=True)
+    texts = []
+    for c in uniq:
+        parts = []
+        for k, role in enumerate(needs):
+            s = (int(c) // 4 ** k) % 4
+            if s != OK:
+                shown = role
+                if role not in mapping.roles:   # derived role: name the one the user gave
+                    shown = {"teff": "logt", "logl": "lum", "bp_rp": "bp"}.get(role, role)
+                col = mapping.roles.get(shown, shown)
+                if role == "bp_rp" and "rp" in mapping.roles:
+                    col = f"{mapping.roles['bp']}/{mapping.roles['rp']}"
+                    shown = "bp/rp"
+                parts.append(f"{shown} {STATUS_TEXT[s]} in column {col}")
+        texts.append(", ".join(parts))
+    return np.asarray(texts, dtype=object)[inv]
+
+
+def _positions(values, status, mapping, opts, feh, n):
+    """HR positions for all rows, route by route with row-wise fall-back."""
+    from .derive import HRPosition
+
+    out = HRPosition(teff=np.full(n, np.nan), logt=np.full(n, np.nan), logl=np.full(n, np.nan),
+                     logt_err=np.full(n, np.nan), logl_err=np.full(n, np.nan), corr=np.zeros(n),
+                     flags=np.zeros(n, dtype=np.int64), source=np.full(n, "", dtype=object))
+    done = np.zeros(n, dtype=bool)
+    route_of = np.full(n, -1, dtype=np.int16)
+    fail_flags = np.zeros(n, dtype=np.int64)
+    for k, route in enumerate(mapping.routes):
+        needs = _ROUTE_NEEDS[route]
+        usable = ~done
+        for role in needs:
+            usable &= (status[role] == OK) if role in status else False
+        idx = np.flatnonzero(usable)
+        if idx.size == 0:
+            continue
+        pos = _run_route(route, idx, values, opts, feh)
+        good = np.isfinite(pos.logt) & np.isfinite(pos.logl)
+        ok_rows = idx[good]
+        for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
+            getattr(out, name)[ok_rows] = np.asarray(getattr(pos, name), dtype=float)[good]
+        out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
+        src = np.asarray(pos.source, dtype=object)
+        src = np.broadcast_to(src, (idx.size,)) if src.ndim == 0 else src
+        src_good = src[good].astype(str)
+        if k > 0:
+            src_good = np.char.add(f"fallback to {route}: ", src_good)
+        out.source[ok_rows] = src_good
+        fail_flags[idx[~good]] |= np.asarray(pos.flags, dtype=np.int64)[~good]
+        route_of[ok_rows] = k
+        done[ok_rows] = True
+    return out, done, route_of, fail_flags
+
+
+def _as_text(a) -> np.ndarray:
+    a = np.asarray(a)
+    return a if a.dtype.kind == "U" else a.astype(str)
+
+
+def _text_array(parts):
+    """Join per-row texts with '; ', skipping empty ones (vectorised string operations, applied only
+    to the rows where a part is not empty)."""
+    out = _as_text(parts[0]).copy()
+    for part in parts[1:]:
+        part = _as_text(part)
+        has = part != ""
+        if not has.any():
+            continue
+        both = has & (out != "")
+        only = has & (out == "")
+        width = max(out.dtype.itemsize, 4) // 4 + part.dtype.itemsize // 4 + 2
+        out = out.astype(f"U{width}")
+        if both.any():
+            out[both] = np.char.add(np.char.add(out[both], "; "), part[both])
+        out[only] = part[only]
+    return out
+
+
+def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
+    """Our columns (canonical names, numpy arrays) for one chunk given as an astropy Table."""
+    from .classifier import classify_hr
+
+    mapping = opts.mapping
+    n = len(sub)
+    values, status = extract_roles(sub, mapping)
+    if n == 0:
+        return {c: np.zeros(0, dtype=_dtype(c)) for c in _our_columns(opts)}
+    if "logl" in values or "lum" in values:
+        values["logl"], values["logl_err"], status["logl"] = _log_lum(values, status)
+        status["logl_err"] = np.where(np.isfinite(values["logl_err"]), OK, MISSING).astype(np.int8)
+
+    in_flags = np.zeros(n, dtype=np.int64)
+    if "feh" in values:
+        feh = values["feh"].copy()
+    else:
+        feh = np.full(n, np.nan)
+    no_feh = ~np.isfinite(feh)
+    feh[no_feh] = 0.0 if opts.feh is None else opts.feh
+    if opts.feh is None:
+        in_flags[no_feh] |= F.NO_METALLICITY
+
+    pos, done, route_of, fail_flags = _positions(values, status, mapping, opts, feh, n)
+
+    # why a row is unclassified, and MISSING_INPUT / BAD_INPUT
+    reason = np.full(n, "", dtype=object)
+    first = mapping.routes[0]
+    not_done = np.flatnonzero(~done)
+    if not_done.size:
+        lacks = np.zeros(not_done.size, dtype=bool)
+        for role in _ROUTE_NEEDS[first]:
+            if role in status:
+                st = status[role][not_done]
+                lacks |= st != OK
+                in_flags[not_done[st == NONPHYSICAL]] |= F.BAD_INPUT
+                in_flags[not_done[(st == MISSING) | (st == SENTINEL)]] |= F.MISSING_INPUT
+        text = np.full(not_done.size, "", dtype=object)
+        if lacks.any():
+            text[lacks] = _status_reason(first, status, mapping, not_done[lacks])
+        rest = ~lacks
+        if rest.any():
+            text[rest] = F.describe_many(fail_flags[not_done[rest]])
+        routes = " / ".join(_ROUTE_TEXT[r] for r in mapping.routes)
+        reason[not_done] = np.char.add(f"unclassified: no HR position from {routes}: ", text.astype(str))
+    # values the used route reads (with their errors) that are missing: MISSING_INPUT
+    for k, route in enumerate(mapping.routes):
+        rows = route_of == k
+        if not rows.any():
+            continue
+        for role in _ROUTE_ERRS[route] + ("feh",):
+            if role in status and role in mapping.roles:
+                bad = rows & ((status[role] == MISSING) | (status[role] == SENTINEL))
+                in_flags[bad] |= F.MISSING_INPUT
+
+    mass = values.get("mass")
+    res = classify_hr(pos.logt, pos.logl, logt_err=_nan_none(pos.logt_err), logl_err=_nan_none(pos.logl_err),
+                      corr=pos.corr, feh=feh, mass=mass, n_draws=opts.n_draws,
+                      seed=_chunk_seed(opts.seed, offset), **opts.params)
+    cols = dict(res.to_columns())
+    cols["hr_source"] = _as_text(pos.source)
+    cols["hr_source"][~done] = "none"
+    stage = _as_text(cols["stage"]).astype("U13")
+    stage[~done] = "unclassified"
+    cols["stage"] = stage
+    extra_bits = in_flags | pos.flags
+    flags_all = np.asarray(cols.get("flags", np.zeros(n, dtype=np.int64)), dtype=np.int64) | extra_bits
+    # readable text: our reasons first, then the classifier's, then the bits nobody described
+    clf_text = np.asarray(cols.get("flag_text", np.full(n, "", dtype=object)), dtype=object)
+    own_bits = extra_bits & ~np.asarray(cols.get("flags", 0), dtype=np.int64)
+    parts = [reason, clf_text, F.describe_many(own_bits)]
+
+    if opts.check_sptypes and "sptype" in values:
+        from .sptype import check_types
+
+        chk = check_types(values["sptype"], pos.logt, pos.logl, logt_err=_nan_none(pos.logt_err),
+                          logl_err=_nan_none(pos.logl_err), feh=feh)
+        cols.update(chk.to_columns())
+        sp_flags = np.asarray(chk.flags, dtype=np.int64)
+        parts.append(F.describe_many(sp_flags & ~flags_all))
+        flags_all |= sp_flags
+    cols["flags"] = flags_all
+    cols["flag_text"] = _text_array(parts)
+    return {c: cols[c] for c in _our_columns(opts, sptype="sptype_verdict" in cols) if c in cols}
+
+
+def _nan_none(a):
+    a = np.asarray(a, dtype=float)
+    return None if not np.isfinite(a).any() else a
+
+
+def _chunk_seed(seed, offset):
+    if offset == 0:
+        return seed
+    return int(np.random.SeedSequence([int(seed), int(offset)]).generate_state(1)[0])
+
+
+def _our_columns(opts, sptype=False):
+    names = list(CLASSIFY_COLUMNS)
+    if sptype or (opts.check_sptypes and opts.mapping is not None and "sptype" in opts.mapping.roles):
+        names += list(SPTYPE_COLUMNS)
+    return names
+
+
+def _dtype(name):
+    d = COLUMNS[name].dtype
+    return "U1" if d in ("U", "O") else d
+
+
+def _table_meta(opts):
+    return {"hrstage_version": __version__, "hrstage_profile": opts.mapping.profile,
+            "hrstage_roles": opts.mapping.roles_text(), "hrstage_routes": ",".join(opts.mapping.routes),
+            "hrstage_options": json.dumps(opts.settings(), sort_keys=True, default=str),
+            "hrstage_caution": CAUTION}
+
+
+# --------------------------------------------------------------------------------- public
+def _is_arrow(obj):
+    try:
+        import pyarrow as pa
+    except ImportError:  # pragma: no cover
+        return False
+    return isinstance(obj, (pa.Table, pa.RecordBatch))
+
+
+def _arrow_infos(data, attrs):
+    out = []
+    for name in data.schema.names:
+        info = attrs.get(name, {})
+        ucd = (info.get("meta") or {}).get("ucd")
+        out.append(ColumnInfo(name, info.get("unit"), ucd))
+    return out
+
+
+def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0, attrs: dict | None = None):
+    """Classify one chunk; the result has the chunk's columns untouched plus ours.
+
+    Parameters
+    ----------
+    table_or_batch : astropy.table.Table or pyarrow.Table or pyarrow.RecordBatch
+        The rows. Only the columns of the mapping are converted; the others pass through as they are.
+    options : ClassifyOptions
+        From :func:`make_options`; the mapping is detected on this chunk if not yet resolved
+        (resolve it once with :func:`resolve_options` when processing many chunks).
+    offset : int
+        Index of the chunk's first row in the whole catalogue (seeds the Monte Carlo stream).
+    attrs : dict, optional
+        Column attributes (units, UCDs) of an arrow input, from
+        :func:`hrstage.catalog.arrow.header_from_schema` (read from its schema when omitted).
+
+    Returns
+    -------
+    astropy.table.Table or pyarrow.Table
+        Same kind as the input.
+    """
+    from astropy.table import Column, MaskedColumn, Table
+
+    if _is_arrow(table_or_batch):
+        import pyarrow as pa
+
+        from .catalog.arrow import arrow_to_table, header_from_schema
+
+        data = table_or_batch
+        if attrs is None:
+            attrs = header_from_schema(data.schema)
+        opts = resolve_options(_arrow_infos(data, attrs), options)
+        needed = list(dict.fromkeys(opts.mapping.roles.values()))
+        sub = arrow_to_table(data.select(needed), attrs)
+        cols = _compute(sub, opts, offset)
+        arrays, names = list(data.columns), list(data.schema.names)
+        for name, values in cols.items():
+            arrays.append(_numpy_to_arrow(values))
+            names.append(opts.prefix + name)
+        return pa.Table.from_arrays(arrays, names=names)
+
+    if not isinstance(table_or_batch, Table):
+        raise HrstageInputError(f"expected an astropy Table or a pyarrow table, got {type(table_or_batch).__name__}")
+    opts = resolve_options(infos_from_table(table_or_batch), options)
+    cols = _compute(table_or_batch, opts, offset)
+    out = Table(table_or_batch, copy=False)  # new table object, input columns shared, untouched
+    for name, values in cols.items():
+        spec = COLUMNS[name]
+        col_cls = MaskedColumn if np.ma.isMaskedArray(values) else Column
+        out[opts.prefix + name] = col_cls(values, name=opts.prefix + name, unit=spec.unit,
+                                          description=spec.description,
+                                          meta={"ucd": spec.ucd} if spec.ucd else None)
+    out.meta.update(_table_meta(opts))
+    return out
+
+
+def _numpy_to_arrow(values):
+    import pyarrow as pa
+
+    arr = np.asarray(values)
+    if arr.dtype.kind in "UO":
+        uniq, inv = np.unique(arr.astype(str), return_inverse=True)
+        return pa.array(uniq.tolist(), type=pa.string()).take(pa.array(inv.reshape(-1).astype(np.int32)))
+    return pa.array(arr)
+
+
+def classify_table(table, **options):
+    """Label every star of an astropy Table with its evolutionary stage.
+
+    Parameters
+    ----------
+    table : astropy.table.Table
+        The catalogue. Columns are found by profile (``docs/catalog.md``); a table with ``teff`` (K)
+        and ``lum`` (Lsun), optionally ``feh``, ``logg`` and errors, needs no options.
+    **options
+        ``profile`` (``"direct"``, ``"gaia"``, ``"johnson"``, ``"spectroscopic"``, ``"none"``);
+        role names as keywords to name columns (``teff="TEFF"``, ``lum="LUM"``, ``sptype="SpT"``)
+        or ``columns={role: name}``; ``feh`` (a column name, or a number for rows without one);
+        ``n_draws`` (Monte Carlo draws for probabilities, default 0), ``seed``;
+        ``min_parallax_snr`` (default 5), ``parallax_zp`` (mas, subtracted), ``r_v``;
+        ``prefix`` for our column names; ``check_sptypes`` (default True); ``params`` (dict for
+        :func:`hrstage.classifier.classify_hr`).
+
+    Returns
+    -------
+    astropy.table.Table
+        The input columns, in order and untouched, then ``stage``, the probabilities, mass estimate,
+        the Teff and L used, ``hr_source``, ``flags``, ``flag_text`` (and the ``sptype_*`` columns
+        when an MK type column is present). ``meta`` records the profile, roles and options.
+
+    Raises
+    ------
+    HrstageInputError
+        No usable columns, a named column missing, a whole-column unit mistake, a name clash.
+    """
+    from astropy.table import Table
+
+    if not isinstance(table, Table):
+        raise HrstageInputError(f"classify expects an astropy Table, got {type(table).__name__}")
+    opts = make_options(**options)
+    opts = resolve_options(infos_from_table(table), opts)
+    return classify_chunk(table, opts)
+
+
+def classify_file(input_path, output_path, *, chunk_rows: int | None = None, overwrite: bool = False,
+                  progress: bool = False, input_format: str | None = None, output_format: str | None = None,
+                  **options) -> dict:
+    """Classify a catalogue file into a new file, chunk by chunk, atomically.
+
+    Parameters
+    ----------
+    input_path, output_path : path-like
+        Formats from the suffixes unless given. The output may not be the input.
+    chunk_rows : int, optional
+        Rows per chunk (default :data:`hrstage.catalog.DEFAULT_CHUNK_ROWS`); peak memory follows it
+        for Parquet, CSV and FITS input and Parquet or CSV output (``docs/catalog.md``).
+    overwrite : bool
+        Replace an existing output.
+    progress : bool
+        Show a progress bar (tqdm) on standard error.
+    **options
+        As for :func:`classify_table`.
+
+    Returns
+    -------
+    dict
+        ``rows``, ``stages`` (count per stage), ``flagged`` (rows with a flag other than the
+        no-metallicity note), ``sptype_conflicts``, ``mapping`` (text), ``output``.
+    """
+    from .catalog import DEFAULT_CHUNK_ROWS, ChunkWriter, count_rows, format_of, iter_chunks
+    from .catalog.atomic import check_output_path
+    from .catalog.formats import describe_columns
+
+    inp, out = Path(input_path), Path(output_path)
+    in_fmt = format_of(inp, input_format)
+    format_of(out, output_format)
+    check_output_path(out, overwrite=overwrite, inputs=[inp])
+    chunk_rows = DEFAULT_CHUNK_ROWS if chunk_rows is None else int(chunk_rows)
+    opts = make_options(source=inp.name, **options)
+    total = count_rows(inp, in_fmt)
+    bar = None
+    if progress:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=total, unit="rows", unit_scale=True, desc=f"hrstage {inp.name}", leave=False)
+    counts = np.zeros(len(STAGES), dtype=np.int64)
+    flagged = conflicts = rows = 0
+    quiet_bits = F.NO_METALLICITY | F.NO_EXTINCTION
+    try:
+        with ChunkWriter(out, output_format, overwrite=overwrite, inputs=[inp]) as writer:
+            for chunk in iter_chunks(inp, chunk_rows, in_fmt):
+                if opts.mapping is None:
+                    opts = resolve_options(infos_from_table(chunk), opts)
+                res = classify_chunk(chunk, opts, offset=rows)
+                describe_columns(res, prefix=opts.prefix)
+                writer.write(res)
+                stage = np.asarray(res[opts.prefix + "stage"]).astype(str)
+                counts += np.array([(stage == s).sum() for s in STAGES])
+                fl = np.asarray(res[opts.prefix + "flags"], dtype=np.int64)
+                flagged += int(((fl & ~quiet_bits) != 0).sum())
+                conflicts += int(((fl & F.SPTYPE_CONFLICT) != 0).sum())
+                rows += len(chunk)
+                if bar is not None:
+                    bar.update(len(chunk))
+    finally:
+        if bar is not None:
+            bar.close()
+    return {"rows": rows, "stages": {s: int(c) for s, c in zip(STAGES, counts)}, "flagged": flagged,
+            "sptype_conflicts": conflicts, "mapping": opts.mapping.describe() if opts.mapping else "",
+            "notes": list(opts.mapping.notes) if opts.mapping else [], "output": str(out)}
