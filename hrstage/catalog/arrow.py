@@ -111,6 +111,8 @@ def _column_to_arrow(col):
         if m.any():
             mask = m
         data = np.ma.getdata(col)
+    if data.dtype.byteorder not in ("=", "|") and data.dtype.kind in "biuf":
+        data = data.astype(data.dtype.newbyteorder("="))      # FITS is big-endian; arrow is not
     if data.ndim > 1:
         if data.ndim != 2:
             raise HrstageInputError(f"column {col.info.name!r}: arrays of more than one dimension per row "

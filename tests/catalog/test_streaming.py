@@ -93,6 +93,7 @@ def test_bad_chunk_size(tmp_path):
 _CHILD = textwrap.dedent("""
     import resource, sys
     import numpy as np
+    import pyarrow, pyarrow.parquet, pyarrow.compute   # imports are not the data's memory
     from hrstage.catalog import ChunkWriter, iter_chunks, read_table, write_table
     src, dst, mode, chunk = sys.argv[1], sys.argv[2], sys.argv[3], int(sys.argv[4])
     np.zeros(1)  # imports done
@@ -111,7 +112,7 @@ _CHILD = textwrap.dedent("""
 @pytest.mark.slow
 def test_streaming_memory_is_bounded(tmp_path):
     """300 k rows x 16 float columns (38 MB of data): streaming in 10 k-row chunks must grow the
-    peak resident memory far less than reading the whole file (loose bound: < 40 %)."""
+    peak resident memory far less than reading the whole file (loose bound: < 50 %)."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 
@@ -126,4 +127,4 @@ def test_streaming_memory_is_bounded(tmp_path):
         out = subprocess.run([sys.executable, "-c", _CHILD, str(src), str(tmp_path / f"{mode}.parquet"),
                               mode, "10000"], capture_output=True, text=True, check=True)
         growth[mode] = int(out.stdout.strip().splitlines()[-1])     # KiB (Linux ru_maxrss)
-    assert growth["stream"] < 0.4 * growth["whole"], growth
+    assert growth["stream"] < 0.5 * growth["whole"], growth
