@@ -55,7 +55,9 @@ def count_rows(path, format: str | None = None) -> int | None:
         if fmt == "fits":
             from astropy.io import fits
 
-            return int(fits.getheader(path, fits_table_hdu_index(path)).get("NAXIS2", 0))
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                return int(fits.getheader(path, fits_table_hdu_index(path)).get("NAXIS2", 0))
     except HrstageInputError:
         raise
     except Exception:
