@@ -12,6 +12,9 @@ Modules, split by topic:
 - :mod:`.giant_branch` -- L_BGB (eq 10), giant-branch radius R_GB (eq 46), He ignition L_HeI,
   R_HeI (eqs 49-50), minimum CHeB radius (eq 55), AGB radius (eq 74), core mass at the base of the
   AGB (eq 66) and the carbon-ignition mass derived from it;
+- :mod:`.core_helium` -- core-helium burning of low-mass stars: helium-star ZAMS L and R (eqs 77-78),
+  minimum CHeB luminosity (eq 51), core mass at the helium flash (eqs 37-38 at L_HeI), zero-age
+  horizontal-branch luminosity and radius (eqs 53-54);
 - :mod:`.white_dwarf` -- white-dwarf radius (eq 91).
 
 Equation numbers come from code comments of public implementations and were not checked against
@@ -31,6 +34,7 @@ from .giant_branch import (
     r_hei,
     r_mhe,
 )
+from .core_helium import l_minhe, l_zahb, l_zhe, mc_hei, r_zahb, r_zhe
 from .main_sequence import l_tms, ms_luminosity_radius, r_tms, t_bgb, t_hook, t_ms
 from .white_dwarf import WD_MASS_RANGE, wd_radius
 
@@ -54,4 +58,10 @@ __all__ = [
     "carbon_ignition_mass",
     "wd_radius",
     "WD_MASS_RANGE",
+    "l_zhe",
+    "r_zhe",
+    "l_minhe",
+    "mc_hei",
+    "l_zahb",
+    "r_zahb",
 ]
