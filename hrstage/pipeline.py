@@ -301,22 +301,26 @@ def _as_text(a) -> np.ndarray:
 
 
 def _text_array(parts):
-    """Join per-row texts with '; ', skipping empty ones (vectorised string operations, applied only
-    to the rows where a part is not empty)."""
-    out = _as_text(parts[0]).copy()
+    """Join per-row texts with '; ', skipping empty ones.
+
+    Works on object arrays (one Python string per row, shared where rows repeat) and only on the
+    rows where a part is not empty, then converts once to a fixed-width text array; a fixed-width
+    array per intermediate step would cost rows x width x 4 bytes each time.
+    """
+    out = np.asarray(parts[0], dtype=object).copy()
+    out[out == None] = ""  # noqa: E711 (element-wise)
     for part in parts[1:]:
-        part = _as_text(part)
-        has = part != ""
+        part = np.asarray(part, dtype=object)
+        has = (part != "") & (part != None)  # noqa: E711
         if not has.any():
             continue
-        both = has & (out != "")
-        only = has & (out == "")
-        width = max(out.dtype.itemsize, 4) // 4 + part.dtype.itemsize // 4 + 2
-        out = out.astype(f"U{width}")
+        empty = out == ""
+        both = has & ~empty
+        only = has & empty
         if both.any():
-            out[both] = np.char.add(np.char.add(out[both], "; "), part[both])
+            out[both] = out[both] + "; " + part[both]
         out[only] = part[only]
-    return out
+    return out.astype(str)
 
 
 def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
@@ -387,7 +391,7 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     extra_bits = in_flags | pos.flags
     flags_all = np.asarray(cols.get("flags", np.zeros(n, dtype=np.int64)), dtype=np.int64) | extra_bits
     # readable text: our reasons first, then the classifier's, then the bits nobody described
-    clf_text = np.asarray(cols.get("flag_text", np.full(n, "", dtype=object)), dtype=object)
+    clf_text = np.asarray(cols.pop("flag_text", np.full(n, "", dtype=object)), dtype=object)
     own_bits = extra_bits & ~np.asarray(cols.get("flags", 0), dtype=np.int64)
     parts = [reason, clf_text, F.describe_many(own_bits)]
 

@@ -40,7 +40,7 @@ from .atomic import atomic_output
 from .formats import (_check_readable, csv_text, _fits_restore, _one_line, _write_fits, csv_read_options,
                       fits_table_hdu_index, format_of, read_table)
 
-DEFAULT_CHUNK_ROWS = 200_000
+DEFAULT_CHUNK_ROWS = 100_000
 
 
 def count_rows(path, format: str | None = None) -> int | None:

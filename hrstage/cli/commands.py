@@ -303,7 +303,7 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--out-format", choices=["fits", "votable", "ecsv", "csv", "parquet"],
                    help="output format (default: from the suffix)")
     c.add_argument("--chunk-rows", type=_positive_int, default=None,
-                   help="rows per chunk; peak memory follows it (default 200000)")
+                   help="rows per chunk; peak memory follows it (default 100000)")
     c.add_argument("--prefix", default="", help="prefix for our column names (when the input already has one)")
     c.add_argument("--no-type-check", action="store_true", help="do not check MK spectral types")
     c.add_argument("-q", "--quiet", action="store_true", help="no summary, no progress bar")
