@@ -24,7 +24,7 @@ from ..stages import (
     SUPERGIANT,
     UNCLASSIFIED,
 )
-from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_STAGE, StageParams, stage_map
+from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, stage_map
 from ..stagemap._map import _interp_monotone
 
 N_STAGES = len(STAGES)
@@ -56,6 +56,17 @@ _BASE_REASON = {
     "hot_subdwarf": "Teff {hlo:.0f}-{hhi:.0f} K between the white-dwarf band and the ZAMS",
     "unclassified": "outside every stage region",
 }
+
+#: reason of a giant label from the core-helium-burning band (where it overlaps the Hertzsprung gap)
+_HB_REASON = (
+    "Giant: core-helium burning (horizontal branch / red clump), between {dep:g} dex under and {hgt:g} dex "
+    "over the zero-age horizontal branch (HPT2000 eq 53), inside the Hertzsprung gap of the fits; a star "
+    "spends ~100 Myr burning helium here but crosses the gap in a few Myr, so it is far more likely a "
+    "horizontal-branch star than a crossing subgiant"
+)
+
+#: mass method of a giant in the core-helium-burning band
+HB_MASS_METHOD = "horizontal_branch"
 
 
 def _split_params(params: dict):
@@ -140,6 +151,8 @@ class ClassificationResult:
         ft = np.full(n, "", dtype=object)
         for key in sorted(self._notes):
             idx, texts = self._notes[key]
+            if callable(texts):
+                texts = texts(idx)
             for i, t in zip(idx, texts):
                 ft[i] = t if not ft[i] else ft[i] + "; " + t
         self._flag_text = ft
@@ -189,8 +202,10 @@ class ClassificationResult:
 
 
 def _note(notes, key, idx, texts):
+    """Record reason texts for rows ``idx``: a list, or a callable ``texts(idx) -> list`` that is
+    called only when the texts are first needed (``reason`` / ``flag_text`` / ``to_columns``)."""
     if len(idx):
-        notes[key] = (np.asarray(idx), list(texts))
+        notes[key] = (np.asarray(idx), texts if callable(texts) else list(texts))
 
 
 def _draws(n_draws: int, seed):
@@ -200,54 +215,143 @@ def _draws(n_draws: int, seed):
 
 
 def _pack_lut():
-    raw = np.arange(64)
+    raw = np.arange(128)
     stage = raw & RAW_STAGE
     lut = np.where(stage < 8, np.left_shift(np.uint64(1), (8 * np.minimum(stage, 7)).astype(np.uint64)), np.uint64(0))
     return lut.astype(np.uint64)
 
 
 _PACK = _pack_lut()
+_SHIFTS = (8 * np.arange(8)).astype(np.uint64)
+
+#: side (cells) of the blocks of the region-uniform raster used to skip draws
+UNIFORM_BLOCK = 16
 
 
-def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 17):
-    """Counts per stage (N, N_STAGES) of the draws, common random numbers z1, z2."""
-    lk = sm.raw
+def _uniform_tables(sm):
+    """Per map (cached on it): block codes (-1 where a block holds more than one stage) and, per
+    stage, the summed-area table of "block uniform with this stage" over the block grid."""
+    tab = getattr(sm, "_mc_uniform", None)
+    if tab is not None:
+        return tab
+    codes = sm.codes.values  # (ny, nx) stage codes, unpadded
+    k = UNIFORM_BLOCK
+    ny, nx = codes.shape
+    by, bx = -(-ny // k), -(-nx // k)
+    pad = np.full((by * k, bx * k), UNCLASSIFIED, dtype=np.int8)
+    pad[:ny, :nx] = codes
+    blocks = pad.reshape(by, k, bx, k)
+    lo = blocks.min(axis=(1, 3))
+    hi = blocks.max(axis=(1, 3))
+    bcode = np.where(lo == hi, lo, -1).astype(np.int8)
+    sat = np.zeros((N_STAGES, by + 1, bx + 1), dtype=np.int32)
+    for c in range(N_STAGES):
+        sat[c, 1:, 1:] = np.cumsum(np.cumsum(bcode == c, axis=0, dtype=np.int32), axis=1, dtype=np.int32)
+    tab = (bcode, sat.reshape(-1), by, bx)
+    sm._mc_uniform = tab
+    return tab
+
+
+def _uniform_boxes(sm, xc, yc, ex, ey):
+    """Stage code of stars whose whole draw box lies in one stage, -1 for the others.
+
+    ``xc, yc``: unpadded fractional cell coordinates of the centres; ``ex, ey``: half-widths (cells)
+    of the box that holds every draw (from the extreme values of the common random numbers), so
+    that a skipped star gets exactly the counts the draws would give.
+    """
+    bcode, sat, by, bx = _uniform_tables(sm)
+    g = sm.grid
+    k = UNIFORM_BLOCK
+    x0, x1 = xc - ex, xc + ex
+    y0, y1 = yc - ey, yc + ey
+    inside = (x0 >= 0) & (y0 >= 0) & (x1 < g.nx) & (y1 < g.ny)
+    out = np.full(len(xc), -1, dtype=np.int8)
+    if not inside.any():
+        return out, inside
+    i = np.nonzero(inside)[0]
+    bx0 = x0[i].astype(np.int64) // k
+    bx1 = x1[i].astype(np.int64) // k + 1
+    by0 = y0[i].astype(np.int64) // k
+    by1 = y1[i].astype(np.int64) // k + 1
+    c = bcode[by0, bx0].astype(np.int64)
+    ok = c >= 0
+    cc = np.where(ok, c, 0)
+    w1 = bx + 1
+    base = cc * (by + 1) * w1
+    tot = sat[base + by1 * w1 + bx1] - sat[base + by0 * w1 + bx1] - sat[base + by1 * w1 + bx0] + sat[base + by0 * w1 + bx0]
+    full = ok & (tot == (by1 - by0) * (bx1 - bx0))
+    out[i[full]] = c[full].astype(np.int8)
+    return out, inside
+
+
+def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 16):
+    """Counts per stage (N, N_STAGES) of the draws, common random numbers z1, z2.
+
+    Stars whose whole draw box (the extreme z1, z2 of the call scaled by their errors) lies in
+    blocks of a single stage get all draws in that stage without drawing (exact). The others are
+    drawn in chunks of about ``chunk`` star-draws in float32 index arithmetic on the flattened
+    stage raster; the stages are counted with a packed one-hot table (8 bits per stage, at most
+    255 draws per pass) summed over the draws of each star.
+    """
+    lk = sm.codes
     n, d = len(logt), len(z1)
     counts = np.zeros((n, N_STAGES), dtype=np.int64)
+    if n == 0 or d == 0:
+        return counts
+    xc = logt * lk.inv_dt + (lk.ax - 1.0)  # unpadded fractional cell coordinates
+    yc = logl * lk.inv_dl + (lk.ay - 1.0)
+    sx = st * lk.inv_dt
+    sya = sl * rho * lk.inv_dl
+    syb = sl * np.sqrt(np.clip(1 - rho * rho, 0, 1)) * lk.inv_dl
+    z1m = float(np.max(np.abs(z1)))
+    z2m = float(np.max(np.abs(z2)))
+    ex = sx * z1m + 1.0  # one cell of slack for float32 rounding of the drawn positions
+    ey = np.abs(sya) * z1m + syb * z2m + 1.0
+    uni, inside = _uniform_boxes(sm, xc, yc, ex, ey)
+    done = uni >= 0
+    counts[np.nonzero(done)[0], uni[done].astype(np.intp)] = d
+    # boxes inside the raster need no clipping of the drawn positions
+    for todo, clip in ((np.nonzero(~done & inside)[0], False), (np.nonzero(~done & ~inside)[0], True)):
+        if len(todo):
+            _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip)
+    return counts
+
+
+def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
+    """Counts of the drawn stars ``todo`` (see :func:`_mc_counts`), written into ``counts``."""
     f32 = np.float32
-    a_t, a_l = f32(lk.inv_dt), f32(lk.inv_dl)
+    d = len(z1)
     xmax, ymax = f32(lk.xmax), f32(lk.ymax)
     w = np.int32(lk.width)
-    rows = max(1, chunk // max(d, 1))
-    shifts = (8 * np.arange(8)).astype(np.uint64)
-    for s in range(0, n, rows):
-        e = min(n, s + rows)
-        xc = (logt[s:e] * lk.inv_dt + lk.ax).astype(f32)[:, None]
-        yc = (logl[s:e] * lk.inv_dl + lk.ay).astype(f32)[:, None]
-        sx = (st[s:e] * a_t).astype(f32)[:, None]
-        r = rho[s:e]
-        sya = (sl[s:e] * r * a_l).astype(f32)[:, None]
-        syb = (sl[s:e] * np.sqrt(np.clip(1 - r * r, 0, 1)) * a_l).astype(f32)[:, None]
+    flat = lk.flat
+    rows = max(1, chunk // d)
+    xp = (xc[todo] + 1.0).astype(f32)  # padded coordinates
+    yp = (yc[todo] + 1.0).astype(f32)
+    sxt, syat, sybt = sx[todo].astype(f32), sya[todo].astype(f32), syb[todo].astype(f32)
+    for s in range(0, len(todo), rows):
+        e = min(len(todo), s + rows)
+        sub_total = np.zeros((e - s, 8), dtype=np.int64)
         for b in range(0, d, 255):
             zz1, zz2 = z1[None, b : b + 255], z2[None, b : b + 255]
-            x = sx * zz1
-            x += xc
-            np.fmax(x, 0, out=x)
-            np.fmin(x, xmax, out=x)
-            y = sya * zz1
-            y += syb * zz2
-            y += yc
-            np.fmax(y, 0, out=y)
-            np.fmin(y, ymax, out=y)
+            x = sxt[s:e, None] * zz1
+            x += xp[s:e, None]
+            if clip:  # fmax/fmin send NaN to the border as well (np.clip would keep it)
+                np.fmax(x, 0, out=x)
+                np.fmin(x, xmax, out=x)
+            y = syat[s:e, None] * zz1
+            y += sybt[s:e, None] * zz2
+            y += yp[s:e, None]
+            if clip:
+                np.fmax(y, 0, out=y)
+                np.fmin(y, ymax, out=y)
             idx = y.astype(np.int32)
             idx *= w
             idx += x.astype(np.int32)
-            raw = lk.flat.take(idx)
-            packed = _PACK.take(raw).sum(axis=1, dtype=np.uint64)
-            sub = (packed[:, None] >> shifts[None, :]) & np.uint64(255)
-            counts[s:e, :8] += sub.astype(np.int64)
-            counts[s:e, 8] += zz1.shape[1] - sub.sum(axis=1).astype(np.int64)
-    return counts
+            acc = _PACK.take(flat.take(idx)).sum(axis=1, dtype=np.uint64)
+            sub_total += ((acc[:, None] >> _SHIFTS[None, :]) & np.uint64(255)).astype(np.int64)
+        rr = todo[s:e]
+        counts[rr, :8] = sub_total
+        counts[rr, 8] = d - sub_total.sum(axis=1)
 
 
 def _group_feh(feh, n):
@@ -457,6 +561,9 @@ def classify_hr(
             for s in STAGES
         }
         base[idx] = np.array([LABELS[s] + ": " + txt[s] for s in STAGES], dtype=object)[c]
+        hbm = ((r & RAW_HB) != 0) & (c == GIANT)
+        if hbm.any():
+            base[idx[hbm]] = _HB_REASON.format(dep=sm.params.hb_depth, hgt=sm.params.hb_height)
         # binary band: height above the MS upper edge
         b = (r & RAW_BINARY) != 0
         if b.any():
@@ -474,6 +581,7 @@ def classify_hr(
 
     # mass methods
     method = np.asarray(MASS_METHODS, dtype=object)[code]
+    method = np.where(((rawc & RAW_HB) != 0) & (code == GIANT), HB_MASS_METHOD, method)
     method = np.where(np.isfinite(mass_est), method, "none")
     sup = np.isfinite(msup)
     if sup.any():
@@ -509,26 +617,26 @@ def classify_hr(
             s += f", supplied {msup[i]:.3g} Msun"
         return s + f" (Teff {teff[i]:.0f} K < {opts['cool_teff']:.0f} K): likely evolved"
 
-    _note(notes, "1cbm", ci, [cbm_text(i) for i in ci])
+    _note(notes, "1cbm", ci, lambda ii: [cbm_text(i) for i in ii])
 
     # binary band
     bi = np.nonzero((rawc & RAW_BINARY) != 0)[0]
     flags[bi] |= F.POSSIBLE_BINARY
-    _note(notes, "2bin", bi, [f"possible unresolved binary: {upper_gap[i]:.2f} dex above the main-sequence upper edge"
-                              + (" (or a subgiant)" if code[i] == MAIN_SEQUENCE else "") for i in bi])
+    _note(notes, "2bin", bi, lambda ii: [f"possible unresolved binary: {upper_gap[i]:.2f} dex above the main-sequence upper edge"
+                              + (" (or a subgiant)" if code[i] == MAIN_SEQUENCE else "") for i in ii])
     # near boundary
     ni = np.nonzero((near_to >= 0) & finite)[0]
     flags[ni] |= F.NEAR_BOUNDARY
-    _note(notes, "4near", ni, [f"near a boundary: {STAGES[near_to[i]]} within "
+    _note(notes, "4near", ni, lambda ii: [f"near a boundary: {STAGES[near_to[i]]} within "
                                + (f"1 sigma (dlogT={st[i]:.3f}, dlogL={sl[i]:.3f})" if (st[i] > 0 or sl[i] > 0)
-                                  else f"dlogT={opts['near_logt']:g} / dlogL={opts['near_logl']:g} dex") for i in ni])
+                                  else f"dlogT={opts['near_logt']:g} / dlogL={opts['near_logl']:g} dex") for i in ii])
     # low probability
     sp = proba[np.arange(n), code.astype(np.intp)]
     low = finite & (sp < opts["low_probability"])
     flags[low] |= F.LOW_PROBABILITY
     li = np.nonzero(low)[0]
-    _note(notes, "7low", li, [f"label uncertain: P({STAGES[code[i]]})={sp[i]:.2f}, most probable "
-                              f"{STAGES[int(np.argmax(proba[i]))]} ({proba[i].max():.2f})" for i in li])
+    _note(notes, "7low", li, lambda ii: [f"label uncertain: P({STAGES[code[i]]})={sp[i]:.2f}, most probable "
+                              f"{STAGES[int(np.argmax(proba[i]))]} ({proba[i].max():.2f})" for i in ii])
     # missing / bad input
     miss = np.isnan(logt) | np.isnan(logl)
     badi = ~miss & ~finite
@@ -536,7 +644,7 @@ def classify_hr(
     flags[badi] |= F.BAD_INPUT
     for mask, key, what in ((miss, "8miss", "missing (NaN)"), (badi, "8bad", "not finite (inf)")):
         ii = np.nonzero(mask)[0]
-        _note(notes, key, ii, [f"log Teff or log L {what}: not classified" for _ in ii])
+        _note(notes, key, ii, [f"log Teff or log L {what}: not classified"] * len(ii))
         base[ii] = "Unclassified: no position"
         proba[ii] = 0.0
         proba[ii, UNCLASSIFIED] = 1.0

@@ -24,13 +24,16 @@ _NAMED = {
     "sg_lower": "supergiant lower edge",
     "wd_min": "white-dwarf band lower edge",
     "wd_max": "white-dwarf band upper edge",
+    "zahb": "zero-age horizontal branch",
+    "hb_lower": "core-He-burning band lower edge",
+    "hb_upper": "core-He-burning band upper edge",
 }
 
 #: the curves that bound each stage's region
 _RELEVANT = {
     "main_sequence": ["ms_lower", "zams", "ms_upper", "binary_upper"],
     "subgiant": ["tams", "ms_upper", "binary_upper", "ehg"],
-    "giant": ["ehg", "giant_tip", "bg_lower"],
+    "giant": ["ehg", "giant_tip", "bg_lower", "hb_lower", "hb_upper"],
     "bright_giant": ["bg_lower", "sg_lower"],
     "supergiant": ["sg_lower", "tams"],
     "white_dwarf": ["wd_min", "wd_max"],

@@ -8,7 +8,7 @@ analytic fits to single-star models: the labels they give are indicative and do 
 spectroscopic analysis.
 """
 
-from ._map import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_STAGE, Curve, StageMap, stage_map
+from ._map import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, Curve, StageMap, stage_map
 from ._params import StageParams
 from ._raster import Grid
 
@@ -21,5 +21,6 @@ __all__ = [
     "MASS_METHODS",
     "RAW_BINARY",
     "RAW_EXTRAPOLATED",
+    "RAW_HB",
     "RAW_STAGE",
 ]

@@ -10,6 +10,9 @@ Every locus is a curve in (log Teff, log L) parametrised by initial mass:
   He ignition (eqs 49-50) above it;
 - ``hei``: He ignition (tip of the giant branch below M_FGB, blue ignition above; NaN row at the
   M_FGB jump), ``agb``: the AGB radius (eq 74) at the He-ignition luminosity;
+- ``zahb_*``: zero-age horizontal branch of low-mass stars (HPT2000 eqs 53-54) for initial masses
+  from the age-limit mass to M_HeF, core mass at the helium flash, every envelope mass between
+  none and the full initial envelope (giant-branch mass loss sets which part a population fills);
 - white-dwarf constant-radius lines from eq 91.
 """
 
@@ -83,6 +86,27 @@ class Loci:
         self.below_fgb = below
         # mean post-main-sequence luminosity of a track (for supergiant masses from L)
         self.logl_post = (self.tams[1] + self.ehg[1] + self.hei[1]) / 3.0
+        self._zahb()
+
+    def _zahb(self, n_init: int = 24, n_env: int = 160):
+        """Zero-age horizontal-branch samples: initial mass x envelope fraction (flattened arrays).
+
+        ``zahb_logt, zahb_logl`` positions, ``zahb_mass`` current (HB) mass, ``zahb_minit`` initial
+        mass; ``zahb_ref`` is the ZAHB of the age-limit mass (the oldest stars) for drawing.
+        """
+        z = self.z
+        lo = min(max(self.m_age, 0.5), 0.98 * self.m_hef)
+        mi = np.linspace(lo, 0.999 * self.m_hef, n_init)
+        mc = np.asarray(hpt.mc_hei(mi, z), dtype=float)
+        q = np.geomspace(1e-4, 1.0, n_env)
+        m_now = mc[:, None] + q[None, :] * (mi - mc)[:, None]
+        mcb = np.broadcast_to(mc[:, None], m_now.shape)
+        lz, rz = hpt.l_zahb(m_now, mcb, z), hpt.r_zahb(m_now, mcb, z)
+        t, l = self._pos(lz, rz)
+        self.zahb_logt, self.zahb_logl = t.ravel(), l.ravel()
+        self.zahb_mass = m_now.ravel()
+        self.zahb_minit = np.broadcast_to(mi[:, None], m_now.shape).ravel()
+        self.zahb_ref = (t[0], l[0], m_now[0])
 
     @staticmethod
     def _pos(l, r):

@@ -32,8 +32,14 @@ from ._raster import Grid, Lookup, fill_polygon
 RAW_BINARY = 16
 #: bit of a raw raster code: main sequence extrapolated below 0.1 Msun (outside the fits)
 RAW_EXTRAPOLATED = 32
+#: bit of a raw raster code: giant because the cell is in the core-helium-burning (horizontal-branch)
+#: band where it overlaps the Hertzsprung gap
+RAW_HB = 64
 #: mask of the stage code inside a raw raster code
 RAW_STAGE = 15
+
+#: log Teff range over which the extra hot-white-dwarf widening grows from 0 to its full value
+LOGT_WD_HOT = (float(np.log10(30000.0)), 5.0)
 
 #: lowest log Teff of the main-sequence extension below 0.1 Msun
 LOGT_MS_EXTENSION = 3.36
@@ -56,6 +62,8 @@ CITATIONS = (
     "Hurley J. R., Pols O. R., Tout C. A., 2000, MNRAS 315, 543 (TAMS, MS evolution, BGB, R_GB, "
     "He ignition, AGB radius, core mass at the BAGB, white-dwarf radius)",
     "Straizys V., Kuriliene G., 1981, Ap&SS 80, 353 (class II vs Ib luminosities: bright-giant band)",
+    "Hurley J. R., Pols O. R., Tout C. A., 2000, MNRAS 315, 543, eqs 51, 53, 54, 77, 78 (zero-age "
+    "horizontal branch: core-helium-burning band)",
 )
 
 
@@ -167,13 +175,58 @@ class StageMap:
         r_lo = float(hpt.wd_radius(p.wd_mass_max))
         self._wd_logr = (np.log10(r_lo), np.log10(r_hi))
         self._logt_wd_min = float(np.log10(p.wd_teff_min))
+        self._hb_band = self._hb_edges()
+
+    def _hb_edges(self):
+        """Core-He-burning band: (logt, lower, upper) per 0.005-dex log T bin, or None if off.
+
+        Lower edge: the faintest ZAHB sample of the bin - ``hb_depth``; upper edge: the brightest +
+        ``hb_height``; from the coolest ZAHB sample to ``hb_teff_max``.
+        """
+        p, L = self.params, self.loci
+        if p.hb_height <= 0:
+            return None
+        t, l = L.zahb_logt, L.zahb_logl
+        ok = np.isfinite(t) & np.isfinite(l)
+        t, l = t[ok], l[ok]
+        t_hi = min(float(t.max()), float(np.log10(p.hb_teff_max)))
+        step = 0.005
+        edges = np.arange(float(t.min()), t_hi + step, step)
+        k = np.clip(np.searchsorted(edges, t, side="right") - 1, 0, len(edges) - 1)
+        lo = np.full(len(edges), np.inf)
+        hi = np.full(len(edges), -np.inf)
+        np.minimum.at(lo, k, l)
+        np.maximum.at(hi, k, l)
+        have = np.isfinite(lo)
+        centres = np.minimum(edges + 0.5 * step, t_hi)
+        lo = np.interp(centres, centres[have], lo[have])
+        hi = np.interp(centres, centres[have], hi[have])
+        tt = np.r_[edges[0], centres, t_hi]
+        return tt, np.r_[lo[0], lo, lo[-1]] - p.hb_depth, np.r_[hi[0], hi, hi[-1]] + p.hb_height
+
+    def _hb_mass(self, logt):
+        """Typical current (horizontal-branch) mass of a ZAHB star of this log Teff (median per bin)."""
+        L = self.loci
+        t, m = L.zahb_logt, L.zahb_mass
+        ok = np.isfinite(t) & np.isfinite(m)
+        t, m = t[ok], m[ok]
+        edges = np.linspace(t.min(), t.max(), 60)
+        k = np.clip(np.searchsorted(edges, t) - 1, 0, len(edges) - 2)
+        cen, med = [], []
+        for j in np.unique(k):
+            cen.append(0.5 * (edges[j] + edges[j + 1]))
+            med.append(np.median(m[k == j]))
+        return np.interp(logt, cen, med)
 
     def wd_edge(self, logt, which: str):
         """log L of the lower ('lower') or upper ('upper') edge of the white-dwarf band at logt."""
         p = self.params
+        logt = np.asarray(logt, dtype=float)
         if which == "lower":
-            return 2 * self._wd_logr[0] + 4 * (np.asarray(logt) - LOG_TSUN) - p.wd_tolerance
-        return 2 * self._wd_logr[1] + 4 * (np.asarray(logt) - LOG_TSUN) + p.wd_tolerance
+            return 2 * self._wd_logr[0] + 4 * (logt - LOG_TSUN) - p.wd_tolerance
+        a, b = LOGT_WD_HOT
+        hot = p.wd_hot_tolerance * np.clip((logt - a) / (b - a), 0.0, 1.0)
+        return 2 * self._wd_logr[1] + 4 * (logt - LOG_TSUN) + p.wd_tolerance + hot
 
     def ms_lower_at(self, logt):
         """log L of the lower edge of the main-sequence band (ZAMS - ms_below_zams) at logt."""
@@ -198,7 +251,7 @@ class StageMap:
         polys.append((SUBDWARF, np.c_[np.r_[tt[keep], tt[keep][::-1]], np.r_[upper[keep], lower[keep][::-1]]]))
         th = np.linspace(t_hsd[0], t_hsd[1], 40)
         polys.append((HOT_SUBDWARF, np.c_[np.r_[th, th[::-1]], np.r_[self.ms_lower_at(th), self.wd_edge(th, "upper")[::-1]]]))
-        tw = np.array([self._logt_wd_min, hot])
+        tw = np.unique(np.r_[np.linspace(self._logt_wd_min, hot, 60), LOGT_WD_HOT])
         polys.append((WHITE_DWARF, np.c_[np.r_[tw, tw[::-1]], np.r_[self.wd_edge(tw, "upper"), self.wd_edge(tw, "lower")[::-1]]]))
         # giants: cooler than the end of the Hertzsprung gap, masses m_age .. M_sg
         sel = (L.m >= L.m_age) & (L.m <= self.m_sg)
@@ -220,6 +273,9 @@ class StageMap:
         polys.append((MAIN_SEQUENCE, np.c_[np.r_[lt_, ut_[::-1]], np.r_[ll_, ul_[::-1]]]))
         band = np.c_[np.r_[ut_, ut_[::-1]], np.r_[ul_, ul_[::-1] + p.binary_offset]]
         polys.append(("binary", band))
+        if self._hb_band is not None:
+            ht, hlo, hhi = self._hb_band
+            polys.append(("hb", np.c_[np.r_[ht, ht[::-1]], np.r_[hlo, hhi[::-1]]]))
         return polys
 
     def _paint(self):
@@ -227,7 +283,11 @@ class StageMap:
         raw = np.full((g.ny, g.nx), UNCLASSIFIED, dtype=np.int8)
         for code, poly in self._polygons():
             mask = fill_polygon(poly, g)
-            if code == "binary":
+            if code == "hb":
+                # core-He burning is long-lived, the gap crossing fast: giant where they overlap
+                mask &= (raw & RAW_STAGE) == SUBGIANT
+                raw[mask] = (raw[mask] & ~np.int8(RAW_STAGE)) | np.int8(GIANT | RAW_HB)
+            elif code == "binary":
                 mask &= (raw & RAW_STAGE) != MAIN_SEQUENCE
                 if self.params.binary_promote:
                     raw[mask] |= RAW_BINARY
@@ -287,6 +347,12 @@ class StageMap:
         # bright giants without a giant-branch solution: luminosity relation
         fallback = (codes == BRIGHT_GIANT) & ~np.isfinite(mass)
         mass[fallback] = sg_raster[fallback]
+        # horizontal-branch cells: typical current mass of a ZAHB star of that Teff
+        rawc = self.raw.values[fy // 2 :: fy, fx // 2 :: fx][: cg.ny, : cg.nx]
+        hbc = (rawc & RAW_HB) != 0
+        if hbc.any():
+            hbm = np.log10(self._hb_mass(ct))
+            mass[hbc] = np.broadcast_to(hbm[None, :], mass.shape)[hbc]
         self.mass_grid = cg
         self.mass_lookup = Lookup((10.0 ** mass).astype(np.float32), cg, np.float32(np.nan))
         # 1-D relations along the ZAMS
@@ -354,8 +420,18 @@ class StageMap:
         tw = np.linspace(self._logt_wd_min, self.grid.t1, 50)
         add("wd_min", f"White-dwarf band lower edge ({p.wd_mass_max:g} Msun, -{p.wd_tolerance:g} dex)",
             tw, self.wd_edge(tw, "lower"), np.full_like(tw, p.wd_mass_max))
-        add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance:g} dex)",
+        tw = np.unique(np.r_[tw, LOGT_WD_HOT])
+        add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance:g} dex, "
+            f"+{p.wd_hot_tolerance:g} dex more from 30 kK to 100 kK)",
             tw, self.wd_edge(tw, "upper"), np.full_like(tw, p.wd_mass_min))
+        zt, zl, zm = L.zahb_ref
+        add("zahb", f"Zero-age horizontal branch of {L.zahb_minit[0]:.2f} Msun stars (HPT2000 eqs 53-54)",
+            zt, zl, zm)
+        if self._hb_band is not None:
+            ht, hlo, hhi = self._hb_band
+            hm = self._hb_mass(ht)
+            add("hb_lower", f"Core-He-burning band lower edge (ZAHB - {p.hb_depth:g} dex)", ht, hlo, hm)
+            add("hb_upper", f"Core-He-burning band upper edge (ZAHB + {p.hb_height:g} dex)", ht, hhi, hm)
         del nan
         return out
 

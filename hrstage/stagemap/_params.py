@@ -64,6 +64,25 @@ class StageParams:
         (metal-poor dwarfs lie up to about 1 dex under the solar ZAMS at fixed Teff).
     hot_subdwarf_teff : tuple of float, default (20000, 45000)
         Teff range (K) of the hot-subdwarf box between the white-dwarf band and the ZAMS.
+    hb_height : float, default 0.4
+        Height (dex in log L) of the core-helium-burning (horizontal-branch) band above the
+        zero-age horizontal branch (HPT2000 eq 53) of low-mass stars (M < M_HeF): horizontal-branch
+        and red-clump stars brighten by about 0.3-0.5 dex while they burn helium in the core before
+        leaving for the AGB. 0 switches the band off. Where the band overlaps the Hertzsprung gap
+        its cells are labelled giant (the gap is crossed in a few Myr, core-He burning lasts
+        ~100 Myr).
+    hb_depth : float, default 0.1
+        Depth (dex) of the band below the ZAHB: fit accuracy of eq 53 and a metallicity or helium
+        mismatch (MIST v1.2 at [Fe/H] = -1.35 puts its ZAHB 0.03 dex under eq 53).
+    hb_teff_max : float, default 20000
+        Hottest Teff (K) of the band. Hotter core-He burners (extreme HB) are the hot subdwarfs,
+        which have their own region from ``hot_subdwarf_teff``.
+    wd_hot_tolerance : float, default 0.4
+        Extra widening (dex in log L) of the upper edge of the white-dwarf band for hot white
+        dwarfs, growing linearly in log Teff from 0 at 30 kK to the full value at 100 kK and
+        above: eq 91 is a zero-temperature relation and young, hot white dwarfs still have
+        inflated, non-degenerate envelopes (log g about 7.0-7.5 instead of 7.9 for 0.55 Msun near
+        100 kK in MIST v1.2 cooling tracks).
     n_mass : int, default 360
         Number of log-spaced masses (0.1-100 Msun) on which the loci are sampled; extra masses
         are added around M_HeF, M_FGB, the supergiant mass and the age-limit mass.
@@ -84,6 +103,10 @@ class StageParams:
     wd_teff_min: float = 4000.0
     subdwarf_depth: float = 1.2
     hot_subdwarf_teff: tuple = (20000.0, 45000.0)
+    hb_height: float = 0.4
+    hb_depth: float = 0.1
+    hb_teff_max: float = 20000.0
+    wd_hot_tolerance: float = 0.4
     n_mass: int = 360
 
     def __post_init__(self):
@@ -100,6 +123,10 @@ class StageParams:
             ("wd_tolerance", 0.0 <= self.wd_tolerance <= 1.0, "between 0 and 1 dex"),
             ("wd_teff_min", 2000.0 <= self.wd_teff_min <= 20000.0, "between 2000 and 20000 K"),
             ("subdwarf_depth", 0.0 <= self.subdwarf_depth <= 5.0, "between 0 and 5 dex"),
+            ("hb_height", 0.0 <= self.hb_height <= 1.5, "between 0 and 1.5 dex"),
+            ("hb_depth", 0.0 <= self.hb_depth <= 0.5, "between 0 and 0.5 dex"),
+            ("hb_teff_max", 5000.0 <= self.hb_teff_max <= 50000.0, "between 5000 and 50000 K"),
+            ("wd_hot_tolerance", 0.0 <= self.wd_hot_tolerance <= 1.5, "between 0 and 1.5 dex"),
             ("n_mass", 50 <= int(self.n_mass) <= 5000, "between 50 and 5000"),
         ]
         if self.supergiant_mass is not None:

@@ -217,3 +217,28 @@ EXPECTED_FAILED = {
 @parametrize_with_checks([StageClassifier()], expected_failed_checks=lambda est: EXPECTED_FAILED)
 def test_sklearn_compatible(estimator, check):
     check(estimator)
+
+
+def test_draw_skipping_is_exact():
+    # stars whose whole draw box lies in one stage are not drawn: the counts must equal drawing
+    # every star (common practice: an optimisation must not change results)
+    from hrstage.classifier import _core
+    from hrstage.stagemap import stage_map
+
+    sm = stage_map(0.0)
+    rng = np.random.default_rng(11)
+    n = 4000
+    lt, ll = rng.uniform(3.4, 4.6, n), rng.uniform(-4, 5.5, n)
+    st, sl, rho = rng.uniform(0, 0.02, n), rng.uniform(0, 0.1, n), rng.uniform(-0.9, 0.9, n)
+    z1, z2 = _core._draws(128, 3)
+    fast = _core._mc_counts(sm, lt, ll, st, sl, rho, z1, z2)
+    assert (fast.sum(axis=1) == 128).all()
+    slow = np.zeros_like(fast)
+    lk = sm.codes
+    xc = lt * lk.inv_dt + (lk.ax - 1.0)
+    yc = ll * lk.inv_dl + (lk.ay - 1.0)
+    _core._draw_counts(lk, slow, np.arange(n), xc, yc, st * lk.inv_dt, sl * rho * lk.inv_dl,
+                       sl * np.sqrt(1 - rho**2) * lk.inv_dl, z1, z2, 1 << 16, True)
+    assert np.array_equal(fast, slow)
+    uni, _ = _core._uniform_boxes(sm, xc, yc, st * lk.inv_dt * 5 + 1, (sl * lk.inv_dl) * 5 + 1)
+    assert 0 < (uni >= 0).sum() < n  # some stars skipped, some drawn

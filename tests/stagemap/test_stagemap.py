@@ -138,3 +138,43 @@ def test_raster_accuracy_near_zams(sm):
     tol = 2 * (0.00125 + slope * 0.0005)
     assert (sm.locate(t, edge + tol) == CODE["main_sequence"]).all()
     assert (sm.locate(t, edge - tol) != CODE["main_sequence"]).all()
+
+
+def test_core_helium_band_takes_the_gap_overlap():
+    # metal-poor red horizontal branch: MIST v1.2 [Fe/H] = -1.35 12 Gyr phase 3 lies at
+    # log Teff 3.74-3.76, log L 1.75 (Choi et al. 2016; Dotter 2016); HPT2000 eq 53 gives the ZAHB
+    sm = stage_map(-1.35)
+    on, off = sm, stage_map(-1.35, hb_height=0.0)
+    t, l = np.array([3.745, 3.80, 3.90]), np.array([1.76, 1.85, 1.95])
+    assert list(STAGES[c] for c in off.locate(t, l)) == ["subgiant"] * 3
+    assert list(STAGES[c] for c in on.locate(t, l)) == ["giant"] * 3
+    from hrstage.stagemap import RAW_HB
+    assert np.all(on.locate_raw(t, l) & RAW_HB)
+    # only Hertzsprung-gap cells change: every other label is the same with and without the band
+    g = on.grid
+    a, b = on.codes.values, off.codes.values
+    changed = a != b
+    assert changed.any()
+    assert np.all(b[changed] == CODE["subgiant"]) and np.all(a[changed] == CODE["giant"])
+    # the band is hotter than the coolest ZAHB point and cooler than hb_teff_max (20 kK)
+    tc, _ = g.centres()
+    cols = np.nonzero(changed.any(axis=0))[0]
+    assert tc[cols].max() <= np.log10(20000.0) + g.dt
+    for name in ("zahb", "hb_lower", "hb_upper"):
+        assert name in on.curves
+    assert "hb_lower" not in off.curves
+
+
+def test_hot_white_dwarf_widening():
+    # a 0.54 Msun white dwarf at 95 kK with log g 7.05 (MIST v1.2 cooling track, phase 6):
+    # R = sqrt(G M / g) -> log L = 2 log R + 4 log(T/5772)
+    from astropy import constants as const
+
+    r = np.sqrt(const.G.cgs.value * 0.54 * const.M_sun.cgs.value / 10**7.05) / const.R_sun.cgs.value
+    lt = np.log10(95000.0)
+    ll = 2 * np.log10(r) + 4 * (lt - np.log10(5772.0))
+    assert STAGES[stage_map(0.0).locate(lt, ll)] == "white_dwarf"
+    assert STAGES[stage_map(0.0, wd_hot_tolerance=0.0).locate(lt, ll)] != "white_dwarf"
+    # no change at or below 30 kK (where the widening starts)
+    sm, s0 = stage_map(0.0), stage_map(0.0, wd_hot_tolerance=0.0)
+    assert sm.wd_edge(np.log10(25000.0), "upper") == pytest.approx(s0.wd_edge(np.log10(25000.0), "upper"))
