@@ -353,6 +353,7 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     first = mapping.routes[0]
     not_done = np.flatnonzero(~done)
     if not_done.size:
+        in_flags[not_done] |= fail_flags[not_done]      # why the routes failed (e.g. parallax <= 0)
         lacks = np.zeros(not_done.size, dtype=bool)
         for role in _ROUTE_NEEDS[first]:
             if role in status:

@@ -84,6 +84,10 @@ def arrow_to_table(data, attrs: dict | None = None) -> Table:
     pa = _pa()
     if attrs is None:
         attrs = header_from_schema(data.schema)
+    names = list(data.schema.names)
+    if len(set(names)) != len(names):
+        dup = sorted({n for n in names if names.count(n) > 1})
+        raise HrstageInputError(f"the header repeats column name(s) {', '.join(dup)}; rename them first")
     cols = []
     for name in data.schema.names:
         arr = data.column(name)

@@ -10,8 +10,8 @@ unusable entry is NaN, and a status code per row saying why it is unusable:
   for linear Teff, L, radius and mass, where 999 or 9999 can be real), for magnitudes and colours
   anything with ``|x| >= 50``, and for log L, log g, [Fe/H], log Teff and parallax anything outside
   a physically possible range: treated as missing; the pipeline raises ``MISSING_INPUT``;
-* ``NONPHYSICAL`` — a real number that cannot be the quantity (Teff <= 0, L <= 0, radius <= 0,
-  infinite): the pipeline raises ``BAD_INPUT``.
+* ``NONPHYSICAL`` — a real number that cannot be the quantity (Teff <= 0 or outside 300 K - 10^7 K,
+  L <= 0, radius <= 0, infinite): the pipeline raises ``BAD_INPUT``.
 
 Whole-column mistakes are errors, not guesses (:class:`~hrstage.errors.HrstageInputError`):
 
@@ -129,6 +129,8 @@ def column_values(col, role: str) -> tuple[np.ndarray, np.ndarray]:
         status[out] = SENTINEL
     if role in _POSITIVE:
         status[(vals <= 0) & (status == OK)] = NONPHYSICAL
+    if role == "teff":   # no star is cooler than 300 K or hotter than 10^7 K (common practice)
+        status[((vals < 300.0) | (vals > 1.0e7)) & (status == OK)] = NONPHYSICAL
     status[np.isinf(vals) & (status == OK)] = NONPHYSICAL
     if role.endswith("_err"):
         status[(vals < 0) & (status == OK)] = NONPHYSICAL

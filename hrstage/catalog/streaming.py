@@ -70,7 +70,7 @@ def _csv_block_size(path: Path, chunk_rows: int) -> int:
         sample = fh.read(65536)
     lines = max(sample.count(b"\n"), 1)
     per_row = max(len(sample) / lines, 8.0)
-    return int(min(max(per_row * chunk_rows, 1 << 12), 1 << 30))
+    return int(min(max(per_row * chunk_rows, 1 << 22), 1 << 30))   # >= 4 MiB: long fields fit
 
 
 def _iter_csv(path: Path, chunk_rows: int) -> Iterator[Table]:
