@@ -3,7 +3,9 @@
 Baseline: ``np.log10(t) + l`` over the same (log Teff, log L) float64 arrays -- one elementwise
 transcendental plus one add, the cheapest full pass a catalogue tool makes. Printed: medians over
 repeats of (1) the baseline, (2) point labels (``StageMap.locate``), (3) the full
-``classify_hr`` without draws (labels, masses, flags), (4) probabilities with 128 draws.
+``classify_hr`` without draws (labels, masses, flags), (4) probabilities with 128 draws, (5) the
+Monte Carlo core alone (the stage counts of those draws), (6) building the reason texts
+(``to_columns``; they are built lazily, on first access).
 """
 
 import os
@@ -15,7 +17,7 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
-from hrstage.classifier import classify_hr  # noqa: E402
+from hrstage.classifier import _core, classify_hr  # noqa: E402
 from hrstage.stagemap import stage_map  # noqa: E402
 
 
@@ -47,6 +49,15 @@ def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000):
                                          n_draws=128, feh=0.0), repeats=3)
     b2 = median_time(lambda: np.log10(lt[:n_mc]) + ll[:n_mc])
     print(f"classify_hr, 128 draws     : {n_mc / mc / 1e6:8.2f} M stars/s   ratio to baseline {b2 / mc:6.4f}")
+    z1, z2 = _core._draws(128, 20240601)
+    rho = np.full(n_mc, 0.3)
+    core = median_time(lambda: _core._mc_counts(sm, lt[:n_mc], ll[:n_mc], st, sl, rho, z1, z2), repeats=3)
+    print(f"Monte Carlo core alone     : {n_mc / core / 1e6:8.2f} M stars/s   ratio to baseline {b2 / core:6.4f}")
+    res = classify_hr(lt[:n_mc], ll[:n_mc], logt_err=st, logl_err=sl, corr=0.3, n_draws=128, feh=0.0)
+    t0 = time.perf_counter()
+    res.to_columns()
+    tc = time.perf_counter() - t0
+    print(f"to_columns (reason texts)  : {n_mc / tc / 1e6:8.2f} M stars/s   (once per result)")
 
 
 if __name__ == "__main__":
