@@ -232,15 +232,17 @@ def pyarrow_copy(kind: str, src: Path, dst: Path) -> list[str]:
     return ["-c", _PYARROW_CHILD, kind, str(src), str(dst)]
 
 
-def side_by_side(a: list[str], b: list[str], repeats: int, cleanup: list[Path]) -> tuple[list, list]:
-    """Interleave runs of ``a`` and ``b`` (a, b, a, b, ...); return their (time, rss) lists."""
+def side_by_side(a: list[str], b: list[str], repeats: int, outputs: tuple[Path, Path]) -> tuple[list, list]:
+    """Interleave runs of ``a`` and ``b`` (a, b, a, b, ...); return their (time, rss) lists.
+
+    Each command's own output file is removed before it runs, so both always write a new file.
+    """
     ra, rb = [], []
     for _ in range(repeats):
-        for cmd, out in ((a, ra), (b, rb)):
-            for p in cleanup:
-                if p.exists():
-                    p.unlink()
-            out.append(run_child(cmd))
+        for cmd, res, out in ((a, ra, outputs[0]), (b, rb, outputs[1])):
+            if out.exists():
+                out.unlink()
+            res.append(run_child(cmd))
     return ra, rb
 
 
@@ -255,7 +257,7 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int) -> dict:
     src = write_synthetic(work / f"in_{rows}.{kind}", rows, kind)
     out_cli = work / f"out_cli.{kind}"
     out_pa = work / f"out_pyarrow.{kind}"
-    r_cli, r_pa = side_by_side(cli(src, out_cli), pyarrow_copy(kind, src, out_pa), repeats, [out_cli, out_pa])
+    r_cli, r_pa = side_by_side(cli(src, out_cli), pyarrow_copy(kind, src, out_pa), repeats, (out_cli, out_pa))
     res = {
         "rows": rows,
         "input_MiB": round(src.stat().st_size / 2**20, 1),
