@@ -49,11 +49,20 @@ def _as_float(values, unit: str | None = None, what: str = "column") -> np.ndarr
         try:
             from astropy import units as u
 
-            if unit == "dex(solLum)" and values.unit.is_equivalent(u.W):
-                values = np.log10(values.to_value(u.L_sun))
-                unit = None
+            vunit = u.Unit(values.unit)
+            data = np.ma.getdata(values)
+            if unit == "dex(solLum)" and isinstance(vunit, u.FunctionUnitBase):
+                # already logarithmic (e.g. dex(solLum) or mag-like): convert within the log units
+                values = np.ma.array(vunit.to(u.dex(u.L_sun), np.asarray(data, dtype=float)),
+                                     mask=np.ma.getmaskarray(values))
+            elif unit == "dex(solLum)":
+                # a linear luminosity (W, erg/s, solLum): take the log in solar units
+                values = np.ma.array(np.log10(vunit.to(u.L_sun, np.asarray(data, dtype=float))),
+                                     mask=np.ma.getmaskarray(values))
             else:
-                values = values.to(unit).value if hasattr(values, "to") else values
+                values = np.ma.array(vunit.to(u.Unit(unit), np.asarray(data, dtype=float)),
+                                     mask=np.ma.getmaskarray(values))
+            unit = None
         except Exception as exc:  # unit conversion error: say which column
             raise HrstageInputError(f"{what}: unit {values.unit} cannot be converted to {unit}") from exc
     mask = np.ma.getmaskarray(values) if np.ma.isMaskedArray(values) or hasattr(values, "mask") else None

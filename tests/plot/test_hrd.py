@@ -221,3 +221,23 @@ def test_colour_magnitude_diagram_from_parallax():
     assert not by_gid(ax, "stars:white_dwarf")  # negative parallax: not shown ...
     (cap,) = by_gid(ax, "caption")
     assert "1 star without a position" in cap.get_text() and "extinction" in cap.get_text()  # ... but counted
+
+
+def test_columns_with_units_from_a_written_catalogue(real_stage_map):
+    """A tagged table read back from disk carries ``logl_used`` in dex(solLum) (hrstage.columns);
+    a user table may carry a linear luminosity in W or solLum. All three must plot at the same
+    place: 1 Lsun = 3.828e26 W (IAU 2015 B3 nominal, astropy)."""
+    import astropy.units as u
+    from astropy.table import Column, Table
+
+    teff = np.array([5772.0, 4800.0])
+    logl = np.array([0.0, 1.7])
+    tables = [
+        Table({"teff_used": teff, "logl_used": Column(logl, unit="dex(solLum)")}),
+        Table({"teff": teff, "lum": 10**logl * u.L_sun}),
+        Table({"teff": teff, "lum": 10**logl * 3.828e26 * u.W}),
+    ]
+    for table in tables:
+        ax = hr_diagram(table, stage_map=real_stage_map, show_regions=False, top_axis=None, right_axis=None)
+        pts = np.vstack([c.get_offsets() for c in ax.collections if str(c.get_gid()).startswith("stars:")])
+        np.testing.assert_allclose(sorted(pts[:, 1]), sorted(logl), atol=1e-9)
