@@ -10,9 +10,19 @@ Labels are indicative (analytic single-star fits); they do not replace a spectro
 """
 
 from ._core import FEH_GRID, OPTIONS, ClassificationResult, classify_hr, estimate_mass
-from ._estimator import StageClassifier
 from ._explain import explain_star
 from ._logg import logl_from_logg
+
+
+def __getattr__(name):
+    # scikit-learn is imported only when the estimator is asked for: it costs seconds at start-up
+    # of the command line, which never needs it.
+    if name == "StageClassifier":
+        from ._estimator import StageClassifier
+
+        return StageClassifier
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
 
 __all__ = [
     "classify_hr",
