@@ -77,18 +77,12 @@ def test_teff_lum_with_nan_inf_negative_zero_and_masked_values():
         np.testing.assert_array_equal(np.ma.getdata(out[name]), np.ma.getdata(before[name]))
 
 
-@pytest.mark.xfail(strict=True, reason="pipeline: a finite Teff of 1e30 K reaches classify_hr, which raises "
-                   "HrstageInputError for the whole table ('logt row 22: 30 is not a plausible log10(Teff/K)') "
-                   "instead of flagging that row BAD_INPUT; reported to the pipeline/catalog owners")
 def test_absurd_teff_is_one_bad_row_not_a_failed_catalogue():
     table, expect, bits = B.teff_lum_table(repeat=1, extra_rows=[B.ABSURD_TEFF_ROW])
     out = classify(table)
     check_rows(out, list(table["star_id"]), expect, bits)
 
 
-@pytest.mark.xfail(strict=True, reason="pipeline/derive: rows with parallax <= 0 come out unclassified with "
-                   "MISSING_INPUT but without the NONPOSITIVE_PARALLAX bit that hrstage.flags defines for them; "
-                   "reported to the derive/pipeline owners")
 def test_parallaxes_zero_negative_nan_inf():
     table, expect, bits = B.gaia_table()
     out = classify(table)
