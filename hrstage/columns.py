@@ -29,7 +29,7 @@ _COLUMNS = [
         for s in STAGES
     ],
     OutputColumn("mass_est", "f8", "solMass", "Initial-mass estimate from the stellar relations", "phys.mass"),
-    OutputColumn("mass_err", "f8", "solMass", "Uncertainty of mass_est (Monte Carlo spread)", "stat.error;phys.mass"),
+    OutputColumn("mass_err", "f8", "solMass", "Uncertainty of mass_est (first-order propagation of the log Teff and log L errors)", "stat.error;phys.mass"),
     OutputColumn("mass_method", "U", None, "How mass_est was obtained", "meta.code"),
     OutputColumn("mass_ms_teff", "f8", "solMass", "Main-sequence mass implied by Teff", "phys.mass"),
     OutputColumn("mass_ms_lum", "f8", "solMass", "Main-sequence mass implied by the luminosity", "phys.mass"),
