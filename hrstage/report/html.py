@@ -91,11 +91,27 @@ def _float_column(table, name):
     return arr
 
 
-def _find(table, candidates, given=None, what="column"):
+def _role_from_meta(table, role):
+    """Column the pipeline mapped to ``role`` (table meta ``hrstage_roles``: "teff=T,id=NAME,...")."""
+    roles = getattr(table, "meta", {}).get("hrstage_roles", "")
+    if not isinstance(roles, str):
+        return None
+    for item in roles.split(","):
+        key, _, col = item.partition("=")
+        if key.strip() == role and col.strip() in table.colnames:
+            return col.strip()
+    return None
+
+
+def _find(table, candidates, given=None, what="column", role=None):
     if given is not None:
         if given not in table.colnames:
             raise HrstageInputError(f"{what} {given!r} is not a column of the table")
         return given
+    if role is not None:
+        mapped = _role_from_meta(table, role)
+        if mapped is not None:
+            return mapped
     lower = {c.lower(): c for c in table.colnames}
     for c in candidates:
         if c in lower:
@@ -241,7 +257,7 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
     flags = (np.asarray(np.ma.filled(table["flags"], 0)).astype(np.int64) if "flags" in table.colnames
              else np.zeros(n, dtype=np.int64))
     prob = _float_column(table, "stage_prob")
-    idc = _find(table, _ID_CANDIDATES, id_column, "id_column")
+    idc = _find(table, _ID_CANDIDATES, id_column, "id_column", role="id")
     ids = _text_column(table, idc) if idc else np.array([""] * n, dtype=object)
     flag_text = _text_column(table, "flag_text") if "flag_text" in table.colnames else None
     when = generated_at or _dt.datetime.now(_dt.timezone.utc)
@@ -343,7 +359,7 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
     # ---- spectral types ---------------------------------------------------------------------
     if "sptype_verdict" in table.colnames:
         verdict = _text_column(table, "sptype_verdict")
-        spc = _find(table, _SPTYPE_CANDIDATES, sptype_column, "sptype_column")
+        spc = _find(table, _SPTYPE_CANDIDATES, sptype_column, "sptype_column", role="sptype")
         raw = _text_column(table, spc) if spc else None
         parsed = _text_column(table, "sptype_parsed") if "sptype_parsed" in table.colnames else None
         sugg = _text_column(table, "sptype_suggested") if "sptype_suggested" in table.colnames else None

@@ -235,3 +235,17 @@ def test_chromium_screenshot_and_dom(report_with_figure, tmp_path):
     assert len(p.tables["sptype-conflicts"]["tbody"]) == 4
     assert "script" not in p.tags  # the browser built no script element
     assert EVIL in "".join(p.text)  # the name is rendered as text
+
+
+def test_id_and_type_columns_from_the_pipeline_mapping():
+    """The pipeline records its column roles in the table meta ('hrstage_roles'); the report uses
+    them, so an id column with an unusual name still labels the rows."""
+    t = synthetic_table()
+    t.rename_column("name", "target_code")
+    t.rename_column("sptype", "mk_class_text")
+    t.meta["hrstage_roles"] = "teff=teff,lum=lum,id=target_code,sptype=mk_class_text"
+    p = parse(render_report(t, figure=False, generated_at=WHEN))
+    flagged_ids = [row[1] for row in p.tables["flagged-stars"]["tbody"]]
+    assert "Synth-01" in flagged_ids
+    conflict_rows = p.tables["sptype-conflicts"]["tbody"]
+    assert any("K0 III" in cell for row in conflict_rows for cell in row)
