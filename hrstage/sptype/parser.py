@@ -28,7 +28,7 @@ import numpy as np
 
 from .lumclass import lum_one_range, normalise_lumclass
 
-__all__ = ["SpType", "parse", "parse_many", "TCLASS_BASE"]
+__all__ = ["SpType", "parse", "parse_many", "TCLASS_BASE", "MAX_LENGTH", "MAX_COMPONENTS"]
 
 #: zero point of each MK temperature class on the continuous index
 TCLASS_BASE = {"O": 0, "B": 10, "A": 20, "F": 30, "G": 40, "K": 50, "M": 60, "L": 70, "T": 80, "Y": 90}
@@ -136,20 +136,28 @@ class SpType:
                 head += f"m{self.indices['m_type']}"
         else:
             head += _render_temp(self)
-        for k in ("abundance", "ZrO", "wr_range_to", "line_group", "wr_type"):
+        in_head = ["abundance", "ZrO", "wr_range_to", "line_group", "wr_type"]
+        c2 = self.indices.get("C2")
+        if self.kind == "carbon" and isinstance(c2, float) and 0 <= c2 < 10 and (4 * c2).is_integer():
+            head += f",{_quarter_text(c2)}"  # Keenan's C2 band index after the comma: 'C6+,3'
+            in_head.append("C2")
+        for k in in_head[:5]:
             if k in self.indices:
                 head += _render_index(k, self.indices[k])
         if self.temp_uncertain:
             head += ":"
         parts = [head]
         if self.lumclass and self.kind != "white_dwarf" and not self.lumclass.startswith("sd"):
-            parts.append(self.lumclass + (":" if self.lum_uncertain else ""))
+            # a range from the hypergiant class renders '0/Ia', '0/Iab': '0-Ia' is the hypergiant's own spelling
+            lc = "0/" + self.lumclass[2:] if self.lumclass.startswith("0-") else self.lumclass
+            parts.append(lc + (":" if self.lum_uncertain else ""))
         for k, v in self.indices.items():
-            if k in ("k_type", "h_type", "m_type", "he_type", "abundance", "ZrO", "wr_range_to", "line_group",
-                     "wr_type"):
+            if k in ("k_type", "h_type", "m_type", "he_type") or k in in_head:
                 continue
             parts.append(_render_index(k, v).strip())
-        parts.extend(self.peculiarities)
+        cno = _cno(self) if self.kind in ("mk", "am_ap") else ""
+        skip = {cno} if cno else _WD_SUFFIXES if self.kind == "white_dwarf" else set()
+        parts.extend(p for p in self.peculiarities if p not in skip)
         return " ".join(parts)
 
     def as_dict(self) -> dict:
@@ -179,29 +187,78 @@ def _numeric_to_text(x: float) -> str:
 
 
 def _render_temp(t: SpType) -> str:
+    """Temperature part of the normal form.
+
+    A single type renders as written (``K0+``, ``G``). A range keeps the end written first (so
+    ``tclass``, ``subtype`` and ``quarter`` read back unchanged, also for reversed ranges such as
+    ``K8/G`` -> ``K8-G0``) and renders the other end as a decimal subtype of its own class, which
+    reads back to the same ``t_range`` (a bare class spans its whole class, so ``G/K`` and ``G-K``
+    both cover G0-K9.5 and render ``G-K``; an upper end at x9.5 renders as the bare class). After
+    a quarter mark the separator is ``/`` (``K0+/K1``). An interval that extends the first end on both sides (only
+    after chained ranges) renders as ``first-lo/hi``.
+    """
     if t.kind in ("mk", "am_ap", "wolf_rayet") and t.tclass in TCLASS_BASE:
         lo, hi = t.t_range
-        base = TCLASS_BASE[t.tclass]
         if math.isnan(t.subtype):
-            if hi - lo == 9.5:
-                return t.tclass
-            return f"{t.tclass}-{_numeric_to_text(hi)[0]}"
-        first = f"{t.tclass}{t.subtype:g}{t.quarter}"
-        q = 0.25 if t.quarter == "+" else -0.25 if t.quarter == "-" else 0.0
-        own = base + t.subtype + q
-        if lo == hi == own:
+            first = t.tclass
+            _, a, b = _type_numeric(t.tclass, None, None)
+        else:
+            first = f"{t.tclass}{_cno(t)}{t.subtype:g}{t.quarter}"
+            _, a, b = _type_numeric(t.tclass, f"{t.subtype:g}", t.quarter or None)
+        if math.isnan(lo) or (lo == a and hi == b):
             return first
-        other = hi if abs(lo - own) < 1e-9 else lo
-        return f"{first}-{_numeric_to_text(other)}" if other > own else f"{_numeric_to_text(other)}-{first}"
+        sep = "/" if t.quarter else "-"  # 'K0+/K1': a quarter mark is never followed by '-'
+        if lo < a and hi > b:
+            for letter, base in TCLASS_BASE.items():
+                if lo == base and hi == base + 9.5:
+                    return f"{first}{sep}{letter}"
+            return f"{first}{sep}{_numeric_to_text(lo)}/{_end_text(hi, a)}"
+        return f"{first}{sep}{_numeric_to_text(lo) if lo < a else _end_text(hi, a)}"
+    if t.kind in ("carbon", "s_type"):
+        return f"{t.tclass}{_quarter_text(t.subtype) if not math.isnan(t.subtype) else ''}"
+    if t.kind == "white_dwarf":  # Sion et al. 1983 suffixes are part of the class: 'DA3PV'
+        sfx = "".join(p for p in t.peculiarities if p in _WD_SUFFIXES)
+        return f"{t.tclass}{_fmt_num(t.subtype)}{sfx}"
     sub = _fmt_num(t.subtype)
     return f"{t.tclass}{sub}{t.quarter}"
 
 
+def _end_text(x: float, own_lo: float) -> str:
+    """Upper end of a range: the last subtype (x9.5) of a class wholly above the first end renders
+    as the bare class (``G8-K``)."""
+    for letter, base in TCLASS_BASE.items():
+        if x == base + 9.5 and base >= own_lo:
+            return letter
+    return _numeric_to_text(x)
+
+
+def _quarter_text(v) -> str:
+    """A carbon/S subtype or index with a Keenan quarter (5.25, 6.75) written as ``5+``/``7-``:
+    their grammar reads a decimal point after one digit as the Keenan comma (R4)."""
+    if isinstance(v, float) and math.isfinite(v):
+        frac = round((v - math.floor(v)) * 4) % 4
+        if abs(v * 4 - round(v * 4)) < 1e-9 and frac in (1, 3):
+            return f"{math.floor(v):d}+" if frac == 1 else f"{math.floor(v) + 1:d}-"
+    return _fmt_index(v) if not isinstance(v, float) or v >= 0 else f"{v:g}"
+
+
+_WD_SUFFIXES = {"P", "H", "E", "V", "X", "d", "pec"}
+
+
+def _cno(t: SpType) -> str:
+    """The CNO-anomaly letter of an ON/OC/BN/BC type ('' otherwise); it renders inside the class."""
+    if t.tclass in ("O", "B") and not math.isnan(t.subtype):
+        for p in t.peculiarities:
+            if p in ("N", "C"):
+                return p
+    return ""
+
+
 def _render_index(k: str, v) -> str:
     if k == "abundance":
-        return f"/{_fmt_index(v)}"
-    if k == "ZrO" or (k == "C2" and False):
-        return f",{_fmt_index(v)}"
+        return f"/{_quarter_text(v)}"
+    if k == "ZrO":
+        return f",{_quarter_text(v)}"
     if k == "line_group":
         return f"-{v}"
     if k == "wr_type":
@@ -247,9 +304,9 @@ class _Scan:
 
 
 _R = re.compile
-_TEMP = _R(r"([OBAFGKMLTY])(N|C)?(?=\d)|([OBAFGKMLTY])")
+_TEMP = _R(r"([OBAFGKMLTY])((?<=[OB])N|(?<=[OB])C)?(?=\d)|([OBAFGKMLTY])")
 _SUB = _R(r"\d(?:\.\d{1,2})?")
-_QUARTER = _R(r"([+-])(?=[IV0 ]|/|$|[a-z(:?.])")
+_QUARTER = _R(r"([+-])(?=[IV0 ]|/|$|[a-z(:?.]|-[OBAFGKMLTY]?\d)")
 _TRANGE = _R(r"([-/])(?:([OBAFGKMLTY])(?![a-z]))?(\d(?:\.\d{1,2})?)?([+-](?![\d]))?")
 _UNC = _R(r"::|:|\?")
 _HYPER = _R(r"0-Ia|Ia-0|Ia0|Ia\+|0(?![.\d])")
@@ -275,7 +332,7 @@ _P_CODE = _R(
     r"shell|Shell|pec|Pec|var|neb|comp|nn|wk|wl|vw|vs|sh|ss|em|er|eq|kee|ke|\[e\]|f\*|f\+|fc|fp(?![a-z])|Tc|CN|CH"
     r"|e|n|p|s|m|w|k|v|q|f|z|h|S"
 )
-_P_TYPERANGE = _R(r"[-/](?=[OBAFGKM]\d)")
+_P_TYPERANGE = _R(r"[-/](?=[OBAFGKMLTY]\d)")
 _P_SLASHWR = _R(r"/(?=W[NCO])")
 
 _WD = _R(r"D([ABOQZCXFGK]+)(\d+(?:\.\d+)?|\.\d)?((?:P|H|E|V|X|d|pec)*)(::|:|\?)?")
@@ -285,7 +342,7 @@ _HARVARD_C = _R(r"([RN])(\d)?(?![a-zA-Z]{2,}\d)")
 _STYPE = _R(r"(SC|MS|S)(\d(?:\.\d)?)([+-])?(?:([/,])(\d+(?:\.\d)?)([+-])?)?")
 _HOTSD = _R(r"sd(OB|O|B)(\d(?:\.\d)?)?(\([OBAFGKM]\))?(e)?")
 _AM = _R(r"k([OBAFGKM]\d(?:\.\d{1,2})?)")
-_AM_OLD = _R(r"([AF])m(?=[OBAFGKM]\d)")
+_AM_OLD = _R(r"([AF])m(?=[BAF]\d)")
 _AM_OLD2 = _R(r"([AF]\d(?:\.\d)?)m([AF]\d(?:\.\d)?)")
 _LUM_SHORT = _R(r"[-/](ab|b)(?![a-z])")
 _BARE_PEC_CLASS = _R(r"(Am|Ap|Bp|Fm|Fp|Gp)(?![A-Za-z0-9])")
@@ -295,6 +352,10 @@ _COMPONENT_START = _R(r" *(?:[OBAFGKMLTYWDCSNRQ?(]|sd|esd|usd|d[OBAFGKM]|g[OBAFG
 _CHEMICAL = set(_ELEMENTS.split("|"))
 
 
+#: largest value of the temperature index (Y9.75)
+_NUMERIC_MAX = 99.75
+
+
 def _type_numeric(letter: str, sub: str | None, quarter: str | None) -> tuple[float, float, float]:
     """(subtype, lo, hi) of one temperature type; a class without subtype spans the class."""
     base = TCLASS_BASE[letter]
@@ -302,7 +363,10 @@ def _type_numeric(letter: str, sub: str | None, quarter: str | None) -> tuple[fl
         return math.nan, float(base), float(base) + 9.5
     s = float(sub)
     q = 0.25 if quarter == "+" else -0.25 if quarter == "-" else 0.0
-    return s, base + s + q, base + s + q
+    # rounded so that the decimal rendering of the normal form reads back to the same float;
+    # kept on the O0-Y9.75 scale (an 'O0-' or 'Y9.9+' cannot leave it)
+    v = min(max(round(base + s + q, 6), 0.0), _NUMERIC_MAX)
+    return s, v, v
 
 
 class _Comp:
@@ -348,9 +412,12 @@ class _Comp:
         if len(names) == 1:
             name = names[0]
         else:
-            # full-type ranges 'F6Ib-G2Ib': merge the classes of both ends
-            uniq = list(dict.fromkeys(names))
-            name = uniq[0] if len(uniq) == 1 else normalise_lumclass(uniq[0].split("-")[0], uniq[-1].split("-")[-1])
+            # full-type ranges 'F6Ib-G2Ib', 'F2V/F3IV/V': the class range spans the brightest and the
+            # faintest class of both ends, so that the name and ``lum_range`` say the same
+            toks = [t for a, b in self.lum_tokens for t in (a, b) if t is not None and lum_one_range(t)]
+            bright = min(toks, key=lambda t: lum_one_range(t)[0])
+            faint = max(toks, key=lambda t: lum_one_range(t)[1])
+            name = normalise_lumclass(bright, faint)
         return name, (min(los), max(his))
 
     def freeze(self) -> SpType:
@@ -749,6 +816,7 @@ def _parse_harvard_carbon(sc: _Scan, c: _Comp) -> bool:
     if sc.match(_UNC):
         c.temp_unc = True
     c.notes.append(f"Harvard carbon class {m.group(1)}")
+    _read_lum(sc, c)
     _read_pecs(sc, c)
     return True
 
@@ -897,11 +965,30 @@ def _split_components(s: str) -> list[str]:
     return parts
 
 
+#: longest field read (characters, after runs of blanks are collapsed); real catalogue SpType
+#: fields are 12 (Hipparcos H76) to a few tens of characters
+MAX_LENGTH = 256
+#: longest field looked at before blanks are collapsed (fixed-width padding)
+MAX_RAW_LENGTH = 4 * MAX_LENGTH
+#: most components of a composite field ('A+B+C...'); real multiple systems have a handful
+MAX_COMPONENTS = 8
+
+
+def _too_long(text: str, what: str) -> SpType:
+    return SpType(raw=text, reason=f"too long: {what}; not read")
+
+
 def _parse_uncached(text: str) -> SpType:
+    if len(text) > MAX_RAW_LENGTH:
+        return _too_long(text, f"{len(text)} characters (at most {MAX_LENGTH} are read)")
     s = re.sub(r"\s+", " ", text).strip()
     if not s:
         return SpType(raw=text, reason="empty string")
+    if len(s) > MAX_LENGTH:
+        return _too_long(text, f"{len(s)} characters (at most {MAX_LENGTH} are read)")
     pieces = _split_components(s)
+    if len(pieces) > MAX_COMPONENTS:
+        return _too_long(text, f"{len(pieces)} components (at most {MAX_COMPONENTS} are read)")
     comps = [_parse_component(p) for p in pieces]
     primary = comps[0]
     if not primary.ok:
@@ -958,6 +1045,8 @@ def parse(text) -> SpType:
         if isinstance(text, float) and math.isnan(text):
             return SpType(raw="", reason="no spectral type (missing value)")
         return SpType(raw=repr(text), reason=f"not a string: {type(text).__name__}")
+    if len(text) > MAX_RAW_LENGTH:  # before hashing: cheap for a 10^6-character field
+        return _too_long(text, f"{len(text)} characters (at most {MAX_LENGTH} are read)")
     hit = _CACHE.get(text)
     if hit is not None:
         return hit

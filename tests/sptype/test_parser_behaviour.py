@@ -89,6 +89,39 @@ def test_normalised_is_our_canonical_form():
         assert (a.tclass, a.t_range, a.lumclass, a.lum_uncertain) == (b.tclass, b.t_range, b.lumclass, b.lum_uncertain)
 
 
+@pytest.mark.parametrize(
+    "text,norm,t_range",
+    [
+        # written order kept: the class read first stays the class (tclass) of the reading
+        ("K8/G", "K8-G0", (40.0, 58.0)),
+        ("Y4/K5III", "Y4-K5 III", (55.0, 94.0)),
+        # a bare class spans its whole class (docs/sptype.md): G/K and G-K are G0-K9.5
+        ("G/K", "G-K", (40.0, 59.5)),
+        ("G-K", "G-K", (40.0, 59.5)),
+        ("G8/K", "G8-K", (48.0, 59.5)),
+        ("A/BV5", "A-B0 V", (10.0, 29.5)),
+        ("B8/B", "B8-B", (10.0, 19.5)),
+        # Keenan quarters in a range: '/' after the quarter mark, quarter ends as decimals
+        ("B9+/B95.V", "B9+/B9", (19.0, 19.25)),
+        ("A0-/A1V", "A0-/A1 V", (19.75, 21.0)),
+        ("K0+-K1 III", "K0+/K1 III", (50.25, 51.0)),
+        ("B5/B1/B9", "B5-B1/B9", (11.0, 19.0)),
+        # full-type variable ranges: the class range covers both ends
+        ("F2V/F3IV/V", "F2-F3 IV-V", (32.0, 33.0)),
+        ("ON8V", "ON8 V", (8.0, 8.0)),
+    ],
+)
+def test_normal_form_of_ranges_reads_back(text, norm, t_range):
+    # our encoding (docs/sptype.md): G0 = 40, K0 = 50, a quarter is 0.25 of a subtype
+    p = parse(text)
+    assert p.normalised == norm
+    assert p.t_range == t_range
+    q = parse(norm)
+    assert q.normalised == norm
+    assert (q.tclass, q.t_range, q.numeric, q.lumclass, q.lum_range, q.kind) == (
+        p.tclass, p.t_range, p.numeric, p.lumclass, p.lum_range, p.kind)
+
+
 def test_parse_many_keeps_order_and_handles_masks():
     from astropy.table import MaskedColumn
 
