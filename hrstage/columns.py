@@ -49,6 +49,7 @@ _COLUMNS = [
     OutputColumn("sptype_verdict", "U", None, "Consistency of the MK type with the HR position", "meta.code.qual"),
     OutputColumn("sptype_suggested", "U", None, "Luminosity class the HR position suggests", "src.spType"),
     OutputColumn("sptype_nsigma", "f8", None, "Disagreement in units of the calibration scatter", "stat.value"),
+    OutputColumn("sptype_reason", "U", None, "Basis of the MK-type verdict (calibration or stage check, expected vs HR stage)", "meta.note"),
 ]
 
 COLUMNS = {c.name: c for c in _COLUMNS}

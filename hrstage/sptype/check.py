@@ -64,7 +64,35 @@ VERDICTS = (
     "not_checkable:no_calibration",
     "not_checkable:no_lumclass",
     "not_checkable:outside_calibration",
+    "stage_conflict",
+    "not_checkable:stage_undecided",
 )
+
+#: stage order used to judge how far an HR stage is from the stage a class implies
+_STAGE_STEP = {"subdwarf": 0, "main_sequence": 1, "subgiant": 2, "giant": 3, "bright_giant": 4, "supergiant": 5}
+
+#: stage check of the kinds with no MK calibration: (expected stages, excluded stages); an HR
+#: stage in neither set leaves the type not checkable ("stage_undecided"). Our choices, from the
+#: usual places of these families on the HR diagram (common practice): WR stars are evolved massive
+#: stars (but H-rich WNh stars still burn hydrogen, and hot WR stars lie left of the ZAMS, outside
+#: the stage map), carbon and S stars are AGB/giant-branch stars (dwarf carbon stars excepted).
+_STAGE_RULES = {
+    "white_dwarf": ({"white_dwarf"}, {"main_sequence", "subgiant", "giant", "bright_giant", "supergiant",
+                                      "subdwarf"}),
+    "hot_subdwarf": ({"hot_subdwarf"}, {"main_sequence", "subgiant", "giant", "bright_giant", "supergiant",
+                                        "white_dwarf", "subdwarf"}),
+    "cool_subdwarf": ({"subdwarf", "main_sequence"}, {"giant", "bright_giant", "supergiant", "white_dwarf",
+                                                      "hot_subdwarf"}),
+    "wolf_rayet": ({"supergiant", "bright_giant"}, {"white_dwarf", "subdwarf", "hot_subdwarf", "subgiant",
+                                                    "main_sequence (log L < 4.5)"}),
+    "carbon": ({"giant", "bright_giant", "supergiant"}, {"main_sequence", "white_dwarf", "subdwarf",
+                                                         "hot_subdwarf"}),
+    "s_type": ({"giant", "bright_giant", "supergiant"}, {"main_sequence", "white_dwarf", "subdwarf",
+                                                         "hot_subdwarf"}),
+}
+_WR_MIN_LOGL = 4.5
+_STAGE_FAMILY_TEXT = {"white_dwarf": "white dwarf", "hot_subdwarf": "hot subdwarf", "cool_subdwarf": "cool subdwarf",
+                      "wolf_rayet": "Wolf-Rayet star", "carbon": "carbon star", "s_type": "S star"}
 
 _NC = len(CHECK_CLASSES)
 _UNCERTAIN_FACTOR = 1.5
@@ -90,6 +118,10 @@ class TypeCheck:
     flags : ndarray of int64
         ``SPTYPE_CONFLICT`` / ``SPTYPE_UNPARSED`` bits of :mod:`hrstage.flags`.
     threshold : float
+    reason : ndarray of str
+        Readable basis of the verdict (which check, expected vs HR-position stage).
+    hr_stage : ndarray of str
+        Stage of the HR position on the stage map (only where the stage check was made, else '').
     """
 
     sptypes: np.ndarray
@@ -106,6 +138,8 @@ class TypeCheck:
     flags: np.ndarray
     threshold: float = 3.0
     notes: dict = field(default_factory=dict)
+    reason: np.ndarray | None = None
+    hr_stage: np.ndarray | None = None
 
     def __len__(self) -> int:
         return len(self.verdict)
@@ -124,6 +158,7 @@ class TypeCheck:
             "sptype_verdict": self.verdict.astype(str),
             "sptype_suggested": self.suggested.astype(str),
             "sptype_nsigma": self.nsigma.astype(float),
+            "sptype_reason": (self.reason if self.reason is not None else np.full(len(self), "")).astype(str),
         }
         assert tuple(cols) == SPTYPE_COLUMNS
         return cols
@@ -154,6 +189,7 @@ def _type_table(types: list[SpType]) -> dict:
         "lumclass": np.empty(n, dtype=object),
         "parsed": np.empty(n, dtype=object),
         "stage": np.empty(n, dtype=object),
+        "family": np.full(n, "", dtype=object),
     }
     nums = np.array([CLASS_NUMBER[c] for c in CHECK_CLASSES])
     for j, p in enumerate(types):
@@ -167,6 +203,12 @@ def _type_table(types: list[SpType]) -> dict:
                 out["unparsed"][j] = True
             continue
         out["calibrated"][j] = p.kind in _KIND_CODE and np.isfinite(p.numeric)
+        if p.kind in _STAGE_RULES:
+            out["family"][j] = p.kind
+        elif p.lumclass in ("sdO", "sdB", "sdOB") or (np.isfinite(p.lum_range[0]) and p.lum_range[0] >= 7.75):
+            out["family"][j] = "hot_subdwarf"
+        elif p.lumclass in ("VI", "sd") or (np.isfinite(p.lum_range[0]) and p.lum_range[0] >= 6.75):
+            out["family"][j] = "cool_subdwarf"
         out["num_lo"][j], out["num_hi"][j] = p.t_range
         out["t_unc"][j] = p.temp_uncertain
         out["l_unc"][j] = p.lum_uncertain
@@ -235,7 +277,7 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
     el = np.abs(_as_float(logl_err, n, "logl_err"))
     et = np.where(np.isfinite(et), et, 0.0)
     el = np.where(np.isfinite(el), el, 0.0)
-    del feh  # documented: not used by the shipped calibration
+    # feh is not used by the shipped MK calibration; it selects the stage map of the stage check
 
     sp = np.asarray(sptypes, dtype=object) if not isinstance(sptypes, np.ndarray) else sptypes
     if len(sp) != n:
@@ -325,6 +367,11 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
     verdict[tt["unparsed"][inverse]] = "not_checkable:unparsed"
     verdict[tt["missing"][inverse]] = "not_checkable:no_type"
 
+    reason = np.where(calibrated & hr_ok & np.char.startswith(verdict.astype(str), "not_checkable") == False,  # noqa: E712
+                      "MK calibration: Teff of the type and L of the class sequence at the measured Teff", "")
+    reason = reason.astype(object)
+    hr_stage = _stage_check(verdict, reason, tt, inverse, logt, logl, et, el, feh, hr_ok)
+
     checked = calibrated & hr_ok
     nsigma = np.where(checked, np.fmax(nt, nl), np.nan)
     nsigma_t = np.where(checked, nt, np.nan)
@@ -353,7 +400,95 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
         expected_logl=expected_logl,
         flags=fl,
         threshold=float(threshold),
+        reason=reason.astype(str),
+        hr_stage=hr_stage.astype(str),
     )
+
+
+def _hr_stages(logt, logl, feh, idx) -> np.ndarray:
+    """Stage names of the HR positions ``idx`` on the stage map (classifier point labels)."""
+    from ..classifier import classify_hr
+    from ..stages import STAGES
+
+    if feh is None:
+        f = None
+    else:
+        fa = np.asarray(getattr(feh, "value", feh), dtype=float)
+        f = float(fa) if fa.ndim == 0 else fa[idx]
+    res = classify_hr(logt[idx], logl[idx], feh=f, n_draws=0)
+    return np.asarray(STAGES, dtype=object)[np.asarray(res.code, dtype=int)]
+
+
+def _stage_check(verdict, reason, tt, inverse, logt, logl, et, el, feh, hr_ok) -> np.ndarray:
+    """Stage check (in place on ``verdict``/``reason``); returns the HR stage ('' where not made).
+
+    * families without an MK calibration (white dwarfs, hot subdwarfs, WR, carbon, S) and cool
+      subdwarfs (VI, sd/esd/usd): expected stage -> ``consistent``, excluded stage ->
+      ``stage_conflict``, any other stage -> ``not_checkable:stage_undecided`` (a cool subdwarf
+      keeps its calibration verdict unless its stage is excluded);
+    * ordinary MK types whose class sequence does not reach the star's Teff
+      (``outside_calibration``): the stage the class implies is compared with the HR stage;
+      two or more steps apart on subdwarf < main sequence < subgiant < giant < bright giant <
+      supergiant, or a white-dwarf / hot-subdwarf position, is a ``stage_conflict``; the same
+      stage makes the type ``consistent``; one step apart stays not checkable.
+    """
+    n = len(verdict)
+    hr_stage = np.full(n, "", dtype=object)
+    family = tt["family"][inverse]
+    v = verdict.astype(str)
+    fam_need = hr_ok & (family != "") & ~np.char.endswith(v, "conflict") & (v != "not_checkable:unparsed") & (
+        v != "not_checkable:no_type")
+    mk_need = hr_ok & (family == "") & (v == "not_checkable:outside_calibration")
+    need = np.flatnonzero(fam_need | mk_need)
+    if not need.size:
+        return hr_stage
+    hr_stage[need] = _hr_stages(logt, logl, feh, need)
+    lumclass = tt["lumclass"][inverse]
+    # decisions per distinct (family or class, HR stage) pair: a handful of combinations
+    st_key = hr_stage[need].astype(str)
+    # Population I WR stars have log L >~ 4.9 (Crowther 2007, ARA&A 45, 177; from memory): a WR type
+    # on a faint main-sequence position is excluded, a bright one (WNh) is not
+    faint_wr = (family[need] == "wolf_rayet") & (st_key == "main_sequence") & (logl[need] < _WR_MIN_LOGL)
+    st_key = np.where(faint_wr, "main_sequence (log L < 4.5)", st_key)
+    combo = np.char.add(np.char.add(family[need].astype(str), "|"),
+                        np.char.add(np.char.add(lumclass[need].astype(str), "|"), st_key))
+    uniq, inv = np.unique(combo, return_inverse=True)
+    dec_v = np.empty(len(uniq), dtype=object)
+    dec_r = np.empty(len(uniq), dtype=object)
+    for j, key in enumerate(uniq):  # loop over distinct combinations only
+        fam, lc, st = key.split("|")
+        dec_v[j], dec_r[j] = _stage_decision(fam, lc, st)
+    new_v, new_r = dec_v[inv.ravel()], dec_r[inv.ravel()]
+    old_v = verdict[need]
+    keep_cal = (family[need] == "cool_subdwarf") & (new_v != "stage_conflict") & ~np.char.startswith(
+        old_v.astype(str), "not_checkable")
+    verdict[need] = np.where(keep_cal, old_v, new_v)
+    reason[need] = np.where(keep_cal, np.char.add(np.char.add(reason[need].astype(str), "; "),
+                                                  new_r.astype(str)), new_r)
+    return hr_stage
+
+
+def _stage_decision(family: str, lumclass: str, stage: str) -> tuple[str, str]:
+    """Verdict and reason of the stage check for one (family, class, HR stage) combination."""
+    from .lumclass import expected_stages
+
+    if family:
+        expected, excluded = _STAGE_RULES[family]
+        what = f"a {_STAGE_FAMILY_TEXT[family]} is expected in the {'/'.join(sorted(expected))} region"
+        if stage in expected:
+            return "consistent", f"stage check: {what}; the HR position is {stage}"
+        if stage in excluded:
+            return "stage_conflict", f"stage conflict: {what}; the HR position is {stage}"
+        return "not_checkable:stage_undecided", f"stage check undecided: {what}; the HR position is {stage}"
+    exp = expected_stages(lumclass)
+    what = f"class {lumclass} implies {'/'.join(exp)}"
+    if stage in exp:
+        return "consistent", f"stage check (no class sequence at this Teff): {what}; the HR position is {stage}"
+    steps = [abs(_STAGE_STEP[e] - _STAGE_STEP[stage]) for e in exp if e in _STAGE_STEP and stage in _STAGE_STEP]
+    if stage in ("white_dwarf", "hot_subdwarf") or (steps and min(steps) >= 2):
+        return "stage_conflict", f"stage conflict (no class sequence at this Teff): {what}; the HR position is {stage}"
+    return "not_checkable:outside_calibration", (f"no class sequence at this Teff; stage check undecided: {what}; "
+                                                 f"the HR position is {stage}")
 
 
 def class_separation(logt, class_a: str, class_b: str, numeric=None) -> np.ndarray:

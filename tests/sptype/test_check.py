@@ -48,8 +48,23 @@ def _run(types, positions, **kw):
         ("M2Iab-Ib", M2IA, "consistent", "Ia"),              # supergiant sub-classes tested together
         ("M2V", M2IA, "lumclass_conflict", "Ia"),
         ("K-M", (np.log10(4000.0), 2.2), "not_checkable:no_lumclass", "III"),  # R13: wide range
-        ("DA3.5", (np.log10(14400.0), -2.5), "not_checkable:no_calibration", ""),
-        ("WN7", M2IA, "not_checkable:no_calibration", ""),
+        # stage check (docs/sptype.md): DA3.5 = 50400/3.5 = 14400 K (Sion et al. 1983 index) at a
+        # 0.6 Msun WD luminosity (log L -2.5, from memory); the same type on the Sun's position
+        ("DA3.5", (np.log10(14400.0), -2.5), "consistent", ""),
+        ("DA3.5", SUN, "stage_conflict", ""),
+        # sdB near 28 kK, log L 1.3 (typical EHB star, from memory); on a G dwarf position
+        ("sdB", (np.log10(28000.0), 1.3), "consistent", ""),
+        ("sdB5", G2V, "stage_conflict", ""),
+        # carbon star on the AGB (3000 K, log L 3.8, from memory) and on a K dwarf position
+        ("C5,4", (np.log10(3000.0), 3.8), "consistent", ""),
+        ("C5,4", (np.log10(4500.0), -0.6), "stage_conflict", ""),
+        ("S4/1III", (np.log10(3300.0), 3.4), "consistent", ""),
+        # a hot WR star lies left of the ZAMS, outside every stage region: undecided, not a pass
+        ("WN7", (np.log10(60000.0), 5.6), "not_checkable:stage_undecided", ""),
+        ("WC8", SUN, "stage_conflict", ""),
+        # cool subdwarf: calibration passes (fainter than V), but a white-dwarf position is excluded
+        ("sdK3", (np.log10(4500.0), -0.9), "consistent", ""),
+        ("sdK3", (np.log10(4500.0), -3.6), "stage_conflict", ""),
         ("xyz", G2V, "not_checkable:unparsed", ""),
         ("", G2V, "not_checkable:no_type", ""),
         ("G2V", (np.nan, 0.0), "not_checkable:no_hr_position", ""),
@@ -64,8 +79,10 @@ def test_verdicts(sptype, pos, verdict, suggested):
     conflict = verdict.endswith("conflict")
     assert bool(chk.flags[0] & flags.SPTYPE_CONFLICT) == conflict
     assert bool(chk.flags[0] & flags.SPTYPE_UNPARSED) == (verdict == "not_checkable:unparsed")
-    if conflict:
+    if conflict and verdict != "stage_conflict":
         assert chk.nsigma[0] > chk.threshold
+    if verdict.startswith("stage") or "stage check" in chk.reason[0]:
+        assert chk.hr_stage[0] and chk.hr_stage[0] in chk.reason[0]  # expected vs HR stage named
 
 
 def test_binary_allowance_and_errors():
