@@ -25,7 +25,7 @@ from ..stages import (
     UNCLASSIFIED,
 )
 from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, stage_map
-from ..stagemap._map import _interp_monotone
+from ._text import format_rows, join_notes
 
 N_STAGES = len(STAGES)
 
@@ -99,6 +99,28 @@ def _as_array(x, name, shape=None):
     return a
 
 
+#: mass-method names: the stage methods (by code), then the special ones
+_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied")
+_M_HB, _M_NONE, _M_SUPPLIED = len(MASS_METHODS), len(MASS_METHODS) + 1, len(MASS_METHODS) + 2
+#: base-reason keys beyond the stage codes
+_B_HB, _B_NOPOS, _B_OFFMAP = N_STAGES, N_STAGES + 1, N_STAGES + 2
+
+
+def _base_table(maps) -> np.ndarray:
+    """Object table (n_maps, N_STAGES + 3) of the base reason of every stage / special key per map."""
+    tab = np.empty((len(maps), N_STAGES + 3), dtype=object)
+    for g, sm in enumerate(maps):
+        p = sm.params
+        for k, s in enumerate(STAGES):
+            tab[g, k] = LABELS[s] + ": " + _BASE_REASON[s].format(
+                age=p.max_age_myr / 1e3, bgw=p.bright_giant_width, msg=sm.m_sg, wmin=p.wd_mass_min,
+                wmax=p.wd_mass_max, hlo=p.hot_subdwarf_teff[0], hhi=p.hot_subdwarf_teff[1])
+        tab[g, _B_HB] = _HB_REASON.format(dep=p.hb_depth, hgt=p.hb_height)
+        tab[g, _B_NOPOS] = "Unclassified: no position"
+        tab[g, _B_OFFMAP] = "Unclassified: outside the map (log Teff 3.30-5.30, log L -6..7)"
+    return tab
+
+
 @dataclass
 class ClassificationResult:
     """Per-star outcome of :func:`classify_hr` (all arrays of length N, in input order).
@@ -109,10 +131,13 @@ class ClassificationResult:
     code : ndarray of int8 (``hrstage.stages`` codes)
     proba : ndarray (N, len(STAGES)), probability per stage (one-hot without Monte Carlo)
     stage_prob : ndarray, probability of the assigned stage
-    mass, mass_err : ndarray (Msun); mass_method : ndarray of str
+    mass, mass_err : ndarray (Msun); mass_method : ndarray of object (str)
     mass_ms_teff, mass_ms_lum : ndarray (Msun), ZAMS masses of the same Teff / the same L
     flags : ndarray of int64 (``hrstage.flags`` bits)
-    reason : ndarray of object (readable text with the numbers; built on first access)
+    reason, flag_text : ndarray of object (readable texts with the numbers; built on first access)
+
+    Every per-row value depends only on that row's inputs (and, for the probabilities, on the
+    seed and the number of draws): never on the other rows of the call.
     """
 
     logt: np.ndarray
@@ -130,8 +155,11 @@ class ClassificationResult:
     mass_ms_lum: np.ndarray
     flags: np.ndarray
     n_draws: int
-    _notes: dict = field(default_factory=dict, repr=False)
-    _base: np.ndarray | None = field(default=None, repr=False)
+    _notes: list = field(default_factory=list, repr=False)
+    _base_key: np.ndarray | None = field(default=None, repr=False)
+    _group: np.ndarray | None = field(default=None, repr=False)
+    _maps: list = field(default_factory=list, repr=False)
+    _teff: np.ndarray | None = field(default=None, repr=False)
     _reason: np.ndarray | None = field(default=None, repr=False)
     _flag_text: np.ndarray | None = field(default=None, repr=False)
 
@@ -140,72 +168,68 @@ class ClassificationResult:
 
     @property
     def stage(self) -> np.ndarray:
-        return np.asarray(STAGES, dtype=object)[self.code].astype(str)
+        return np.asarray(STAGES)[self.code]
 
     @property
     def stage_prob(self) -> np.ndarray:
-        return self.proba[np.arange(len(self.code)), self.code.astype(np.intp)]
+        return np.take_along_axis(self.proba, self.code.astype(np.intp)[:, None], axis=1)[:, 0]
 
-    def _build_text(self):
+    @property
+    def base_reason(self) -> np.ndarray:
+        """The stage region of each star in words (object array), without the flag reasons."""
         n = len(self.code)
-        ft = np.full(n, "", dtype=object)
-        for key in sorted(self._notes):
-            idx, texts = self._notes[key]
-            if callable(texts):
-                texts = texts(idx)
-            for i, t in zip(idx, texts):
-                ft[i] = t if not ft[i] else ft[i] + "; " + t
-        self._flag_text = ft
-        base = self._base if self._base is not None else np.full(n, "", dtype=object)
-        reason = base.copy()
-        has = ft != ""
-        reason[has] = base[has] + "; " + ft[has]
-        self._reason = reason
+        if self._base_key is None or not self._maps:
+            return np.full(n, "", dtype=object)
+        tab = _base_table(self._maps)
+        return tab.reshape(-1)[self._group.astype(np.intp) * tab.shape[1] + self._base_key]
 
     @property
     def flag_text(self) -> np.ndarray:
-        """Readable reasons behind the flags (empty where no flag is set)."""
+        """Readable reasons behind the flags (object array; "" where no flag is set)."""
         if self._flag_text is None:
-            self._build_text()
+            notes = [(idx, build() if callable(build) else build) for idx, build in self._notes]
+            self._flag_text = join_notes(len(self.code), notes)
         return self._flag_text
 
     @property
     def reason(self) -> np.ndarray:
-        """The stage's region and every flag reason, with the numbers."""
+        """The stage's region and every flag reason, with the numbers (object array)."""
         if self._reason is None:
-            self._build_text()
+            ft = self.flag_text
+            reason = self.base_reason.copy()
+            has = np.nonzero(ft != "")[0]
+            reason[has] = reason[has] + ("; " + ft[has])
+            self._reason = reason
         return self._reason
 
     def to_columns(self) -> dict:
-        """Columns named as ``hrstage.columns.CLASSIFY_COLUMNS`` (all but ``hr_source``)."""
-        out = {"stage": self.stage, "stage_prob": self.stage_prob}
+        """Columns named as ``hrstage.columns.CLASSIFY_COLUMNS`` (all but ``hr_source``).
+
+        Text columns (``stage``, ``mass_method``, ``flag_text``) are object arrays of Python
+        strings (shared between rows with the same text), not fixed-width arrays.
+        """
+        out = {"stage": np.asarray(STAGES, dtype=object)[self.code], "stage_prob": self.stage_prob}
         for k, s in enumerate(STAGES):
             out[f"prob_{s}"] = self.proba[:, k]
+        teff = self._teff if self._teff is not None else 10.0**self.logt
         out.update(
             {
                 "mass_est": self.mass,
                 "mass_err": self.mass_err,
-                "mass_method": self.mass_method.astype(str),
+                "mass_method": np.asarray(self.mass_method, dtype=object),
                 "mass_ms_teff": self.mass_ms_teff,
                 "mass_ms_lum": self.mass_ms_lum,
-                "teff_used": 10.0**self.logt,
+                "teff_used": teff,
                 "logl_used": self.logl,
                 "logt_err": self.logt_err,
                 "logl_err": self.logl_err,
                 "logt_logl_corr": self.corr,
                 "feh_used": self.feh_used,
-                "flags": self.flags.astype(np.int64),
-                "flag_text": self.flag_text.astype(str),
+                "flags": self.flags.astype(np.int64, copy=False),
+                "flag_text": self.flag_text,
             }
         )
         return out
-
-
-def _note(notes, key, idx, texts):
-    """Record reason texts for rows ``idx``: a list, or a callable ``texts(idx) -> list`` that is
-    called only when the texts are first needed (``reason`` / ``flag_text`` / ``to_columns``)."""
-    if len(idx):
-        notes[key] = (np.asarray(idx), texts if callable(texts) else list(texts))
 
 
 def _draws(n_draws: int, seed):
@@ -355,21 +379,52 @@ def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
 
 
 def _group_feh(feh, n):
-    """Metallicity per star -> (feh_used per star, groups {feh: index array}, no_feh mask, scalar?)."""
+    """Metallicity per star -> (feh_used per star, groups {feh: index array}, no_feh mask).
+
+    A scalar uses the exact map of that [Fe/H]. An array (one value per star) always uses, for
+    each star, the nearest point of :data:`FEH_GRID` after clipping into the fits' range -- the
+    choice depends on that star's value only, never on the other rows of the call.
+    """
     if feh is None:
         return np.zeros(n), {0.0: np.arange(n)}, np.ones(n, bool)
-    f = np.broadcast_to(np.asarray(feh, dtype=float), (n,)) if np.ndim(feh) else np.full(n, float(feh))
+    if np.ndim(feh) == 0:
+        f = float(feh)
+        if not np.isfinite(f):
+            return np.zeros(n), {0.0: np.arange(n)}, np.ones(n, bool)
+        return np.full(n, f), {f: np.arange(n)}, np.zeros(n, bool)
+    f = np.broadcast_to(np.asarray(feh, dtype=float).ravel(), (n,))
     missing = ~np.isfinite(f)
-    f = np.where(missing, 0.0, f)
-    u = np.unique(f)
-    if len(u) == 1:
-        return f.copy(), {float(u[0]): np.arange(n)}, missing
-    # per-star metallicities: nearest grid point (after clipping into the fits' range)
-    fc = np.clip(f, FEH_GRID[0], FEH_GRID[-1])
-    k = np.abs(fc[:, None] - FEH_GRID[None, :]).argmin(axis=1)
+    fc = np.clip(np.where(missing, 0.0, f), FEH_GRID[0], FEH_GRID[-1])
+    # nearest grid point: the midpoints between grid points split the range (ties go up)
+    mids = 0.5 * (FEH_GRID[1:] + FEH_GRID[:-1])
+    k = np.searchsorted(mids, fc, side="right")
     used = FEH_GRID[k]
-    groups = {float(FEH_GRID[j]): np.nonzero(k == j)[0] for j in np.unique(k)}
+    if n and (k == k[0]).all():
+        groups = {float(FEH_GRID[k[0]]): np.arange(n)}
+    else:
+        groups = {float(FEH_GRID[j]): np.nonzero(k == j)[0] for j in np.unique(k)}
     return used, groups, missing
+
+
+def _axis_coords(lk, t, l):
+    """Unclipped padded fractional cell coordinates (float32) of positions in a Lookup."""
+    x = (t * lk.inv_dt + lk.ax).astype(np.float32)
+    y = (l * lk.inv_dl + lk.ay).astype(np.float32)
+    return x, y
+
+
+def _gather(lk, x, y, dx=0.0, dy=0.0):
+    """Values of Lookup ``lk`` at padded coordinates ``(x + dx, y + dy)`` (NaN/out of range -> border)."""
+    xs = x + dx if np.ndim(dx) or dx else x.copy()
+    np.fmax(xs, 0, out=xs)
+    np.fmin(xs, np.float32(lk.xmax), out=xs)
+    ys = y + dy if np.ndim(dy) or dy else y.copy()
+    np.fmax(ys, 0, out=ys)
+    np.fmin(ys, np.float32(lk.ymax), out=ys)
+    i = ys.astype(np.int32)
+    i *= np.int32(lk.width)
+    i += xs.astype(np.int32)
+    return lk.flat.take(i)
 
 
 def classify_hr(
@@ -398,8 +453,11 @@ def classify_hr(
         Correlation coefficient of the log Teff and log L errors (-1..1), e.g. positive when L was
         derived from R and Teff.
     feh : float or array_like, optional
-        [Fe/H] (dex). None: solar with the NO_METALLICITY flag. A scalar (or one common value) uses
-        the exact map; differing values use the nearest point of :data:`FEH_GRID` (0.25 dex steps).
+        [Fe/H] (dex). None: solar with the NO_METALLICITY flag. A scalar uses the exact map of that
+        metallicity; an array (per star, even if all values are equal) uses for each star the
+        nearest point of :data:`FEH_GRID` (0.25 dex steps), so that a star's result never depends
+        on the other rows. NaN in an array: solar, flagged. Values outside the fits' range
+        (Z 1e-4..0.03) are clipped and flagged METALLICITY_CLIPPED.
     mass : array_like, optional
         Supplied mass (Msun): used as the mass estimate (method ``supplied``), checked against the
         position, used in the cool-but-massive test, and a post-main-sequence star with a supplied
@@ -432,13 +490,13 @@ def classify_hr(
     except ValueError:
         raise HrstageInputError("classify_hr: logt, logl and the error/mass arrays do not broadcast together") from None
     n = int(np.prod(shape)) if shape else 1
-    logt = np.broadcast_to(logt, shape).ravel().astype(float)
-    logl = np.broadcast_to(logl, shape).ravel().astype(float)
+    logt = np.ascontiguousarray(np.broadcast_to(logt, shape).ravel(), dtype=float)
+    logl = np.ascontiguousarray(np.broadcast_to(logl, shape).ravel(), dtype=float)
 
     def ext(a, fill):
         if a is None:
             return np.full(n, fill)
-        return np.broadcast_to(a, shape).ravel().astype(float)
+        return np.ascontiguousarray(np.broadcast_to(a, shape).ravel(), dtype=float)
 
     st = ext(extras[0], 0.0)
     sl = ext(extras[1], 0.0)
@@ -459,18 +517,25 @@ def classify_hr(
     if badc.any():
         i = int(np.argmax(badc))
         raise HrstageInputError(f"corr row {i}: {rho[i]:g} is outside -1..1")
-    st = np.where(np.isfinite(st), st, 0.0)
-    sl = np.where(np.isfinite(sl), sl, 0.0)
-    rho = np.where(np.isfinite(rho), rho, 0.0)
+    if extras[0] is not None:
+        st = np.where(np.isfinite(st), st, 0.0)
+    if extras[1] is not None:
+        sl = np.where(np.isfinite(sl), sl, 0.0)
+    if extras[2] is not None:
+        rho = np.where(np.isfinite(rho), rho, 0.0)
     n_draws = int(n_draws)
     if n_draws < 0:
         raise HrstageInputError(f"n_draws={n_draws}: expected >= 0")
     if np.ndim(feh) and np.size(feh) not in (1, n):
         raise HrstageInputError(f"feh: {np.size(feh)} values for {n} stars")
-    if np.ndim(feh) and np.size(feh) == 1:
-        feh = float(np.ravel(feh)[0])
     feh_used, groups, no_feh = _group_feh(feh, n)
+    # huge (but finite) inputs and errors are masked deliberately below: no overflow warnings
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+        return _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n_draws, seed,
+                         stage_kw, opts)
 
+
+def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n_draws, seed, stage_kw, opts):
     code = np.full(n, UNCLASSIFIED, dtype=np.int8)
     rawc = np.full(n, UNCLASSIFIED, dtype=np.int8)
     proba = np.zeros((n, N_STAGES))
@@ -479,187 +544,243 @@ def classify_hr(
     m_teff = np.full(n, np.nan)
     m_lum = np.full(n, np.nan)
     flags = np.zeros(n, dtype=np.int64)
-    notes: dict = {}
-    base = np.empty(n, dtype=object)
+    group = np.zeros(n, dtype=np.int16)
+    maps = []
     m_sg = np.full(n, np.nan)
+    tz_row = np.full(n, np.nan)
     near_to = np.full(n, -1, dtype=np.int8)
-    upper_gap = np.full(n, np.nan)
     z1 = z2 = None
     if n_draws > 0:
         z1, z2 = _draws(n_draws, seed)
     finite = np.isfinite(logt) & np.isfinite(logl)
     flags[no_feh] |= F.NO_METALLICITY
-    for fg, idx in groups.items():
+    has_err_all = (st > 0) | (sl > 0)
+    single = len(groups) == 1
+    for gi, (fg, idx) in enumerate(groups.items()):
         sm = stage_map(fg, **stage_kw)
-        if sm.z_clipped:
-            flags[idx] |= F.METALLICITY_CLIPPED | F.OUTSIDE_VALIDITY
-            feh_used[idx] = sm.feh_used
-        t, l = logt[idx], logl[idx]
+        maps.append(sm)
+        sel = slice(None) if single else idx
+        if not single:
+            group[idx] = gi
+        if sm.z_clipped:  # scalar [Fe/H] outside the fits (arrays are clipped onto the grid)
+            feh_used[sel] = sm.feh_used
+        t, l = logt[sel], logl[sel]
+        ts, ls, rs = st[sel], sl[sel], rho[sel]
         r = sm.locate_raw(t, l)
-        rawc[idx] = r
+        rawc[sel] = r
         c = (r & RAW_STAGE).astype(np.int8)
-        m_sg[idx] = sm.m_sg
+        m_sg[sel] = sm.m_sg
+        tz_row[sel] = 10 ** sm._logt_valid_min
         # supplied mass >= M_sg on a post-MS position -> supergiant
-        ms_ = msup[idx]
-        promote = np.isfinite(ms_) & (ms_ >= sm.m_sg) & np.isin(c, (SUBGIANT, GIANT, BRIGHT_GIANT))
-        c = np.where(promote, SUPERGIANT, c).astype(np.int8)
-        code[idx] = c
+        ms_ = msup[sel]
+        promote = (ms_ >= sm.m_sg) & ((c == SUBGIANT) | (c == GIANT) | (c == BRIGHT_GIANT))
         if promote.any():
-            pi = idx[promote]
-            _note(notes, "0promote", pi, [f"supplied mass {msup[i]:.3g} Msun >= supergiant mass {sm.m_sg:.2f} Msun: "
-                                           "post-main-sequence position labelled supergiant" for i in pi])
+            c = np.where(promote, SUPERGIANT, c).astype(np.int8)
+        code[sel] = c
+        has_err = has_err_all[sel]
+        e = None if has_err.all() else np.nonzero(has_err)[0]
         # probabilities
-        if n_draws > 0:
-            has_err = (st[idx] > 0) | (sl[idx] > 0)
-            p = np.zeros((len(idx), N_STAGES))
-            p[np.arange(len(idx)), c] = 1.0
-            if has_err.any():
-                e = np.nonzero(has_err)[0]
-                cnt = _mc_counts(sm, t[e], l[e], st[idx][e], sl[idx][e], rho[idx][e], z1, z2)
-                pe = cnt / float(n_draws)
-                pr = promote[e]
-                if pr.any():
-                    moved = pe[pr][:, [SUBGIANT, GIANT, BRIGHT_GIANT]].sum(axis=1)
-                    pe[np.ix_(np.nonzero(pr)[0], [SUBGIANT, GIANT, BRIGHT_GIANT])] = 0.0
-                    pe[np.nonzero(pr)[0], SUPERGIANT] += moved
+        if n_draws > 0 and has_err.any():
+            p = np.zeros((len(c), N_STAGES))
+            p[np.arange(len(c)), c] = 1.0
+            te, le, se, de, re_ = (t, l, ts, ls, rs) if e is None else (t[e], l[e], ts[e], ls[e], rs[e])
+            cnt = _mc_counts(sm, te, le, se, de, re_, z1, z2)
+            pe = cnt / float(n_draws)
+            pr = promote if e is None else promote[e]
+            if pr.any():
+                cols = [SUBGIANT, GIANT, BRIGHT_GIANT]
+                ip = np.nonzero(pr)[0]
+                moved = pe[np.ix_(ip, cols)].sum(axis=1)
+                pe[np.ix_(ip, cols)] = 0.0
+                pe[ip, SUPERGIANT] += moved
+            if e is None:
+                p = pe
+            else:
                 p[e] = pe
-            proba[idx] = p
+            proba[sel] = p
         else:
-            proba[idx, c] = 1.0
+            proba[np.arange(n) if single else idx, c] = 1.0
         # masses
-        mp = sm.mass_at(t, l)
-        mass_est[idx] = mp
-        m_teff[idx] = sm.ms_mass_from_logt(t)
-        m_lum[idx] = sm.ms_mass_from_logl(l)
+        mlk = sm.mass_lookup
+        mx, my = _axis_coords(mlk, t, l)
+        mp = _gather(mlk, mx, my).astype(float)
+        mass_est[sel] = mp
+        m_teff[sel] = sm.ms_mass_from_logt(t)
+        m_lum[sel] = sm.ms_mass_from_logl(l)
         # propagated mass error: the mass surface at +-1 sigma (first order, with correlation)
-        has_err = (st[idx] > 0) | (sl[idx] > 0)
         if has_err.any():
-            e = np.nonzero(has_err)[0]
-            te, le, se, de, re_ = t[e], l[e], st[idx][e], sl[idx][e], rho[idx][e]
-            with np.errstate(invalid="ignore"):
-                dmt = 0.5 * (sm.mass_at(te + se, le) - sm.mass_at(te - se, le))
-                dml = 0.5 * (sm.mass_at(te, le + de) - sm.mass_at(te, le - de))
-                dmt = np.where(np.isfinite(dmt), dmt, 0.0)
-                dml = np.where(np.isfinite(dml), dml, 0.0)
-                var = dmt**2 + dml**2 + 2 * re_ * dmt * dml
-                mass_err[idx[e]] = np.where(np.isfinite(mp[e]), np.sqrt(np.maximum(var, 0.0)), np.nan)
+            if e is None:
+                xe, ye, se, de, re_, mpe = mx, my, ts, ls, rs, mp
+            else:
+                xe, ye, se, de, re_, mpe = mx[e], my[e], ts[e], ls[e], rs[e], mp[e]
+            sx = (se * mlk.inv_dt).astype(np.float32)
+            sy = (de * mlk.inv_dl).astype(np.float32)
+            dmt = 0.5 * (_gather(mlk, xe, ye, sx).astype(float) - _gather(mlk, xe, ye, -sx))
+            dml = 0.5 * (_gather(mlk, xe, ye, 0.0, sy).astype(float) - _gather(mlk, xe, ye, 0.0, -sy))
+            dmt[~np.isfinite(dmt)] = 0.0
+            dml[~np.isfinite(dml)] = 0.0
+            var = dmt * dmt + dml * dml + 2 * re_ * dmt * dml
+            me = np.sqrt(np.maximum(var, 0.0))
+            me[~np.isfinite(mpe)] = np.nan
+            if e is None:
+                mass_err[sel] = me
+            else:
+                mass_err[idx[e] if not single else e] = me
         # boundary proximity: the label at +-1 sigma (or the default probes) along each axis
-        pt = np.where(st[idx] > 0, st[idx], opts["near_logt"])
-        pl = np.where(sl[idx] > 0, sl[idx], opts["near_logl"])
-        nb = np.full(len(idx), -1, dtype=np.int8)
-        for dt_, dl_ in ((pt, 0), (-pt, 0), (0, pl), (0, -pl)):
-            cc = sm.locate(t + dt_, l + dl_)
-            nb = np.where((nb < 0) & (cc != code[idx]), cc, nb)
-        near_to[idx] = nb
-        # reasons (base text per stage)
-        txt = {
-            s: _BASE_REASON[s].format(
-                age=sm.params.max_age_myr / 1e3, bgw=sm.params.bright_giant_width, msg=sm.m_sg,
-                wmin=sm.params.wd_mass_min, wmax=sm.params.wd_mass_max,
-                hlo=sm.params.hot_subdwarf_teff[0], hhi=sm.params.hot_subdwarf_teff[1],
-            )
-            for s in STAGES
-        }
-        base[idx] = np.array([LABELS[s] + ": " + txt[s] for s in STAGES], dtype=object)[c]
-        hbm = ((r & RAW_HB) != 0) & (c == GIANT)
-        if hbm.any():
-            base[idx[hbm]] = _HB_REASON.format(dep=sm.params.hb_depth, hgt=sm.params.hb_height)
-        # binary band: height above the MS upper edge
-        b = (r & RAW_BINARY) != 0
-        if b.any():
-            ut, ul = sm._ms_top
-            upper_gap[idx[b]] = l[b] - _interp_monotone(t[b], ut, ul)
-        ex = (r & RAW_EXTRAPOLATED) != 0
-        if ex.any():
-            flags[idx[ex]] |= F.OUTSIDE_VALIDITY
-            tz = 10 ** sm._logt_valid_min
-            _note(notes, "3extrap", idx[ex], [f"Teff {10**logt[i]:.0f} K is cooler than the 0.1 Msun ZAMS ({tz:.0f} K): "
-                                              "main sequence extrapolated beyond the fits" for i in idx[ex]])
-        if sm.z_clipped:
-            _note(notes, "3zclip_%g" % fg, idx, [f"[Fe/H]={fg:+.2f} outside the fits (Z 1e-4..0.03): boundaries of "
-                                                  f"[Fe/H]={sm.feh_used:+.2f} used"] * len(idx))
+        lk = sm.codes
+        x, y = _axis_coords(lk, t, l)
+        pt = (np.where(ts > 0, ts, opts["near_logt"]) * lk.inv_dt).astype(np.float32)
+        pl = (np.where(ls > 0, ls, opts["near_logl"]) * lk.inv_dl).astype(np.float32)
+        cref = code[sel]
+        nb = np.full(len(c), -1, dtype=np.int8)
+        for dx, dy in ((pt, 0.0), (-pt, 0.0), (0.0, pl), (0.0, -pl)):
+            cc = _gather(lk, x, y, dx, dy)
+            hit = (nb < 0) & (cc != cref)
+            nb[hit] = cc[hit]
+        near_to[sel] = nb
+
+    # per-row metallicity outside the fits (array input): clipped onto the grid, flagged
+    if feh is not None and np.ndim(feh):
+        fa = np.broadcast_to(np.asarray(feh, dtype=float).ravel(), (n,))
+        zc = np.isfinite(fa) & ((fa < FEH_GRID[0]) | (fa > FEH_GRID[-1]))
+        feh_given = fa
+    else:
+        zc = np.zeros(n, bool)
+        if maps and maps[0].z_clipped:
+            zc[:] = True
+        feh_given = np.full(n, float(feh) if feh is not None and np.isfinite(float(feh)) else 0.0)
+    flags[zc] |= F.METALLICITY_CLIPPED | F.OUTSIDE_VALIDITY
+
+    notes = []
+
+    def note(key, mask_or_idx, build):
+        idx = np.nonzero(mask_or_idx)[0] if mask_or_idx.dtype == bool else mask_or_idx
+        if len(idx):
+            notes.append((key, idx, build if isinstance(build, str) else (lambda: build(idx))))
+
+    post = (rawc & RAW_STAGE)
+    promoted = (code == SUPERGIANT) & (post != SUPERGIANT)
+    note("0promote", promoted, lambda ii: format_rows(
+        lambda m, g: f"supplied mass {m:.3g} Msun >= supergiant mass {g:.2f} Msun: post-main-sequence position "
+                     "labelled supergiant", len(ii), (msup[ii], ".3g"), (m_sg[ii], ".2f")))
 
     # mass methods
-    method = np.asarray(MASS_METHODS, dtype=object)[code]
-    method = np.where(((rawc & RAW_HB) != 0) & (code == GIANT), HB_MASS_METHOD, method)
-    method = np.where(np.isfinite(mass_est), method, "none")
+    hb = ((rawc & RAW_HB) != 0) & (code == GIANT)
+    mcode = code.astype(np.int8)
+    mcode[hb] = _M_HB
+    mcode[~np.isfinite(mass_est)] = _M_NONE
     sup = np.isfinite(msup)
     if sup.any():
-        pos = mass_est[sup]
-        ratio = np.maximum(msup[sup] / pos, pos / msup[sup])
-        off = np.isfinite(ratio) & (ratio > opts["mass_check_ratio"])
         si = np.nonzero(sup)[0]
-        _note(notes, "5mass", si[off], [f"supplied mass {msup[i]:.3g} Msun vs {mass_est[i]:.3g} Msun from the position "
-                                        f"({MASS_METHODS[code[i]]})" for i in si[off]])
-        mass_est[sup] = msup[sup]
-        mass_err[sup] = np.nan
-        method[sup] = "supplied"
+        pos = mass_est[si]
+        ratio = np.maximum(msup[si] / pos, pos / msup[si])
+        off = si[np.isfinite(ratio) & (ratio > opts["mass_check_ratio"])]
+        mest_off = mass_est[off]
+        note("5mass", off, lambda ii: format_rows(
+            lambda a, b, k: f"supplied mass {a:.3g} Msun vs {b:.3g} Msun from the position ({MASS_METHODS[k]})",
+            len(ii), (msup[ii], ".3g"), (mest_off, ".3g"), (code[ii], None)))
+        mass_est[si] = msup[si]
+        mass_err[si] = np.nan
+        mcode[si] = _M_SUPPLIED
     nomass = ~sup & ~np.isfinite(mass_est) & finite
-    _note(notes, "6nomass", np.nonzero(nomass)[0], ["no mass relation applies here (mass NaN)"] * int(nomass.sum()))
 
     # cool but massive
     teff = 10.0**logt
-    with np.errstate(invalid="ignore", divide="ignore"):
-        lum_mass = np.where(np.isfinite(m_lum), m_lum, np.nan)
-        too_bright = np.isfinite(logl) & ~np.isfinite(m_lum) & (logl > 5.0)
-        cand = np.fmax(lum_mass, np.where(sup, msup, np.nan))
-        ratio = cand / m_teff
-        cbm = finite & (teff < opts["cool_teff"]) & np.isfinite(m_teff) & (
-            (np.isfinite(ratio) & (ratio > opts["cool_massive_ratio"])) | too_bright
-        )
+    too_bright = np.isfinite(logl) & ~np.isfinite(m_lum) & (logl > 5.0)
+    cand = np.fmax(m_lum, msup)
+    ratio = cand / m_teff
+    cbm = finite & (teff < opts["cool_teff"]) & np.isfinite(m_teff) & (
+        (np.isfinite(ratio) & (ratio > opts["cool_massive_ratio"])) | too_bright
+    )
     flags[cbm] |= F.COOL_BUT_MASSIVE
-    ci = np.nonzero(cbm)[0]
+    cool = opts["cool_teff"]
 
-    def cbm_text(i):
-        ml = f"{m_lum[i]:.2g} Msun" if np.isfinite(m_lum[i]) else "> 100 Msun"
-        s = f"cool but massive: M_MS(Teff)={m_teff[i]:.2g} Msun vs M_MS(L)={ml}"
-        if sup[i]:
-            s += f", supplied {msup[i]:.3g} Msun"
-        return s + f" (Teff {teff[i]:.0f} K < {opts['cool_teff']:.0f} K): likely evolved"
+    def cbm_text(ii):
+        head = format_rows(
+            lambda mt, ml: f"cool but massive: M_MS(Teff)={mt:.2g} Msun vs M_MS(L)="
+                           + (f"{ml:.2g} Msun" if np.isfinite(ml) else "> 100 Msun"),
+            len(ii), (m_teff[ii], ".2g"), (m_lum[ii], ".2g"))
+        tail = format_rows(
+            lambda ms, tf: (f", supplied {ms:.3g} Msun" if np.isfinite(ms) else "")
+                           + f" (Teff {tf:.0f} K < {cool:.0f} K): likely evolved",
+            len(ii), (msup[ii], ".3g"), (teff[ii], ".0f"))
+        return head + tail
 
-    _note(notes, "1cbm", ci, lambda ii: [cbm_text(i) for i in ii])
+    note("1cbm", cbm, cbm_text)
 
     # binary band
-    bi = np.nonzero((rawc & RAW_BINARY) != 0)[0]
-    flags[bi] |= F.POSSIBLE_BINARY
-    _note(notes, "2bin", bi, lambda ii: [f"possible unresolved binary: {upper_gap[i]:.2f} dex above the main-sequence upper edge"
-                              + (" (or a subgiant)" if code[i] == MAIN_SEQUENCE else "") for i in ii])
+    b = (rawc & RAW_BINARY) != 0
+    flags[b] |= F.POSSIBLE_BINARY
+
+    def bin_text(ii):
+        gap = np.empty(len(ii))
+        gi_ = group[ii]
+        for g, sm in enumerate(maps):
+            s = gi_ == g
+            if s.any():
+                gap[s] = logl[ii[s]] - sm._ms_top_at(logt[ii[s]])
+        return format_rows(lambda h, ms: f"possible unresolved binary: {h:.2f} dex above the main-sequence upper "
+                                         "edge" + (" (or a subgiant)" if ms else ""),
+                           len(ii), (gap, ".2f"), (code[ii] == MAIN_SEQUENCE, None))
+
+    note("2bin", b, bin_text)
+    ex = (rawc & RAW_EXTRAPOLATED) != 0
+    flags[ex] |= F.OUTSIDE_VALIDITY
+    note("3extrap", ex, lambda ii: format_rows(
+        lambda tf, tz: f"Teff {tf:.0f} K is cooler than the 0.1 Msun ZAMS ({tz:.0f} K): main sequence "
+                       "extrapolated beyond the fits", len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f")))
+    note("3zclip", zc, lambda ii: format_rows(
+        lambda fg, fu: f"[Fe/H]={fg:+.2f} outside the fits (Z 1e-4..0.03): boundaries of [Fe/H]={fu:+.2f} used",
+        len(ii), (feh_given[ii], "+.2f"), (feh_used[ii], "+.2f")))
     # near boundary
-    ni = np.nonzero((near_to >= 0) & finite)[0]
-    flags[ni] |= F.NEAR_BOUNDARY
-    _note(notes, "4near", ni, lambda ii: [f"near a boundary: {STAGES[near_to[i]]} within "
-                               + (f"1 sigma (dlogT={st[i]:.3f}, dlogL={sl[i]:.3f})" if (st[i] > 0 or sl[i] > 0)
-                                  else f"dlogT={opts['near_logt']:g} / dlogL={opts['near_logl']:g} dex") for i in ii])
+    near = (near_to >= 0) & finite
+    flags[near] |= F.NEAR_BOUNDARY
+    probe = f"dlogT={opts['near_logt']:g} / dlogL={opts['near_logl']:g} dex"
+
+    def near_text(ii):
+        he = has_err_all[ii]
+        return format_rows(
+            lambda k, e_, a, b_: f"near a boundary: {STAGES[k]} within "
+                                 + (f"1 sigma (dlogT={a:.3f}, dlogL={b_:.3f})" if e_ else probe),
+            len(ii), (near_to[ii], None), (he, None), (np.where(he, st[ii], 0.0), ".3f"),
+            (np.where(he, sl[ii], 0.0), ".3f"))
+
+    note("4near", near, near_text)
+    note("6nomass", np.nonzero(nomass)[0], "no mass relation applies here (mass NaN)")
     # low probability
-    sp = proba[np.arange(n), code.astype(np.intp)]
+    sp = np.take_along_axis(proba, code.astype(np.intp)[:, None], axis=1)[:, 0]
     low = finite & (sp < opts["low_probability"])
     flags[low] |= F.LOW_PROBABILITY
-    li = np.nonzero(low)[0]
-    _note(notes, "7low", li, lambda ii: [f"label uncertain: P({STAGES[code[i]]})={sp[i]:.2f}, most probable "
-                              f"{STAGES[int(np.argmax(proba[i]))]} ({proba[i].max():.2f})" for i in ii])
+    note("7low", low, lambda ii: format_rows(
+        lambda k, p, kb, pb: f"label uncertain: P({STAGES[k]})={p:.2f}, most probable {STAGES[kb]} ({pb:.2f})",
+        len(ii), (code[ii], None), (sp[ii], ".2f"), (np.argmax(proba[ii], axis=1), None), (proba[ii].max(axis=1), ".2f")))
     # missing / bad input
     miss = np.isnan(logt) | np.isnan(logl)
     badi = ~miss & ~finite
     flags[miss] |= F.MISSING_INPUT
     flags[badi] |= F.BAD_INPUT
-    for mask, key, what in ((miss, "8miss", "missing (NaN)"), (badi, "8bad", "not finite (inf)")):
+    base_key = code.astype(np.int8)
+    base_key[hb] = _B_HB
+    for mask, what, key in ((badi, "not finite (inf)", "8bad"), (miss, "missing (NaN)", "8miss")):
         ii = np.nonzero(mask)[0]
-        _note(notes, key, ii, [f"log Teff or log L {what}: not classified"] * len(ii))
-        base[ii] = "Unclassified: no position"
-        proba[ii] = 0.0
-        proba[ii, UNCLASSIFIED] = 1.0
-        mass_est[ii] = np.where(sup[ii], msup[ii], np.nan)
-        method[ii] = np.where(sup[ii], "supplied", "none")
+        note(key, ii, f"log Teff or log L {what}: not classified")
+        if len(ii):
+            base_key[ii] = _B_NOPOS
+            proba[ii] = 0.0
+            proba[ii, UNCLASSIFIED] = 1.0
+            mass_est[ii] = np.where(sup[ii], msup[ii], np.nan)
+            mcode[ii] = np.where(sup[ii], _M_SUPPLIED, _M_NONE)
     # off the map
-    off_map = finite & (code == UNCLASSIFIED)
-    lk = stage_map(0.0, **stage_kw).grid
-    out = off_map & ((logt < lk.t0) | (logt > lk.t1) | (logl < lk.l0) | (logl > lk.l1))
-    base[out] = "Unclassified: outside the map (log Teff 3.30-5.30, log L -6..7)"
+    lk = maps[0].grid if maps else stage_map(0.0, **stage_kw).grid
+    out = finite & (code == UNCLASSIFIED) & ((logt < lk.t0) | (logt > lk.t1) | (logl < lk.l0) | (logl > lk.l1))
+    base_key[out] = _B_OFFMAP
+    method = np.asarray(_METHOD_NAMES, dtype=object)[mcode]
 
     return ClassificationResult(
         logt=logt, logl=logl, logt_err=st, logl_err=sl, corr=rho, feh_used=feh_used, code=code, proba=proba,
-        mass=mass_est, mass_err=mass_err, mass_method=method.astype(object), mass_ms_teff=m_teff,
-        mass_ms_lum=m_lum, flags=flags, n_draws=n_draws, _notes=notes, _base=base,
+        mass=mass_est, mass_err=mass_err, mass_method=method, mass_ms_teff=m_teff,
+        mass_ms_lum=m_lum, flags=flags, n_draws=n_draws, _notes=[(i, b) for _, i, b in sorted(notes, key=lambda x: x[0])], _base_key=base_key, _group=group,
+        _maps=maps, _teff=teff,
     )
 
 

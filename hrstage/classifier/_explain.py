@@ -99,7 +99,7 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
     lines.insert(0, f"Star: Teff = {teff:.0f} K (log Teff {logt:.4f}), log L = {logl:.3f}"
                  + (f", [Fe/H] = {float(feh):+.2f}" if feh is not None else ", [Fe/H] not given (solar assumed)"))
     lines.append(f"Stage map: {sm!r}")
-    lines.append(f"Label: {STAGES[code]} -- {res._base[0]}")
+    lines.append(f"Label: {STAGES[code]} -- {res.base_reason[0]}")
     pr = res.proba[0]
     order = np.argsort(pr)[::-1]
     ptxt = ", ".join(f"{STAGES[k]} {pr[k]:.3f}" for k in order if pr[k] > 0)

@@ -242,3 +242,40 @@ def test_draw_skipping_is_exact():
     assert np.array_equal(fast, slow)
     uni, _ = _core._uniform_boxes(sm, xc, yc, st * lk.inv_dt * 5 + 1, (sl * lk.inv_dl) * 5 + 1)
     assert 0 < (uni >= 0).sum() < n  # some stars skipped, some drawn
+
+
+def test_hostile_floats_raise_no_numpy_warnings():
+    # IEEE 754 extremes (largest/smallest doubles, inf, NaN, subnormals): the classifier masks
+    # them deliberately, so no overflow/invalid RuntimeWarning may escape (common practice)
+    import warnings
+
+    big, tiny = np.finfo(float).max, np.finfo(float).tiny
+    lt = np.array([3.7, 3.7, np.nan, 3.7, 3.7, 3.3, 6.4, 2.0, np.inf, 3.7])
+    ll = np.array([big, -big, 0.0, np.inf, -np.inf, 0.0, 1e300, -1e300, 1.0, 5e-324])
+    err = np.array([big, tiny, np.nan, 0.0, np.inf, 1e300, 0.0, big, 1.0, 5e-324])
+    mass = np.array([big, tiny, np.nan, np.inf, 1e-300, 0.0, 1.0, 2.0, 3.0, -1.0])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        for nd in (0, 16):
+            r = classify_hr(lt, ll, logt_err=err, logl_err=err, corr=0.5, mass=mass, feh=[-9, 9] * 5, n_draws=nd)
+            cols = r.to_columns()
+            assert len(cols["flag_text"]) == len(lt) and len(r.reason) == len(lt)
+            assert r.stage[2] == "unclassified" and r.flags[2] & F.MISSING_INPUT
+            assert r.flags[0] & F.METALLICITY_CLIPPED
+
+
+def test_row_result_does_not_depend_on_other_rows():
+    # the same star alone, in a mixed-metallicity call and in a call where all rows share its
+    # [Fe/H] gets the same label, mass and reason text (issue: texts were per-call)
+    rng = np.random.default_rng(7)
+    lt = rng.uniform(3.45, 4.4, 400)
+    ll = rng.uniform(-3, 4.5, 400)
+    fe = rng.uniform(-2.6, 0.4, 400)
+    full = classify_hr(lt, ll, logt_err=0.01, logl_err=0.05, feh=fe)
+    for i in (0, 17, 123, 399):
+        alone = classify_hr(lt[i:i + 1], ll[i:i + 1], logt_err=0.01, logl_err=0.05, feh=fe[i:i + 1])
+        same = classify_hr(lt, ll, logt_err=0.01, logl_err=0.05, feh=np.full(400, fe[i]))
+        for other, j in ((alone, 0), (same, i)):
+            assert other.code[j] == full.code[i] and other.flags[j] == full.flags[i]
+            assert other.flag_text[j] == full.flag_text[i] and other.reason[j] == full.reason[i]
+            assert other.feh_used[j] == full.feh_used[i]

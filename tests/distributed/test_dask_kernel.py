@@ -162,10 +162,6 @@ def test_map_partitions_equals_one_process(frame):
     pd.testing.assert_frame_equal(got[ours], single[ours])
 
 
-@pytest.mark.xfail(strict=True, reason="classifier: the extrapolation note of a row depends on the other rows "
-                   "of the call (metallicity grid built from the chunk): row dsk-00380 (Teff 2970 K, [Fe/H] -1.02) "
-                   "gets 'cooler than the 0.1 Msun ZAMS (3194 K)' in a 300-row partition and no such note in the "
-                   "1800-row table; reported to the classifier owner")
 def test_flag_text_does_not_depend_on_partitioning(frame):
     single = classify_partition(frame)
     with dask.config.set(scheduler="threads"):
