@@ -29,7 +29,11 @@ Verdicts (our own names)
     ``no_type`` (empty), ``unparsed``, ``no_hr_position`` (Teff or L missing), ``no_calibration``
     (white dwarf, hot subdwarf, Wolf–Rayet, carbon, S, special entries), ``no_lumclass`` (R14:
     no class in the type, every class tested, the best one reported as suggested, Teff checked),
-    ``outside_calibration`` (the class sequence does not reach the star's Teff or type).
+    ``outside_calibration`` (the class sequence does not reach the star's Teff or type),
+    ``stage_undecided`` (stage check: the HR stage is neither expected nor excluded).
+``stage_conflict``
+    stage check (white dwarfs, hot and cool subdwarfs, WR, carbon, S stars, and ordinary types
+    with no class sequence at the star's Teff): the HR-position stage is one the type excludes.
 
 The suggested class is the calibrated class (Ia … V) whose sequence at the measured Teff is nearest
 in sigma units; ``VI`` when the star lies more than ``threshold`` sigma below the V sequence, and
@@ -259,8 +263,8 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
     logt_err, logl_err : array-like of float, optional
         1-sigma errors of ``logt`` and ``logl`` (default 0: only the calibration scatter counts).
     feh : array-like of float, optional
-        [Fe/H]. Accepted for interface symmetry; the shipped calibrations are solar-neighbourhood
-        means and are not shifted with metallicity (metal-poor stars may be flagged; see docs).
+        [Fe/H]. Selects the stage map of the stage check (solar when None); the shipped MK
+        calibrations are solar-neighbourhood means and are not shifted with metallicity.
     threshold : float, default 3.0
         Number of sigma beyond which a check fails.
 
