@@ -2,13 +2,20 @@
 
 Baseline: ``np.log10(t) + l`` over the same (log Teff, log L) float64 arrays -- one elementwise
 transcendental plus one add, the cheapest full pass a catalogue tool makes. Printed: medians over
-repeats of (1) the baseline, (2) point labels (``StageMap.locate``), (3) the full
-``classify_hr`` without draws (labels, masses, flags), (4) probabilities with 128 draws, (5) the
-Monte Carlo core alone (the stage counts of those draws), (6) building the reason texts
-(``to_columns``; they are built lazily, on first access).
+repeats of (1) the baseline, (2) point labels (``StageMap.locate``), (3) ``classify_hr(...)
+.to_columns()`` with errors and no draws (labels, masses, flags and the reason texts), (4) the
+same with 128 draws, (5) the Monte Carlo core alone.
+
+``--before REV`` also loads ``hrstage/classifier/_core.py`` of git revision REV (e.g. a commit
+before the speed work) as a second module and times it on the same arrays in the same run, so the
+before/after ratio does not depend on the load of a shared machine.
 """
 
+import argparse
+import importlib.util
 import os
+import subprocess
+import sys
 
 for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[var] = "1"
@@ -30,7 +37,21 @@ def median_time(fn, repeats=5):
     return float(np.median(ts))
 
 
-def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000):
+def load_before(rev):
+    """``hrstage.classifier._core`` as it was at git revision ``rev`` (a module beside ours)."""
+    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    src = subprocess.run(["git", "show", f"{rev}:hrstage/classifier/_core.py"], cwd=root, check=True,
+                         capture_output=True, text=True).stdout
+    name = "hrstage.classifier._core_before"
+    spec = importlib.util.spec_from_loader(name, loader=None)
+    mod = importlib.util.module_from_spec(spec)
+    mod.__package__ = "hrstage.classifier"
+    sys.modules[name] = mod
+    exec(compile(src, f"{rev}:_core.py", "exec"), mod.__dict__)
+    return mod
+
+
+def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000, before=None, repeats=3):
     rng = np.random.default_rng(1)
     lt = rng.uniform(3.45, 4.5, n_point)
     ll = rng.uniform(-3, 5, n_point)
@@ -38,27 +59,37 @@ def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000):
     sm.locate(lt[:10], ll[:10])
     base = median_time(lambda: np.log10(lt) + ll)
     loc = median_time(lambda: sm.locate(lt, ll))
-    print(f"baseline np.log10(a)+b     : {n_point / base / 1e6:8.1f} M stars/s")
-    print(f"point labels (locate)      : {n_point / loc / 1e6:8.1f} M stars/s   ratio to baseline {base / loc:5.2f}")
-    f = median_time(lambda: classify_hr(lt[:n_full], ll[:n_full], feh=0.0), repeats=3)
-    b1 = median_time(lambda: np.log10(lt[:n_full]) + ll[:n_full])
-    print(f"classify_hr, no draws      : {n_full / f / 1e6:8.2f} M stars/s   ratio to baseline {b1 / f:5.3f}")
-    st = np.full(n_mc, 0.01)
-    sl = np.full(n_mc, 0.05)
-    mc = median_time(lambda: classify_hr(lt[:n_mc], ll[:n_mc], logt_err=st, logl_err=sl, corr=0.3,
-                                         n_draws=128, feh=0.0), repeats=3)
-    b2 = median_time(lambda: np.log10(lt[:n_mc]) + ll[:n_mc])
-    print(f"classify_hr, 128 draws     : {n_mc / mc / 1e6:8.2f} M stars/s   ratio to baseline {b2 / mc:6.4f}")
+    print(f"baseline np.log10(a)+b          : {n_point / base / 1e6:8.1f} M stars/s")
+    print(f"point labels (locate)           : {n_point / loc / 1e6:8.1f} M stars/s   ratio to baseline {base / loc:5.2f}")
+    mods = [("after", _core)]
+    if before:
+        mods.insert(0, (f"before ({before})", load_before(before)))
+    a, b = lt[:n_full], ll[:n_full]
+    st, sl = np.full(n_full, 0.01), np.full(n_full, 0.05)
+    b1 = median_time(lambda: np.log10(a) + b)
+    res = {}
+    for label, mod in mods:
+        f0 = median_time(lambda: mod.classify_hr(a, b, logt_err=st, logl_err=sl, corr=0.3, feh=0.0).to_columns(),
+                         repeats=repeats)
+        f1 = median_time(lambda: mod.classify_hr(a, b, logt_err=st, logl_err=sl, corr=0.3, feh=0.0,
+                                                 n_draws=128).to_columns(), repeats=repeats)
+        res[label] = (f0, f1)
+        print(f"{label:>22s}: classify_hr+to_columns, errors, 0 draws : {n_full / f0 / 1e6:6.2f} M stars/s "
+              f"(ratio to baseline {b1 / f0:.4f});  128 draws : {n_full / f1 / 1e6:6.2f} M stars/s "
+              f"(ratio {b1 / f1:.4f})")
+    if before:
+        (f0b, f1b), (f0a, f1a) = res[mods[0][0]], res["after"]
+        print(f"speed-up after/before: 0 draws {f0b / f0a:5.2f} x, 128 draws {f1b / f1a:5.2f} x")
     z1, z2 = _core._draws(128, 20240601)
     rho = np.full(n_mc, 0.3)
-    core = median_time(lambda: _core._mc_counts(sm, lt[:n_mc], ll[:n_mc], st, sl, rho, z1, z2), repeats=3)
-    print(f"Monte Carlo core alone     : {n_mc / core / 1e6:8.2f} M stars/s   ratio to baseline {b2 / core:6.4f}")
-    res = classify_hr(lt[:n_mc], ll[:n_mc], logt_err=st, logl_err=sl, corr=0.3, n_draws=128, feh=0.0)
-    t0 = time.perf_counter()
-    res.to_columns()
-    tc = time.perf_counter() - t0
-    print(f"to_columns (reason texts)  : {n_mc / tc / 1e6:8.2f} M stars/s   (once per result)")
+    core = median_time(lambda: _core._mc_counts(sm, lt[:n_mc], ll[:n_mc], st[:n_mc], sl[:n_mc], rho, z1, z2),
+                       repeats=repeats)
+    print(f"Monte Carlo core alone (128)    : {n_mc / core / 1e6:8.2f} M stars/s")
 
 
 if __name__ == "__main__":
-    main()
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--before", help="git revision whose classifier core is timed beside the current one")
+    ap.add_argument("--rows", type=int, default=1_000_000)
+    args = ap.parse_args()
+    main(n_full=args.rows, before=args.before)
