@@ -32,7 +32,7 @@ import numpy as np
 from . import __version__
 from . import flags as F
 from .catalog.profiles import ROLES, ROUTES, ColumnInfo, ColumnMapping, detect_profile, infos_from_table
-from .catalog.sanity import MISSING, NONPHYSICAL, OK, SENTINEL, STATUS_TEXT, extract_roles
+from .catalog.sanity import MISSING, NONPHYSICAL, NOT_A_NUMBER, OK, SENTINEL, STATUS_TEXT, extract_roles
 from .columns import CLASSIFY_COLUMNS, COLUMNS, SPTYPE_COLUMNS
 from .errors import HrstageInputError
 from .stages import STAGES
@@ -234,29 +234,40 @@ def _run_route(route, idx, values, opts, feh):
     raise ValueError(route)  # pragma: no cover
 
 
-def _status_reason(route, status, mapping, rows):
-    """Per-row text for rows whose route inputs are not all usable."""
+def _status_reason(route, status, mapping, rows, words=None):
+    """Per-row text for rows whose route inputs are not all usable (loops over the few distinct
+    combinations of statuses; the text of an entry that is not a number is quoted per row)."""
     needs = [r for r in _ROUTE_NEEDS[route] if r in status]
+    words = words or {}
+    base = 8
     code = np.zeros(len(rows), dtype=np.int64)
     for k, role in enumerate(needs):
-        code += status[role][rows].astype(np.int64) * (4 ** k)
+        code += status[role][rows].astype(np.int64) * (base ** k)
     uniq, inv = np.unique(code, return_inverse=True)
-    texts = []
-    for c in uniq:
-        parts = []
+    inv = inv.reshape(-1)
+    out = np.full(len(rows), "", dtype=object)
+    for j, c in enumerate(uniq):
+        sel = inv == j
+        text = np.full(int(sel.sum()), "", dtype=object)
         for k, role in enumerate(needs):
-            s = (int(c) // 4 ** k) % 4
-            if s != OK:
-                shown = role
-                if role not in mapping.roles:   # derived role: name the one the user gave
-                    shown = {"teff": "logt", "logl": "lum", "bp_rp": "bp"}.get(role, role)
-                col = mapping.roles.get(shown, shown)
-                if role == "bp_rp" and "rp" in mapping.roles:
-                    col = f"{mapping.roles['bp']}/{mapping.roles['rp']}"
-                    shown = "bp/rp"
-                parts.append(f"{shown} {STATUS_TEXT[s]} in column {col}")
-        texts.append(", ".join(parts))
-    return np.asarray(texts, dtype=object)[inv]
+            st = (int(c) // base ** k) % base
+            if st == OK:
+                continue
+            shown = role
+            if role not in mapping.roles:   # derived role: name the one the user gave
+                shown = {"teff": "logt", "logl": "lum", "bp_rp": "bp"}.get(role, role)
+            col = mapping.roles.get(shown, shown)
+            if role == "bp_rp" and "rp" in mapping.roles:
+                col = f"{mapping.roles['bp']}/{mapping.roles['rp']}"
+                shown = "bp/rp"
+            part = f"{shown} {STATUS_TEXT[st]} in column {col}"
+            if st == NOT_A_NUMBER and shown in words:     # quote the word itself (distinct words only)
+                uw, wi = np.unique(words[shown][rows[sel]], return_inverse=True)
+                quoted = np.array([f"{part} ({str(w)[:40]!r}, expected a number)" for w in uw], dtype=object)
+                part = quoted[wi.reshape(-1)]
+            text = np.where(text == "", part, text + ", " + part)
+        out[sel] = text
+    return out
 
 
 def _positions(values, status, mapping, opts, feh, n):
@@ -285,9 +296,9 @@ def _positions(values, status, mapping, opts, feh, n):
         out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
         src = np.asarray(pos.source, dtype=object)
         src = np.broadcast_to(src, (idx.size,)) if src.ndim == 0 else src
-        src_good = src[good].astype(str)
+        src_good = src[good].astype(object)
         if k > 0:
-            src_good = np.char.add(f"fallback to {route}: ", src_good)
+            src_good = f"fallback to {route}: " + src_good
         out.source[ok_rows] = src_good
         fail_flags[idx[~good]] |= np.asarray(pos.flags, dtype=np.int64)[~good]
         route_of[ok_rows] = k
@@ -296,16 +307,19 @@ def _positions(values, status, mapping, opts, feh, n):
 
 
 def _as_text(a) -> np.ndarray:
+    """Text as an object array of str (never fixed width: see :func:`_text_array`)."""
     a = np.asarray(a)
-    return a if a.dtype.kind == "U" else a.astype(str)
+    if a.dtype.kind == "O":
+        return a.copy()
+    return (a if a.dtype.kind == "U" else a.astype(str)).astype(object)
 
 
 def _text_array(parts):
     """Join per-row texts with '; ', skipping empty ones.
 
     Works on object arrays (one Python string per row, shared where rows repeat) and only on the
-    rows where a part is not empty, then converts once to a fixed-width text array; a fixed-width
-    array per intermediate step would cost rows x width x 4 bytes each time.
+    rows where a part is not empty, and stays an object array: a fixed-width array would cost
+    rows x (longest text) x 4 bytes.
     """
     out = np.asarray(parts[0], dtype=object).copy()
     out[out == None] = ""  # noqa: E711 (element-wise)
@@ -320,7 +334,7 @@ def _text_array(parts):
         if both.any():
             out[both] = out[both] + "; " + part[both]
         out[only] = part[only]
-    return out.astype(str)
+    return out
 
 
 def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
@@ -329,7 +343,8 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
 
     mapping = opts.mapping
     n = len(sub)
-    values, status = extract_roles(sub, mapping)
+    words = {}
+    values, status = extract_roles(sub, mapping, words)
     if n == 0:
         return {c: np.zeros(0, dtype=_dtype(c)) for c in _our_columns(opts)}
     if "logl" in values or "lum" in values:
@@ -359,16 +374,16 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
             if role in status:
                 st = status[role][not_done]
                 lacks |= st != OK
-                in_flags[not_done[st == NONPHYSICAL]] |= F.BAD_INPUT
+                in_flags[not_done[(st == NONPHYSICAL) | (st == NOT_A_NUMBER)]] |= F.BAD_INPUT
                 in_flags[not_done[(st == MISSING) | (st == SENTINEL)]] |= F.MISSING_INPUT
         text = np.full(not_done.size, "", dtype=object)
         if lacks.any():
-            text[lacks] = _status_reason(first, status, mapping, not_done[lacks])
+            text[lacks] = _status_reason(first, status, mapping, not_done[lacks], words)
         rest = ~lacks
         if rest.any():
             text[rest] = F.describe_many(fail_flags[not_done[rest]])
         routes = " / ".join(_ROUTE_TEXT[r] for r in mapping.routes)
-        reason[not_done] = np.char.add(f"unclassified: no HR position from {routes}: ", text.astype(str))
+        reason[not_done] = f"unclassified: no HR position from {routes}: " + text
     # values the used route reads (with their errors) that are missing: MISSING_INPUT
     for k, route in enumerate(mapping.routes):
         rows = route_of == k
@@ -458,13 +473,50 @@ def _arrow_infos(data, attrs):
     return out
 
 
-def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0, attrs: dict | None = None):
+#: Our text columns with few distinct values: written as dictionary-encoded Arrow strings
+#: (one copy of each text per chunk, integer codes per row).
+DICTIONARY_COLUMNS = ("stage", "mass_method", "hr_source", "sptype_parsed", "sptype_lumclass", "sptype_stage",
+                      "sptype_verdict", "sptype_suggested")
+
+_YAML_CACHE: dict = {}
+
+
+def _output_yaml(schema, attrs, opts):
+    """``table_meta_yaml`` for an arrow output chunk: the input's column attributes, ours from
+    :mod:`hrstage.columns`, the run's metadata; built once per (schema, options)."""
+    from .catalog.arrow import meta_yaml, numpy_dtype_of
+
+    key = (tuple(schema.names), tuple(str(t) for t in schema.types), id(attrs), id(opts.mapping), opts.prefix,
+           opts.n_draws, opts.seed, opts.feh)
+    hit = _YAML_CACHE.get(key)
+    if hit is not None:
+        return hit
+    col_attrs = {k: v for k, v in (attrs or {}).items() if k != "__table_meta__"}
+    for name in COLUMNS:
+        full = opts.prefix + name
+        if full in schema.names:
+            spec = COLUMNS[name]
+            col_attrs[full] = {"unit": spec.unit, "description": spec.description,
+                               "meta": {"ucd": spec.ucd} if spec.ucd else None}
+    table_meta = dict((attrs or {}).get("__table_meta__", {}))
+    table_meta.update(_table_meta(opts))
+    fields = [(f.name, numpy_dtype_of(f.type)) for f in schema]
+    yaml = meta_yaml(fields, col_attrs, table_meta)
+    if len(_YAML_CACHE) > 64:
+        _YAML_CACHE.clear()
+    _YAML_CACHE[key] = yaml
+    return yaml
+
+
+def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0, attrs: dict | None = None,
+                   dictionary: bool = True, describe: bool = True):
     """Classify one chunk; the result has the chunk's columns untouched plus ours.
 
     Parameters
     ----------
     table_or_batch : astropy.table.Table or pyarrow.Table or pyarrow.RecordBatch
-        The rows. Only the columns of the mapping are converted; the others pass through as they are.
+        The rows. Only the columns of the mapping are converted; the others pass through as they are
+        (for arrow input, without any copy).
     options : ClassifyOptions
         From :func:`make_options`; the mapping is detected on this chunk if not yet resolved
         (resolve it once with :func:`resolve_options` when processing many chunks).
@@ -473,6 +525,12 @@ def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0,
     attrs : dict, optional
         Column attributes (units, UCDs) of an arrow input, from
         :func:`hrstage.catalog.arrow.header_from_schema` (read from its schema when omitted).
+    dictionary : bool, default True
+        Arrow output only: our low-cardinality text columns (:data:`DICTIONARY_COLUMNS`) as
+        dictionary-encoded strings; ``False`` gives plain strings.
+    describe : bool, default True
+        Arrow output only: attach ``table_meta_yaml`` (units, descriptions, UCDs, run metadata) to
+        the result's schema, so it can be written to Parquet as it is.
 
     Returns
     -------
@@ -495,9 +553,12 @@ def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0,
         cols = _compute(sub, opts, offset)
         arrays, names = list(data.columns), list(data.schema.names)
         for name, values in cols.items():
-            arrays.append(_numpy_to_arrow(values))
+            arrays.append(_numpy_to_arrow(values, dictionary and name in DICTIONARY_COLUMNS))
             names.append(opts.prefix + name)
-        return pa.Table.from_arrays(arrays, names=names)
+        out = pa.Table.from_arrays(arrays, names=names)
+        if describe:
+            out = out.replace_schema_metadata({b"table_meta_yaml": _output_yaml(out.schema, attrs, opts)})
+        return out
 
     if not isinstance(table_or_batch, Table):
         raise HrstageInputError(f"expected an astropy Table or a pyarrow table, got {type(table_or_batch).__name__}")
@@ -509,18 +570,19 @@ def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0,
         col_cls = MaskedColumn if np.ma.isMaskedArray(values) else Column
         out[opts.prefix + name] = col_cls(values, name=opts.prefix + name, unit=spec.unit,
                                           description=spec.description,
-                                          meta={"ucd": spec.ucd} if spec.ucd else None)
+                                          meta={"ucd": spec.ucd} if spec.ucd else None, copy=False)
     out.meta.update(_table_meta(opts))
     return out
 
 
-def _numpy_to_arrow(values):
+def _numpy_to_arrow(values, dictionary: bool = False):
+    """One of our columns -> arrow array: text as (dictionary-encoded) strings, numbers zero-copy."""
     import pyarrow as pa
 
     arr = np.asarray(values)
     if arr.dtype.kind in "UO":
-        uniq, inv = np.unique(arr.astype(str), return_inverse=True)
-        return pa.array(uniq.tolist(), type=pa.string()).take(pa.array(inv.reshape(-1).astype(np.int32)))
+        text = pa.array(arr, type=pa.string(), from_pandas=False)
+        return text.dictionary_encode() if dictionary else text
     return pa.array(arr)
 
 
@@ -588,6 +650,7 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
         no-metallicity note), ``sptype_conflicts``, ``mapping`` (text), ``output``.
     """
     from .catalog import DEFAULT_CHUNK_ROWS, ChunkWriter, count_rows, format_of, iter_chunks
+    from .catalog.streaming import iter_arrow_chunks
     from .catalog.atomic import check_output_path
     from .catalog.formats import describe_columns
 
@@ -606,25 +669,45 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
     counts = np.zeros(len(STAGES), dtype=np.int64)
     flagged = conflicts = rows = 0
     quiet_bits = F.NO_METALLICITY | F.NO_EXTINCTION
+    stage_code = {st: i for i, st in enumerate(STAGES)}
+    if in_fmt in ("parquet", "csv"):        # Arrow end to end: no astropy Table per chunk
+        attrs, chunks = iter_arrow_chunks(inp, chunk_rows, in_fmt)
+    else:
+        attrs, chunks = None, iter_chunks(inp, chunk_rows, in_fmt)
     try:
         with ChunkWriter(out, output_format, overwrite=overwrite, inputs=[inp]) as writer:
-            for chunk in iter_chunks(inp, chunk_rows, in_fmt):
+            for chunk in chunks:
                 if opts.mapping is None:
-                    opts = resolve_options(infos_from_table(chunk), opts)
-                res = classify_chunk(chunk, opts, offset=rows)
-                describe_columns(res, prefix=opts.prefix)
+                    infos = _arrow_infos(chunk, attrs) if attrs is not None else infos_from_table(chunk)
+                    opts = resolve_options(infos, opts)
+                res = classify_chunk(chunk, opts, offset=rows, attrs=attrs)
+                if attrs is None:
+                    describe_columns(res, prefix=opts.prefix)
                 writer.write(res)
-                stage = np.asarray(res[opts.prefix + "stage"]).astype(str)
-                counts += np.array([(stage == s).sum() for s in STAGES])
-                fl = np.asarray(res[opts.prefix + "flags"], dtype=np.int64)
+                stage, fl = _chunk_counts(res, opts.prefix)
+                for name, c in zip(*stage):
+                    counts[stage_code[name]] += c
                 flagged += int(((fl & ~quiet_bits) != 0).sum())
                 conflicts += int(((fl & F.SPTYPE_CONFLICT) != 0).sum())
-                rows += len(chunk)
+                n = res.num_rows if attrs is not None else len(res)
+                rows += n
                 if bar is not None:
-                    bar.update(len(chunk))
+                    bar.update(n)
     finally:
         if bar is not None:
             bar.close()
     return {"rows": rows, "stages": {s: int(c) for s, c in zip(STAGES, counts)}, "flagged": flagged,
             "sptype_conflicts": conflicts, "mapping": opts.mapping.describe() if opts.mapping else "",
             "notes": list(opts.mapping.notes) if opts.mapping else [], "output": str(out)}
+
+
+def _chunk_counts(res, prefix):
+    """(stage names, counts) and the flag integers of one classified chunk (arrow or astropy)."""
+    if _is_arrow(res):
+        import pyarrow.compute as pc
+
+        vc = pc.value_counts(res.column(prefix + "stage"))
+        names = [str(v) for v in vc.field("values").to_pylist()]
+        return (names, vc.field("counts").to_numpy()), res.column(prefix + "flags").to_numpy()
+    names, cnt = np.unique(np.asarray(res[prefix + "stage"]).astype(str), return_counts=True)
+    return (list(names), cnt), np.asarray(res[prefix + "flags"], dtype=np.int64)

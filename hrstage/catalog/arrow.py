@@ -51,10 +51,13 @@ def _to_numpy(arr):
     if arr.null_count:
         mask = arr.is_null().to_numpy(zero_copy_only=False)
     t = arr.type
+    if pa.types.is_dictionary(t):
+        return _to_numpy(arr.dictionary_decode())
     if pa.types.is_string(t) or pa.types.is_large_string(t):
+        # object array of Python strings: a fixed-width array would make every row as wide as
+        # the longest entry (one 10^6-character field -> 4 MB per row)
         filled = pc.fill_null(arr, "") if mask is not None else arr
-        obj = filled.to_numpy(zero_copy_only=False)
-        data = obj.astype(str) if len(obj) else np.zeros(0, dtype="U1")
+        data = filled.to_numpy(zero_copy_only=False).astype(object, copy=False)
     elif pa.types.is_boolean(t):
         filled = pc.fill_null(arr, False) if mask is not None else arr
         data = filled.to_numpy(zero_copy_only=False).astype(bool)
@@ -127,7 +130,7 @@ def _column_to_arrow(col):
             raise HrstageInputError(f"column {col.info.name!r}: masked array cells are not supported in Parquet")
         return arr
     if data.dtype.kind == "O":
-        return pa.array(list(data), mask=mask)
+        return pa.array(data, mask=mask, from_pandas=False)
     if data.dtype.kind == "S":
         data = np.char.decode(data, "utf-8")
     if data.dtype.kind == "U":
@@ -152,3 +155,38 @@ def table_to_arrow(table: Table, *, with_meta: bool = True):
         # (astropy included) then size text columns from the data itself
         metadata = {YAML_KEY: "\n".join(yaml_lines).encode("utf-8")}
     return pa.Table.from_arrays(arrays, names=names, metadata=metadata)
+
+
+def meta_yaml(fields, attrs: dict | None = None, meta: dict | None = None) -> bytes:
+    """The ``table_meta_yaml`` bytes for a schema: ``fields`` are ``(name, numpy dtype)`` pairs,
+    ``attrs`` ``{name: {unit, description, meta}}`` (as :func:`header_from_schema` gives).
+
+    Built once per output file and attached to every chunk, so streamed chunks are not converted
+    to astropy Tables just to describe their columns.
+    """
+    attrs = attrs or {}
+    cols = []
+    for name, dtype in fields:
+        info = attrs.get(name, {})
+        dt = np.dtype(dtype)
+        cols.append(Column(np.zeros(0, dtype="U1" if dt.kind == "O" else dt), name=name, unit=info.get("unit"),
+                           description=info.get("description"),
+                           meta=dict(info["meta"]) if info.get("meta") else None))
+    plain = Table(cols, meta=dict(meta or {}))
+    return "\n".join(table_meta.get_yaml_from_table(plain)).encode("utf-8")
+
+
+def numpy_dtype_of(arrow_type) -> np.dtype:
+    """The numpy dtype a column of this arrow type becomes in :func:`arrow_to_table`."""
+    pa = _pa()
+    if pa.types.is_dictionary(arrow_type):
+        arrow_type = arrow_type.value_type
+    if pa.types.is_string(arrow_type) or pa.types.is_large_string(arrow_type):
+        return np.dtype(object)
+    if pa.types.is_boolean(arrow_type):
+        return np.dtype(bool)
+    try:
+        return np.dtype(arrow_type.to_pandas_dtype())
+    except (NotImplementedError, TypeError):
+        return np.dtype(object)
+

@@ -20,6 +20,34 @@ from ..errors import HrstageInputError
 TEMP_MARK = ".hrstage-partial-"
 
 
+def _current_umask() -> int:
+    """The process umask, read without changing it where the system allows (Linux /proc)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError, IndexError):
+        pass
+    mask = os.umask(0o022)       # elsewhere: set and restore at once (not thread-safe, brief)
+    os.umask(mask)
+    return mask
+
+
+def output_mode(path) -> int:
+    """Permission bits an output at ``path`` should get.
+
+    The mode of the file being replaced when there is one, otherwise what ``open(path, "w")``
+    would give a new file (``0o666`` minus the umask). Temporary files from :mod:`tempfile` are
+    created ``0o600``; writers call this before renaming them into place.
+    """
+    p = Path(path)
+    try:
+        return p.stat().st_mode & 0o7777
+    except OSError:
+        return 0o666 & ~_current_umask()
+
+
 def _same_file(a: Path, b: Path) -> bool:
     try:
         return a.exists() and b.exists() and os.path.samefile(a, b)
@@ -85,6 +113,7 @@ def atomic_output(path, *, overwrite: bool = False, inputs: Iterable = ()) -> It
     tmp = Path(tmp_name)
     try:
         yield tmp
+        os.chmod(tmp, output_mode(out))
         if overwrite:
             os.replace(tmp, out)
         else:

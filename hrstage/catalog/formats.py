@@ -141,6 +141,13 @@ def _write_fits(table: Table, tmp: Path) -> None:
     from astropy.io import fits
 
     out = table.copy(copy_data=False)
+    for name in out.colnames:      # FITS text columns are fixed width: the widest entry sets it
+        col = out[name]
+        if col.dtype.kind == "O" and col.ndim == 1:
+            data = np.ma.getdata(col)
+            fixed = data.astype(str) if len(col) else np.zeros(0, dtype="U1")
+            out[name] = type(col)(fixed, name=name, unit=col.unit, description=col.description, meta=col.meta,
+                                  **({"mask": np.ma.getmaskarray(col)} if hasattr(col, "mask") else {}))
     for key, fkey in FITS_META_KEYS.items():
         if key in out.meta:
             out.meta[fkey] = out.meta.pop(key)
@@ -191,20 +198,49 @@ def csv_text(table: Table, header: bool = True) -> str:
     return text
 
 
-def _read_csv(path: Path) -> Table:
+#: Largest pyarrow CSV block we try (bytes): a single row must fit in one block.
+CSV_MAX_BLOCK = 1 << 30
+
+
+def is_block_too_small(exc: BaseException) -> bool:
+    """True for pyarrow's complaint that one CSV row does not fit in a block."""
+    return "straddl" in str(exc) or "block size" in str(exc)
+
+
+def check_unique_names(names, source: str) -> None:
+    """A header naming a column twice is ambiguous (which Teff?): a one-line input error."""
+    seen, dup = set(), []
+    for n in names:
+        if n in seen and n not in dup:
+            dup.append(n)
+        seen.add(n)
+    if dup:
+        raise HrstageInputError(f"{source}: the header repeats column name(s) {', '.join(dup)} (duplicate "
+                                "names are ambiguous); rename or drop the repeated column(s) first")
+
+
+def _read_csv(path: Path):
+    """Whole CSV file -> pyarrow Table; the block size grows until the longest row fits."""
     import pyarrow as pa
     import pyarrow.csv as pacsv
 
-    from .arrow import arrow_to_table
-
-    read, parse, convert = csv_read_options()
-    try:
-        data = pacsv.read_csv(path, read_options=read, parse_options=parse, convert_options=convert)
-    except (pa.ArrowInvalid, pa.ArrowTypeError, UnicodeDecodeError) as exc:
-        raise HrstageInputError(f"cannot read CSV file {path.name}: {_one_line(exc)}") from None
+    block = 1 << 22
+    while True:
+        read, parse, convert = csv_read_options(block_size=block)
+        try:
+            data = pacsv.read_csv(path, read_options=read, parse_options=parse, convert_options=convert)
+            break
+        except (pa.ArrowInvalid, pa.ArrowTypeError, UnicodeDecodeError) as exc:
+            if is_block_too_small(exc) and block < CSV_MAX_BLOCK:
+                block = min(block * 4, CSV_MAX_BLOCK)
+                continue
+            raise HrstageInputError(f"cannot read CSV file {path.name}: {_one_line(exc)}") from None
+        except KeyError as exc:       # pyarrow: a field name twice in the schema
+            raise HrstageInputError(f"{path.name}: the header repeats a column name ({_one_line(exc)})") from None
     if data.num_columns == 0:
         raise HrstageInputError(f"CSV file {path.name} has no columns")
-    return arrow_to_table(data)
+    check_unique_names(data.schema.names, path.name)
+    return data
 
 
 def _write_csv(table: Table, tmp: Path) -> None:
@@ -213,17 +249,16 @@ def _write_csv(table: Table, tmp: Path) -> None:
 
 
 # -------------------------------------------------------------------------------- Parquet
-def _read_parquet(path: Path) -> Table:
+def _read_parquet(path: Path):
     import pyarrow as pa
     import pyarrow.parquet as pq
-
-    from .arrow import arrow_to_table
 
     try:
         data = pq.read_table(path)
     except (pa.ArrowInvalid, OSError) as exc:
         raise HrstageInputError(f"cannot read Parquet file {path.name}: {_one_line(exc)}") from None
-    return arrow_to_table(data)
+    check_unique_names(data.schema.names, path.name)
+    return data
 
 
 def _write_parquet(table: Table, tmp: Path) -> None:
@@ -261,10 +296,10 @@ def read_table(path, format: str | None = None, *, hdu: int | None = None) -> Ta
     _check_readable(path)
     if fmt == "fits":
         return _read_fits(path, hdu)
-    if fmt == "csv":
-        return _read_csv(path)
-    if fmt == "parquet":
-        return _read_parquet(path)
+    if fmt in ("csv", "parquet"):
+        from .arrow import arrow_to_table
+
+        return arrow_to_table(_read_csv(path) if fmt == "csv" else _read_parquet(path))
     astropy_fmt = {"votable": "votable", "ecsv": "ascii.ecsv"}[fmt]
     try:
         with warnings.catch_warnings():

@@ -20,7 +20,9 @@ Whole-column mistakes are errors, not guesses (:class:`~hrstage.errors.HrstageIn
 * a luminosity column with more than 10 % negative values is log10 L -> map it to ``logl``;
   a ``logl`` column with values above 8 is linear L;
 * a unit that cannot be converted to the role's unit (Teff in mag, parallax in K);
-* text in a numeric column (the first offending row is named).
+* a text column where a number belongs, when at least half of its non-empty entries are not
+  numbers (:data:`WORDS_WRONG_TYPE`); a few words among numbers are bad rows instead
+  (``NOT_A_NUMBER``, the pipeline raises ``BAD_INPUT`` and names the column and the text).
 
 Units are converted when the column has one (W or erg/s -> Lsun, arcsec or uas -> mas, km -> Rsun,
 dex(K) given for teff -> taken as logt). Columns without a unit are taken in the canonical unit.
@@ -34,8 +36,9 @@ from astropy import units as u
 from ..errors import HrstageInputError
 from .profiles import ROLES
 
-OK, MISSING, SENTINEL, NONPHYSICAL = 0, 1, 2, 3
-STATUS_TEXT = {MISSING: "missing", SENTINEL: "fill value", NONPHYSICAL: "non-physical"}
+OK, MISSING, SENTINEL, NONPHYSICAL, NOT_A_NUMBER = 0, 1, 2, 3, 4
+STATUS_TEXT = {MISSING: "missing", SENTINEL: "fill value", NONPHYSICAL: "non-physical",
+               NOT_A_NUMBER: "not a number"}
 
 #: Fill values catalogues use for "no value" (common practice in survey catalogues).
 SENTINELS = np.array([99.99, 99.999, 999.0, 999.9, 999.99, 9999.0, 9999.99, 99999.0,
@@ -52,13 +55,26 @@ _PLAUSIBLE = {"logl": (-10.0, 10.0), "logg": (-3.0, 12.0), "feh": (-8.0, 3.0), "
 _NULL_TEXT = {"", "nan", "null", "na", "n/a", "none", "--", "-", "...", "inf?"}
 
 
-def _text_to_float(values, colname: str, role: str) -> tuple[np.ndarray, np.ndarray]:
-    """Text column -> float, empty-like entries missing; any other non-number is an error."""
-    arr = np.asarray(values).astype(str)
-    uniq, inv = np.unique(np.char.strip(arr), return_inverse=True)
+#: A text column is the wrong type (an error for the whole column) when at least this fraction of
+#: its non-empty entries are not numbers; below it, the few words are bad rows (``NOT_A_NUMBER``).
+WORDS_WRONG_TYPE = 0.5
+
+
+def _text_to_float(values, colname: str, role: str):
+    """Text column -> (float values, missing mask, word mask, unique words and their inverse).
+
+    Empty-like entries are missing; other entries that are not numbers are *words*: bad rows when
+    they are a minority of the non-empty entries, the wrong column type (an error) otherwise.
+    Works on the distinct strings only.
+    """
+    arr = np.asarray(values, dtype=object)
+    uniq, inv = np.unique(arr, return_inverse=True)
+    inv = inv.reshape(-1)
     out = np.empty(len(uniq))
     missing = np.zeros(len(uniq), dtype=bool)
-    for i, text in enumerate(uniq):   # loop over distinct strings only
+    word = np.zeros(len(uniq), dtype=bool)
+    for i, raw in enumerate(uniq):   # loop over distinct strings only
+        text = str(raw).strip()
         if text.lower() in _NULL_TEXT:
             out[i] = np.nan
             missing[i] = True
@@ -66,10 +82,20 @@ def _text_to_float(values, colname: str, role: str) -> tuple[np.ndarray, np.ndar
         try:
             out[i] = float(text)
         except ValueError:
-            row = int(np.flatnonzero(inv == i)[0])
-            raise HrstageInputError(f"column {colname} (role {role}) holds text {str(text)!r} at row {row}; "
-                                    "expected a number") from None
-    return out[inv], missing[inv]
+            out[i] = np.nan
+            word[i] = True
+    row_word = word[inv]
+    if row_word.any():
+        counts = np.bincount(inv, minlength=len(uniq))
+        n_words = int(counts[word].sum())
+        n_filled = int(counts[~missing].sum())
+        if n_words >= WORDS_WRONG_TYPE * n_filled:
+            first = int(np.flatnonzero(row_word)[0])
+            raise HrstageInputError(
+                f"column {colname} (role {role}) is text, not numbers: {n_words} of its {n_filled} non-empty "
+                f"entries are not numbers (first {str(arr[first])[:40]!r} at row {first}); map another column "
+                f"to {role} or fix the column")
+    return out[inv], missing[inv], row_word, arr
 
 
 def _convert_unit(values: np.ndarray, unit, colname: str, role: str) -> np.ndarray:
@@ -92,20 +118,33 @@ def _convert_unit(values: np.ndarray, unit, colname: str, role: str) -> np.ndarr
                                 f"expected {target}") from None
 
 
-def column_values(col, role: str) -> tuple[np.ndarray, np.ndarray]:
-    """One column -> (float64 values in the role's unit with NaN for unusable, status codes)."""
+def column_values(col, role: str, words: dict | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """One column -> (float64 values in the role's unit with NaN for unusable, status codes).
+
+    ``words``, when given, receives ``{role: object array}`` with the offending text of the rows
+    whose status is ``NOT_A_NUMBER`` (empty string elsewhere), for the row's reason.
+    """
     name = getattr(getattr(col, "info", None), "name", role)
     mask = np.ma.getmaskarray(col) if np.ma.isMaskedArray(col) or hasattr(col, "mask") else None
     raw = np.ma.getdata(col)
     status = np.zeros(len(raw), dtype=np.int8)
     if raw.ndim != 1:
         raise HrstageInputError(f"column {name} (role {role}) holds arrays, expected one number per row")
-    if raw.dtype.kind in "US":
-        vals, txt_missing = _text_to_float(raw, name, role)
+    if raw.dtype.kind in "USO":
+        if raw.dtype.kind == "S":
+            raw = np.char.decode(raw, "utf-8", errors="replace")
+        obj = raw.astype(object)
+        if raw.dtype.kind == "O":
+            obj[np.equal(obj, None)] = ""
+        if mask is not None:
+            obj[mask] = ""
+        vals, txt_missing, is_word, texts = _text_to_float(obj, name, role)
         status[txt_missing] = MISSING
-    elif raw.dtype.kind == "O":
-        vals, txt_missing = _text_to_float(np.array([("" if v is None else str(v)) for v in raw]), name, role)
-        status[txt_missing] = MISSING
+        status[is_word] = NOT_A_NUMBER
+        if words is not None and is_word.any():
+            w = np.full(len(raw), "", dtype=object)
+            w[is_word] = texts[is_word]
+            words[role] = w
     elif raw.dtype.kind in "biuf":
         vals = raw.astype(np.float64)
     else:
@@ -159,24 +198,32 @@ def check_scale(role: str, vals: np.ndarray, colname: str) -> None:
 
 
 def text_values(col) -> np.ndarray:
-    """A text role (sptype, id) -> str array, masked and null entries as ''."""
+    """A text role (sptype, id) -> object array of str, masked and null entries as ''.
+
+    Object, not fixed width: one very long entry must not make every row as wide.
+    """
     data = np.ma.getdata(col)
     if data.dtype.kind == "S":
         data = np.char.decode(data, "utf-8", errors="replace")
-    out = np.asarray(data).astype(str)
+    out = np.asarray(data).astype(object)
+    if data.dtype.kind not in "UO":
+        out = np.asarray(data).astype(str).astype(object)
+    if data.dtype.kind == "O":
+        out[np.equal(out, None)] = ""
     if np.ma.isMaskedArray(col) or hasattr(col, "mask"):
         m = np.ma.getmaskarray(col)
         if m.any():
-            out = np.where(m, "", out)
+            out[m] = ""
     return out
 
 
-def extract_roles(table, mapping) -> tuple[dict, dict]:
+def extract_roles(table, mapping, words: dict | None = None) -> tuple[dict, dict]:
     """All mapped roles of ``table`` -> (values, status) dictionaries keyed by role.
 
     Numeric roles give float64 arrays in canonical units (NaN = unusable) and int8 status arrays;
     text roles (``sptype``, ``id``) give str arrays and no status. ``bp`` and ``rp`` together
-    provide ``bp_rp`` when it is not mapped.
+    provide ``bp_rp`` when it is not mapped. ``words`` (optional dict) receives, per role, the
+    text of entries that are not numbers (see :func:`column_values`).
     """
     values, status = {}, {}
     for role, colname in mapping.roles.items():
@@ -184,7 +231,7 @@ def extract_roles(table, mapping) -> tuple[dict, dict]:
         if ROLES[role].kind == "text":
             values[role] = text_values(col)
             continue
-        vals, st = column_values(col, role)
+        vals, st = column_values(col, role, words)
         values[role], status[role] = vals, st
     if "bp_rp" not in values and "bp" in values and "rp" in values:
         values["bp_rp"] = values["bp"] - values["rp"]

@@ -70,11 +70,13 @@ def write_figure(ax_or_fig, path, *, overwrite=False, dpi=200):
     metadata = {"png": {"Software": f"hrstage {__version__}"},
                 "pdf": {"Creator": f"hrstage {__version__}", "CreationDate": None},
                 "svg": {"Creator": f"hrstage {__version__}", "Date": None}}[fmt]
+    from ..catalog.atomic import output_mode
+
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=parent)
     try:
         with os.fdopen(fd, "wb") as fh:
             fig.savefig(fh, format=fmt, dpi=dpi, metadata=metadata)
-        os.chmod(tmp, (path.stat().st_mode & 0o7777) if path.exists() else 0o644)
+        os.chmod(tmp, output_mode(path))
         os.replace(tmp, path)
     except BaseException:
         try:

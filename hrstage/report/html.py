@@ -431,11 +431,13 @@ def write_report(table, path, *, title="hrstage stage report", settings=None, st
     if path.exists() and not overwrite:
         raise HrstageInputError(f"{path} exists; pass overwrite=True to replace it")
     text = render_report(table, title=title, settings=settings, stage_map=stage_map, **options)
+    from ..catalog.atomic import output_mode
+
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=parent)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(text)
-        os.chmod(tmp, (path.stat().st_mode & 0o7777) if path.exists() else 0o644)
+        os.chmod(tmp, output_mode(path))
         os.replace(tmp, path)
     except BaseException:
         try:

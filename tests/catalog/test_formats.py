@@ -43,7 +43,8 @@ def assert_same_values(a, b, fmt):
             np.testing.assert_array_equal(np.ma.filled(b[name].astype(float), np.nan), x, err_msg=name)
         else:
             assert list(x) == list(y), name
-        kind_in, kind_out = x.dtype.kind, y.dtype.kind
+        # text may come back as fixed-width str ("U") or as Python strings ("O"): both are text
+        kind_in, kind_out = (("U" if a.dtype.kind == "O" else a.dtype.kind) for a in (x, y))
         assert kind_in == kind_out, (fmt, name, x.dtype, y.dtype)
         if fmt in ("fits", "votable", "ecsv", "parquet"):
             # widths kept too (CSV keeps only the kind: it has no type widths)
@@ -194,3 +195,27 @@ def test_fits_restores_units_astropy_cannot_write(tmp_path):
     t["logl"].unit = u.dex(u.solLum)
     write_table(t, tmp_path / "l.fits")
     assert read_table(tmp_path / "l.fits")["logl"].unit == u.dex(u.solLum)
+
+
+@pytest.mark.parametrize("fmt", FORMATS)
+def test_output_mode_follows_umask_not_tempfile(tmp_path, fmt):
+    """A new output gets 0o666 minus the umask, as open(path, 'w') would (POSIX open(2), common
+    practice), not the 0o600 of a temporary file; a replaced output keeps its own mode."""
+    import os
+
+    from hrstage.catalog import ChunkWriter
+
+    old = os.umask(0o027)
+    try:
+        path = tmp_path / f"new{SUFFIX[fmt]}"
+        write_table(sample_table(), path)
+        assert path.stat().st_mode & 0o777 == 0o640
+        streamed = tmp_path / f"streamed{SUFFIX[fmt]}"
+        with ChunkWriter(streamed) as w:
+            w.write(sample_table())
+        assert streamed.stat().st_mode & 0o777 == 0o640
+        os.chmod(path, 0o604)
+        write_table(sample_table(), path, overwrite=True)
+        assert path.stat().st_mode & 0o777 == 0o604
+    finally:
+        os.umask(old)

@@ -9,7 +9,7 @@ from astropy import units as u
 from astropy.table import MaskedColumn, Table
 
 from hrstage.catalog import MISSING, NONPHYSICAL, OK, SENTINEL, detect_profile, extract_roles
-from hrstage.catalog.sanity import column_values
+from hrstage.catalog.sanity import NOT_A_NUMBER, column_values
 from hrstage.errors import HrstageInputError
 
 
@@ -54,8 +54,15 @@ def test_fill_values_and_masks():
 def test_text_in_numeric_column():
     vals, st = column_values(MaskedColumn(["5000", " ", "nan", "6000.5"], name="T"), "teff")
     assert list(st) == [OK, MISSING, MISSING, OK] and vals[3] == 6000.5
-    with pytest.raises(HrstageInputError, match=r"column T \(role teff\) holds text 'hot' at row 2"):
-        column_values(MaskedColumn(["5000", "6000", "hot"], name="T"), "teff")
+    # a few words among numbers: bad rows, with the word kept for the row's reason
+    words = {}
+    vals, st = column_values(MaskedColumn(["5000", "6000", "hot", "", "7000"], name="T"), "teff", words)
+    assert list(st) == [OK, OK, NOT_A_NUMBER, MISSING, OK] and np.isnan(vals[2])
+    assert list(words["teff"]) == ["", "", "hot", "", ""]
+    # mostly words (at least half of the non-empty entries): the wrong column, an error
+    with pytest.raises(HrstageInputError, match=r"column T \(role teff\) is text, not numbers: 2 of its 3 .*"
+                       r"'hot' at row 1"):
+        column_values(MaskedColumn(["5000", "hot", "warm", ""], name="T"), "teff")
 
 
 def test_log_teff_given_as_teff():

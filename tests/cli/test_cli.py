@@ -162,6 +162,13 @@ def test_demo(tmp_path, capsys):
     code, text, err = run(capsys, "demo", "--out", str(out), "--draws", "16")
     assert code == 0, err
     assert {p.name for p in out.iterdir()} == {"demo_tagged.ecsv", "hr_diagram.png", "report.html"}
+    # data, figure and report get the mode of a normal new file (0o666 minus the umask; POSIX
+    # open(2), common practice), not the 0o600 of a temporary file
+    import os
+
+    mask = os.umask(0)
+    os.umask(mask)
+    assert {p.stat().st_mode & 0o777 for p in out.iterdir()} == {0o666 & ~mask}
     assert "no real stars" in text and text.strip().splitlines()[-1].startswith("Labels are indicative")
     tagged = read_table(out / "demo_tagged.ecsv")
     assert len(tagged) == 3000 and str(tagged["target_id"][0]).startswith("KDF-")

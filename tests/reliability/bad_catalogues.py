@@ -155,7 +155,9 @@ def csv_text_in_numbers(path: Path) -> tuple[Path, list[str]]:
     rows, expect = [], []
     junk = {2: ("teff", "hot"), 5: ("lum", "bright"), 7: ("lum", "1.2.3"), 9: ("teff", "5e3K")}
     for i in range(12):
-        teff, lum = 4000.0 + 250 * i, 0.5 * (i + 1)
+        # dwarfs near the main sequence, L ~ (Teff / 5772 K)^6 (a rough K-F dwarf trend, common practice)
+        teff = 4000.0 + 250 * i
+        lum = round((teff / 5772.0) ** 6, 4)
         if i in junk:
             col, word = junk[i]
             teff, lum = (word, lum) if col == "teff" else (teff, word)
