@@ -308,7 +308,7 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--no-type-check", action="store_true", help="do not check MK spectral types")
     c.add_argument("-q", "--quiet", action="store_true", help="no summary, no progress bar")
     _add_column_options(c)
-    _add_model_options(c)
+    _add_model_options(c, draws_default=128)
     c.set_defaults(func=cmd_classify)
 
     pl = sub.add_parser("plot", help="draw the HR diagram of a catalogue",
