@@ -713,15 +713,20 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     flags[b] |= F.POSSIBLE_BINARY
 
     def bin_text(ii):
+        # height above the upper edge as the band is built (nearest crossing below, per column)
         gap = np.empty(len(ii))
         gi_ = group[ii]
         for g, sm in enumerate(maps):
             s = gi_ == g
             if s.any():
-                gap[s] = logl[ii[s]] - sm._ms_top_at(logt[ii[s]])
-        return format_rows(lambda h, ms: f"possible unresolved binary: {h:.2f} dex above the main-sequence upper "
-                                         "edge" + (" (or a subgiant)" if ms else ""),
-                           len(ii), (gap, ".2f"), (code[ii] == MAIN_SEQUENCE, None))
+                gap[s] = sm.binary_band_height(logt[ii[s]], logl[ii[s]])
+
+        def fmt(h, ms):
+            where = ("on the main-sequence upper edge" if h == 0.0 or not np.isfinite(h)
+                     else f"{h:.2f} dex above the main-sequence upper edge")
+            return "possible unresolved binary: " + where + (" (or a subgiant)" if ms else "")
+
+        return format_rows(fmt, len(ii), (gap, ".2f"), (code[ii] == MAIN_SEQUENCE, None))
 
     note("2bin", b, bin_text)
     ex = (rawc & RAW_EXTRAPOLATED) != 0

@@ -434,6 +434,52 @@ class StageMap:
         """Mass estimate (Msun) of the cell each position falls in, by its stage's method."""
         return self.mass_lookup(logt, logl).astype(float)
 
+    @functools.cached_property
+    def _ms_top_columns(self):
+        """Crossings of the main-sequence upper edge with the vertical line through the centre of
+        every raster column: (nx, K) log L values, ascending, NaN-padded.
+
+        The upper edge is not a function of log Teff: it turns back to cooler Teff above ~20 Msun
+        and folds where the low-mass edge is moved to the cool side, so a vertical line can cross
+        it two or three times. The unresolved-binary band is the edge shifted up by
+        ``binary_offset`` and filled by cell centres, so a cell is in the band exactly when one
+        crossing lies at most ``binary_offset`` below its centre.
+        """
+        ut, ul = self._ms_top
+        tc, _ = self.grid.centres()
+        xa, xb, ya, yb = ut[:-1], ut[1:], ul[:-1], ul[1:]
+        lo, hi = np.minimum(xa, xb), np.maximum(xa, xb)
+        # half-open in log T so that a vertex shared by two segments is counted once
+        hit = (tc[:, None] >= lo[None, :]) & (tc[:, None] < hi[None, :])
+        f = (tc[:, None] - xa[None, :]) / np.where(xb != xa, xb - xa, np.inf)[None, :]
+        cross = np.where(hit, ya[None, :] + f * (yb - ya)[None, :], np.nan)
+        cross.sort(axis=1)  # NaN last
+        k = max(1, int(hit.sum(axis=1).max()))
+        return cross[:, :k]
+
+    def binary_band_height(self, logt, logl) -> np.ndarray:
+        """Height (dex) of positions above the main-sequence upper edge, measured as the
+        unresolved-binary band is built.
+
+        For each position: log L minus the nearest crossing of the upper edge that lies below it
+        on the vertical line through the centre of its raster column (the band is filled by cell
+        centres, so a crossing up to one cell above the position counts, and the height is then
+        0). NaN where no crossing of that column lies below. Positions in the band
+        (``RAW_BINARY``) get 0 .. ``binary_offset`` (plus up to one cell).
+        """
+        logt = np.asarray(logt, dtype=float)
+        logl = np.asarray(logl, dtype=float)
+        cols = self._ms_top_columns
+        g = self.grid
+        i = np.floor((logt - g.t0) / g.dt)
+        ok = np.isfinite(i) & (i >= 0) & (i < g.nx)
+        ic = np.where(ok, i, 0).astype(np.intp)
+        h = logl[..., None] - cols[ic]
+        h = np.where(h >= -g.dl, h, np.inf)  # crossings above the position (beyond a cell) do not count
+        h = np.min(h, axis=-1, initial=np.inf)
+        h = np.where(ok & np.isfinite(h), np.maximum(h, 0.0), np.nan)
+        return h
+
     def ms_mass_from_logt(self, logt) -> np.ndarray:
         """ZAMS mass (Msun) of the same Teff (NaN outside the 0.1-100 Msun ZAMS)."""
         return 10.0 ** self._logm_of_logt(logt)

@@ -135,6 +135,70 @@ def test_binary_band_flag_not_promoted():
     assert "dex above the main-sequence upper edge" in r.flag_text[0]
 
 
+def _edge_crossings(curve_t, curve_l, t):
+    """Crossings of a polyline with the vertical line log T = t, one segment at a time (test-side)."""
+    out = []
+    for xa, xb, ya, yb in zip(curve_t[:-1], curve_t[1:], curve_l[:-1], curve_l[1:]):
+        if min(xa, xb) <= t < max(xa, xb):
+            out.append(ya + (t - xa) / (xb - xa) * (yb - ya))
+    return sorted(out)
+
+
+def test_binary_band_height_is_the_geometric_offset():
+    # internal geometry: the height above the upper edge is the offset from the nearest crossing
+    # below, on the vertical line through the star's raster column (the band is that edge
+    # shifted up by binary_offset); constructed points at column centres, including log Teff
+    # 4.40, where the edge crosses the vertical twice (TAMS turning cooler above ~20 Msun).
+    import re
+
+    from hrstage.stagemap import RAW_BINARY, stage_map
+
+    sm = stage_map(0.0)
+    ut, ul = sm.curves["ms_upper"].logt, sm.curves["ms_upper"].logl
+    g = sm.grid
+    checked = 0
+    for teff in (4500.0, 6000.0, 9000.0, 25000.0):
+        i = int((np.log10(teff) - g.t0) / g.dt)
+        t = g.t0 + (i + 0.5) * g.dt
+        cr = _edge_crossings(ut, ul, t)
+        assert cr
+        for c in cr:
+            for h in (0.05, 0.12, 0.25):
+                if any(c < o < c + h + 0.01 for o in cr):
+                    continue  # another crossing in between: the nearest one below is not c
+                if not sm.locate_raw([t], [c + h])[0] & RAW_BINARY:
+                    continue
+                got = sm.binary_band_height([t], [c + h])[0]
+                assert got == pytest.approx(h, abs=1e-9)
+                r = classify_hr(t, c + h, feh=0.0)
+                m = re.search(r"possible unresolved binary: (-?[0-9.]+) dex above", r.flag_text[0])
+                assert m and float(m.group(1)) == pytest.approx(h, abs=0.005)
+                checked += 1
+    assert checked >= 8
+    assert len(_edge_crossings(ut, ul, np.log10(25000.0))) >= 2
+
+
+def test_binary_band_reasons_never_negative():
+    # before: "-0.15 dex above the upper edge" (the text used an interpolation of the edge in
+    # log Teff, which is not a function there). Every band star now reads 0 .. offset (+1 cell).
+    import re
+
+    rng = np.random.default_rng(11)
+    t = rng.uniform(3.40, 4.70, 200_000)
+    l = rng.uniform(-3.0, 6.5, 200_000)
+    r = classify_hr(t, l, feh=0.0)
+    b = (r.flags & F.POSSIBLE_BINARY) != 0
+    assert b.sum() > 500
+    hs = []
+    for text in r.flag_text[b]:
+        m = re.search(r"possible unresolved binary: (?:(-?[0-9.]+) dex above|on) the main-sequence upper edge", text)
+        assert m, text
+        hs.append(float(m.group(1)) if m.group(1) else 0.0)
+    hs = np.array(hs)
+    assert hs.min() >= 0.0 and hs.max() <= 0.30 + 0.01
+    assert "-0.00" not in " ".join(r.flag_text[b])
+
+
 def test_to_columns_names():
     r = classify_hr([LOG_TSUN], [0.0], logt_err=0.01, logl_err=0.05, n_draws=32)
     cols = r.to_columns()
