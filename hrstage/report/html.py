@@ -38,7 +38,10 @@ INFORMATIONAL_BITS = F.NO_METALLICITY | F.NO_EXTINCTION
 
 _ID_CANDIDATES = ("id", "name", "star", "star_id", "source_id", "designation", "objid", "hip", "kic", "tic")
 _SPTYPE_CANDIDATES = ("sptype", "sp_type", "spt", "spectral_type", "mk_type", "spectype")
-_CONFLICTS = ("lumclass_conflict", "tclass_conflict")
+def _is_conflict(verdict):
+    """Every conflict verdict of hrstage.sptype ends in '_conflict' (lumclass, tclass, both, stage)."""
+    return np.array([str(v).endswith("_conflict") for v in verdict], dtype=bool)
+
 
 _FLAG_NAMES = {
     getattr(F, n): n for n in dir(F) if n.isupper() and isinstance(getattr(F, n), int) and getattr(F, n) in F.DESCRIPTIONS
@@ -371,16 +374,17 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
         parts.append('<section id="sptype"><h2>Catalogued MK types against the HR position</h2>')
         parts.append(_table(["Verdict", "Stars"], [[f"<code>{esc(k or '(none)')}</code>", str(v)] for k, v in sorted(kinds.items())],
                             table_id="sptype-verdicts", num_cols=(1,)))
-        bad = np.flatnonzero(np.isin(verdict, _CONFLICTS))
+        bad = np.flatnonzero(_is_conflict(verdict))
+        why = _text_column(table, "sptype_reason") if "sptype_reason" in table.colnames else None
         if bad.size:
             rows = []
             for i in bad[:max_rows]:
                 rows.append([str(i), esc(ids[i]), esc(raw[i]) if raw is not None else "",
                              esc(parsed[i]) if parsed is not None else "", f"<code>{esc(verdict[i])}</code>",
                              esc(sugg[i]) if sugg is not None else "", _fmt(nsig[i], 1) if nsig is not None else "",
-                             esc(stage[i])])
+                             esc(stage[i]), esc(why[i]) if why is not None else ""])
             parts.append(_table(["Row", "Star", "Catalogued type", "Read as", "Verdict", "Suggested class", "n sigma",
-                                 "HR stage"], rows, table_id="sptype-conflicts", num_cols=(0, 6)))
+                                 "HR stage", "Why"], rows, table_id="sptype-conflicts", num_cols=(0, 6)))
             parts.append(_more_line(bad.size - min(bad.size, max_rows), "spectral-type conflicts"))
         else:
             parts.append("<p>No catalogued type conflicts with the HR position.</p>")

@@ -249,3 +249,20 @@ def test_id_and_type_columns_from_the_pipeline_mapping():
     assert "Synth-01" in flagged_ids
     conflict_rows = p.tables["sptype-conflicts"]["tbody"]
     assert any("K0 III" in cell for row in conflict_rows for cell in row)
+
+
+def test_every_conflict_verdict_is_listed():
+    """All conflict verdicts of the MK check (luminosity class, temperature class, both, and the
+    stage conflict of white dwarfs / subdwarfs / WR stars) appear in the conflicts table, with the
+    check's reason text."""
+    t = synthetic_table()
+    verdict = np.array(t["sptype_verdict"], dtype=object)
+    verdict[12] = "stage_conflict"
+    verdict[13] = "tclass_and_lumclass_conflict"
+    t["sptype_verdict"] = verdict.astype(str)
+    t["sptype_reason"] = ["typed DA but the HR position is main_sequence" if i == 12 else "" for i in range(len(t))]
+    p = parse(render_report(t, figure=False, generated_at=WHEN))
+    rows = p.tables["sptype-conflicts"]["tbody"]
+    listed = {row[0] for row in rows}
+    assert {"3", "4", "25", "6", "12", "13"} <= listed
+    assert any("typed DA but the HR position is main_sequence" in cell for row in rows for cell in row)
