@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 from ..errors import HrstageInputError
@@ -70,18 +68,10 @@ def write_figure(ax_or_fig, path, *, overwrite=False, dpi=200):
     metadata = {"png": {"Software": f"hrstage {__version__}"},
                 "pdf": {"Creator": f"hrstage {__version__}", "CreationDate": None},
                 "svg": {"Creator": f"hrstage {__version__}", "Date": None}}[fmt]
-    from ..catalog.atomic import output_mode
+    from ..catalog.atomic import atomic_output
 
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
+    # temporary file beside the target, renamed when complete (the catalogue writer's mechanism)
+    with atomic_output(path, overwrite=overwrite) as tmp:
+        with open(tmp, "wb") as fh:
             fig.savefig(fh, format=fmt, dpi=dpi, metadata=metadata)
-        os.chmod(tmp, output_mode(path))
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
     return path

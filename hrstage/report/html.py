@@ -16,9 +16,7 @@ import base64
 import datetime as _dt
 import html
 import io
-import os
 import platform
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -435,18 +433,9 @@ def write_report(table, path, *, title="hrstage stage report", settings=None, st
     if path.exists() and not overwrite:
         raise HrstageInputError(f"{path} exists; pass overwrite=True to replace it")
     text = render_report(table, title=title, settings=settings, stage_map=stage_map, **options)
-    from ..catalog.atomic import output_mode
+    from ..catalog.atomic import atomic_output
 
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+    with atomic_output(path, overwrite=overwrite) as tmp:
+        with open(tmp, "w", encoding="utf-8") as fh:
             fh.write(text)
-        os.chmod(tmp, output_mode(path))
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
     return path
