@@ -250,6 +250,8 @@ _SHIFTS = (8 * np.arange(8)).astype(np.uint64)
 
 #: side (cells) of the blocks of the region-uniform raster used to skip draws
 UNIFORM_BLOCK = 16
+#: side (cells) of the tiles whose stars are drawn together (memory locality of the gathers)
+MC_TILE = 64
 
 
 def _uniform_tables(sm):
@@ -283,13 +285,17 @@ def _uniform_boxes(sm, xc, yc, ex, ey):
     of the box that holds every draw (from the extreme values of the common random numbers), so
     that a skipped star gets exactly the counts the draws would give.
     """
+    return _uniform_range(sm, xc - ex, xc + ex, yc - ey, yc + ey)
+
+
+def _uniform_range(sm, x0, x1, y0, y1):
+    """Stage code of stars whose box ``[x0, x1] x [y0, y1]`` (unpadded fractional cells) lies in
+    blocks of a single stage, -1 for the others; and whether the box lies inside the raster."""
     bcode, sat, by, bx = _uniform_tables(sm)
     g = sm.grid
     k = UNIFORM_BLOCK
-    x0, x1 = xc - ex, xc + ex
-    y0, y1 = yc - ey, yc + ey
     inside = (x0 >= 0) & (y0 >= 0) & (x1 < g.nx) & (y1 < g.ny)
-    out = np.full(len(xc), -1, dtype=np.int8)
+    out = np.full(len(x0), -1, dtype=np.int8)
     if not inside.any():
         return out, inside
     i = np.nonzero(inside)[0]
@@ -308,14 +314,52 @@ def _uniform_boxes(sm, xc, yc, ex, ey):
     return out, inside
 
 
+def _hull(z1, z2):
+    """Vertices of the convex hull of the points (z1_k, z2_k) (monotone chain; a handful of the
+    draws), as float64 arrays: the extreme of any linear combination a z1 + b z2 over the draws
+    is reached at one of them."""
+    pts = sorted(set(zip(np.asarray(z1, float).tolist(), np.asarray(z2, float).tolist())))
+    if len(pts) <= 2:
+        a = np.array(pts, dtype=float).reshape(-1, 2)
+        return a[:, 0], a[:, 1]
+
+    def half(seq):
+        h = []
+        for p in seq:
+            while len(h) >= 2 and ((h[-1][0] - h[-2][0]) * (p[1] - h[-2][1])
+                                   - (h[-1][1] - h[-2][1]) * (p[0] - h[-2][0])) <= 0:
+                h.pop()
+            h.append(p)
+        return h[:-1]
+
+    v = np.array(half(pts) + half(pts[::-1]), dtype=float)
+    return v[:, 0], v[:, 1]
+
+
+def _y_extent(a, b, z1, z2):
+    """Per star, (min, max) over the draws of ``a z1 + b z2`` (exact, from the hull vertices)."""
+    h1, h2 = _hull(z1, z2)
+    lo = np.full(len(a), np.inf)
+    hi = np.full(len(a), -np.inf)
+    v = np.empty(len(a))
+    for p, q in zip(h1.tolist(), h2.tolist()):
+        np.multiply(a, p, out=v)
+        v += b * q
+        np.minimum(lo, v, out=lo)
+        np.maximum(hi, v, out=hi)
+    return lo, hi
+
+
 def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 16):
     """Counts per stage (N, N_STAGES) of the draws, common random numbers z1, z2.
 
-    Stars whose whole draw box (the extreme z1, z2 of the call scaled by their errors) lies in
-    blocks of a single stage get all draws in that stage without drawing (exact). The others are
-    drawn in chunks of about ``chunk`` star-draws in float32 index arithmetic on the flattened
-    stage raster; the stages are counted with a packed one-hot table (8 bits per stage, at most
-    255 draws per pass) summed over the draws of each star.
+    Stars whose whole draw box (the exact range of their drawn positions, from the extreme z1 and
+    the hull of (z1, z2), plus one cell) lies in blocks of a single stage get all draws in that
+    stage without drawing (exact). The others are drawn, in the order of their raster cell (so
+    that neighbouring stars read neighbouring memory; the counts do not depend on the order), in
+    chunks of about ``chunk`` star-draws in float32 index arithmetic on the flattened stage
+    raster; the stages are counted with a packed one-hot table (8 bits per stage, at most 255
+    draws per pass) summed over the draws of each star.
     """
     lk = sm.codes
     n, d = len(logt), len(z1)
@@ -327,52 +371,77 @@ def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 16):
     sx = st * lk.inv_dt
     sya = sl * rho * lk.inv_dl
     syb = sl * np.sqrt(np.clip(1 - rho * rho, 0, 1)) * lk.inv_dl
-    z1m = float(np.max(np.abs(z1)))
-    z2m = float(np.max(np.abs(z2)))
-    ex = sx * z1m + 1.0  # one cell of slack for float32 rounding of the drawn positions
-    ey = np.abs(sya) * z1m + syb * z2m + 1.0
-    uni, inside = _uniform_boxes(sm, xc, yc, ex, ey)
+    # one cell of slack for the float32 rounding of the drawn positions
+    zlo, zhi = float(np.min(z1)), float(np.max(z1))
+    ylo, yhi = _y_extent(sya, syb, z1, z2)
+    uni, inside = _uniform_range(sm, xc + sx * zlo - 1.0, xc + sx * zhi + 1.0, yc + ylo - 1.0, yc + yhi + 1.0)
     done = uni >= 0
     counts[np.nonzero(done)[0], uni[done].astype(np.intp)] = d
     # boxes inside the raster need no clipping of the drawn positions
     for todo, clip in ((np.nonzero(~done & inside)[0], False), (np.nonzero(~done & ~inside)[0], True)):
         if len(todo):
+            # tiles of MC_TILE x MC_TILE cells, row by row
+            ty, tx = np.floor(yc[todo] / MC_TILE), np.floor(xc[todo] / MC_TILE)
+            key = ty * (lk.width // MC_TILE + 2) + tx
+            todo = todo[np.argsort(key, kind="stable")]
             _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip)
     return counts
 
 
 def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
-    """Counts of the drawn stars ``todo`` (see :func:`_mc_counts`), written into ``counts``."""
+    """Counts of the drawn stars ``todo`` (see :func:`_mc_counts`), written into ``counts``.
+
+    Every pass writes into buffers allocated once (no fresh arrays per chunk: large temporaries
+    cost page faults); the float32 operations and their order are those of the drawing scheme,
+    so the drawn cells do not depend on the chunking.
+    """
     f32 = np.float32
     d = len(z1)
     xmax, ymax = f32(lk.xmax), f32(lk.ymax)
     w = np.int32(lk.width)
     flat = lk.flat
     rows = max(1, chunk // d)
-    xp = (xc[todo] + 1.0).astype(f32)  # padded coordinates
-    yp = (yc[todo] + 1.0).astype(f32)
-    sxt, syat, sybt = sx[todo].astype(f32), sya[todo].astype(f32), syb[todo].astype(f32)
+    xp = (xc[todo] + 1.0).astype(f32)[:, None]  # padded coordinates
+    yp = (yc[todo] + 1.0).astype(f32)[:, None]
+    sxt, syat, sybt = sx[todo].astype(f32)[:, None], sya[todo].astype(f32)[:, None], syb[todo].astype(f32)[:, None]
+    nb = min(d, 255)
+    bx = np.empty((rows, nb), f32)
+    by = np.empty((rows, nb), f32)
+    bt = np.empty((rows, nb), f32)
+    bi = np.empty((rows, nb), np.int32)
+    bj = np.empty((rows, nb), np.int32)
+    bc = np.empty((rows, nb), flat.dtype)
+    bp = np.empty((rows, nb), np.uint64)
+    acc = np.empty(rows, np.uint64)
     for s in range(0, len(todo), rows):
         e = min(len(todo), s + rows)
-        sub_total = np.zeros((e - s, 8), dtype=np.int64)
+        m = e - s
+        sub_total = np.zeros((m, 8), dtype=np.int64)
         for b in range(0, d, 255):
             zz1, zz2 = z1[None, b : b + 255], z2[None, b : b + 255]
-            x = sxt[s:e, None] * zz1
-            x += xp[s:e, None]
+            k = zz1.shape[1]
+            x, y, t = bx[:m, :k], by[:m, :k], bt[:m, :k]
+            i, j, c, pk, a = bi[:m, :k], bj[:m, :k], bc[:m, :k], bp[:m, :k], acc[:m]
+            np.multiply(sxt[s:e], zz1, out=x)
+            x += xp[s:e]
             if clip:  # fmax/fmin send NaN to the border as well (np.clip would keep it)
                 np.fmax(x, 0, out=x)
                 np.fmin(x, xmax, out=x)
-            y = syat[s:e, None] * zz1
-            y += sybt[s:e, None] * zz2
-            y += yp[s:e, None]
+            np.multiply(syat[s:e], zz1, out=y)
+            np.multiply(sybt[s:e], zz2, out=t)
+            y += t
+            y += yp[s:e]
             if clip:
                 np.fmax(y, 0, out=y)
                 np.fmin(y, ymax, out=y)
-            idx = y.astype(np.int32)
-            idx *= w
-            idx += x.astype(np.int32)
-            acc = _PACK.take(flat.take(idx)).sum(axis=1, dtype=np.uint64)
-            sub_total += ((acc[:, None] >> _SHIFTS[None, :]) & np.uint64(255)).astype(np.int64)
+            np.copyto(i, y, casting="unsafe")  # truncation (coordinates >= 0), as astype
+            i *= w
+            np.copyto(j, x, casting="unsafe")
+            i += j
+            flat.take(i, out=c, mode="clip")  # indices are inside (clip: no buffered bounds check)
+            _PACK.take(c, out=pk, mode="clip")
+            pk.sum(axis=1, dtype=np.uint64, out=a)
+            sub_total += ((a[:, None] >> _SHIFTS[None, :]) & np.uint64(255)).astype(np.int64)
         rr = todo[s:e]
         counts[rr, :8] = sub_total
         counts[rr, 8] = d - sub_total.sum(axis=1)
