@@ -49,13 +49,6 @@ _ROUTE_NEEDS = {
     "johnson": ("v", "b_v", "parallax"),
     "teff_logg": ("teff", "logg"),
 }
-_ROUTE_ERRS = {
-    "teff_lum": ("teff_err", "logl_err"),
-    "teff_radius": ("teff_err", "radius_err"),
-    "gaia": ("g_err", "bp_rp_err", "parallax_err"),
-    "johnson": ("v_err", "b_v_err", "parallax_err"),
-    "teff_logg": ("teff_err", "logg_err"),
-}
 _ROUTE_TEXT = {
     "teff_lum": "Teff and L", "teff_radius": "Teff and radius", "gaia": "Gaia G, BP-RP and parallax",
     "johnson": "V, B-V and parallax", "teff_logg": "Teff and log g",
@@ -360,6 +353,9 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     feh[no_feh] = 0.0 if opts.feh is None else opts.feh
     if opts.feh is None:
         in_flags[no_feh] |= F.NO_METALLICITY
+    # no [Fe/H] column: every row shares one value, passed as a scalar so that the classifier uses
+    # the map at exactly that [Fe/H] (arrays use the nearest grid map per row)
+    feh_clf = feh if "feh" in values else float(0.0 if opts.feh is None else opts.feh)
 
     pos, done, route_of, fail_flags = _positions(values, status, mapping, opts, feh, n)
 
@@ -384,19 +380,13 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
             text[rest] = F.describe_many(fail_flags[not_done[rest]])
         routes = " / ".join(_ROUTE_TEXT[r] for r in mapping.routes)
         reason[not_done] = f"unclassified: no HR position from {routes}: " + text
-    # values the used route reads (with their errors) that are missing: MISSING_INPUT
-    for k, route in enumerate(mapping.routes):
-        rows = route_of == k
-        if not rows.any():
-            continue
-        for role in _ROUTE_ERRS[route] + ("feh",):
-            if role in status and role in mapping.roles:
-                bad = rows & ((status[role] == MISSING) | (status[role] == SENTINEL))
-                in_flags[bad] |= F.MISSING_INPUT
+    # MISSING_INPUT only marks a value the row's route needs (the row is then unclassified, above);
+    # an optional input that is absent (errors, [Fe/H], MK type, mass) does not set it: [Fe/H] has
+    # NO_METALLICITY, missing errors give a point classification, a missing MK type is not checked.
 
     mass = values.get("mass")
     res = classify_hr(pos.logt, pos.logl, logt_err=_nan_none(pos.logt_err), logl_err=_nan_none(pos.logl_err),
-                      corr=pos.corr, feh=feh, mass=mass, n_draws=opts.n_draws,
+                      corr=pos.corr, feh=feh_clf, mass=mass, n_draws=opts.n_draws,
                       seed=_chunk_seed(opts.seed, offset), **opts.params)
     cols = dict(res.to_columns())
     cols["hr_source"] = _as_text(pos.source)
@@ -415,7 +405,7 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
         from .sptype import check_types
 
         chk = check_types(values["sptype"], pos.logt, pos.logl, logt_err=_nan_none(pos.logt_err),
-                          logl_err=_nan_none(pos.logl_err), feh=feh)
+                          logl_err=_nan_none(pos.logl_err), feh=feh_clf)
         cols.update(chk.to_columns())
         sp_flags = np.asarray(chk.flags, dtype=np.int64)
         parts.append(F.describe_many(sp_flags & ~flags_all))
@@ -624,9 +614,71 @@ def classify_table(table, **options):
     return classify_chunk(table, opts)
 
 
+def resolve_workers(workers) -> int:
+    """Number of worker processes for :func:`classify_file`: a positive integer, or ``"auto"`` for
+    the cores this process may run on (``os.sched_getaffinity`` where available)."""
+    import os
+
+    if isinstance(workers, str):
+        if workers.strip().lower() != "auto":
+            try:
+                workers = int(workers)
+            except ValueError:
+                raise HrstageInputError(f"workers must be a positive whole number or 'auto', got {workers!r}") from None
+        else:
+            try:
+                return max(1, len(os.sched_getaffinity(0)))
+            except AttributeError:  # pragma: no cover (macOS, Windows)
+                return max(1, os.cpu_count() or 1)
+    if workers is None:
+        return 1
+    if isinstance(workers, float) and not workers.is_integer():
+        raise HrstageInputError(f"workers must be a whole number, got {workers}")
+    workers = int(workers)
+    if workers < 1:
+        raise HrstageInputError(f"workers must be >= 1 (or 'auto'), got {workers}")
+    return workers
+
+
+#: What a worker process of :func:`classify_file` needs: (options, attrs), set by the pool initializer
+#: (inherited, not pickled, under the fork start method).
+_WORKER_STATE: tuple | None = None
+
+
+def _worker_init(opts, attrs):
+    global _WORKER_STATE
+    _WORKER_STATE = (opts, attrs)
+
+
+def _classify_one(chunk, opts, offset, attrs):
+    from .catalog.formats import describe_columns
+
+    res = classify_chunk(chunk, opts, offset=offset, attrs=attrs)
+    if attrs is None:
+        describe_columns(res, prefix=opts.prefix)
+    return res
+
+
+def _worker_task(chunk, offset):
+    opts, attrs = _WORKER_STATE
+    return _classify_one(chunk, opts, offset, attrs)
+
+
+def _pool_context():
+    """``fork`` where the platform has it (children inherit the stage maps already built, copy on
+    write), else ``spawn`` (each worker builds the maps it needs once)."""
+    import multiprocessing as mp
+
+    return mp.get_context("fork" if "fork" in mp.get_all_start_methods() else "spawn")
+
+
+def _rows_of(chunk) -> int:
+    return chunk.num_rows if _is_arrow(chunk) else len(chunk)
+
+
 def classify_file(input_path, output_path, *, chunk_rows: int | None = None, overwrite: bool = False,
                   progress: bool = False, input_format: str | None = None, output_format: str | None = None,
-                  **options) -> dict:
+                  workers=1, **options) -> dict:
     """Classify a catalogue file into a new file, chunk by chunk, atomically.
 
     Parameters
@@ -640,6 +692,12 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
         Replace an existing output.
     progress : bool
         Show a progress bar (tqdm) on standard error.
+    workers : int or "auto", default 1
+        Worker processes classifying chunks in parallel (``"auto"``: one per usable core). This
+        process reads, keeps the order and writes; at most two chunks per worker are in flight, so
+        memory grows with ``workers x chunk_rows``. The result is the same, byte for byte, as with
+        one process (the Monte Carlo stream of a chunk depends only on its first row's index). The
+        first chunk is classified here before the workers start, so they inherit its stage maps.
     **options
         As for :func:`classify_table`.
 
@@ -647,18 +705,21 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
     -------
     dict
         ``rows``, ``stages`` (count per stage), ``flagged`` (rows with a flag other than the
-        no-metallicity note), ``sptype_conflicts``, ``mapping`` (text), ``output``.
+        no-metallicity note), ``sptype_conflicts``, ``mapping`` (text), ``notes``, ``output``,
+        ``workers`` (processes used).
     """
+    from collections import deque
+
     from .catalog import DEFAULT_CHUNK_ROWS, ChunkWriter, count_rows, format_of, iter_chunks
-    from .catalog.streaming import iter_arrow_chunks
     from .catalog.atomic import check_output_path
-    from .catalog.formats import describe_columns
+    from .catalog.streaming import iter_arrow_chunks
 
     inp, out = Path(input_path), Path(output_path)
     in_fmt = format_of(inp, input_format)
     format_of(out, output_format)
     check_output_path(out, overwrite=overwrite, inputs=[inp])
     chunk_rows = DEFAULT_CHUNK_ROWS if chunk_rows is None else int(chunk_rows)
+    n_workers = resolve_workers(workers)
     opts = make_options(source=inp.name, **options)
     total = count_rows(inp, in_fmt)
     bar = None
@@ -667,38 +728,60 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
 
         bar = tqdm(total=total, unit="rows", unit_scale=True, desc=f"hrstage {inp.name}", leave=False)
     counts = np.zeros(len(STAGES), dtype=np.int64)
-    flagged = conflicts = rows = 0
+    tally = {"flagged": 0, "conflicts": 0, "rows": 0}
     quiet_bits = F.NO_METALLICITY | F.NO_EXTINCTION
     stage_code = {st: i for i, st in enumerate(STAGES)}
     if in_fmt in ("parquet", "csv"):        # Arrow end to end: no astropy Table per chunk
         attrs, chunks = iter_arrow_chunks(inp, chunk_rows, in_fmt)
     else:
         attrs, chunks = None, iter_chunks(inp, chunk_rows, in_fmt)
+    used = 1
+    pool = None
     try:
         with ChunkWriter(out, output_format, overwrite=overwrite, inputs=[inp]) as writer:
-            for chunk in chunks:
-                if opts.mapping is None:
-                    infos = _arrow_infos(chunk, attrs) if attrs is not None else infos_from_table(chunk)
-                    opts = resolve_options(infos, opts)
-                res = classify_chunk(chunk, opts, offset=rows, attrs=attrs)
-                if attrs is None:
-                    describe_columns(res, prefix=opts.prefix)
+
+            def take(res):
                 writer.write(res)
                 stage, fl = _chunk_counts(res, opts.prefix)
                 for name, c in zip(*stage):
                     counts[stage_code[name]] += c
-                flagged += int(((fl & ~quiet_bits) != 0).sum())
-                conflicts += int(((fl & F.SPTYPE_CONFLICT) != 0).sum())
-                n = res.num_rows if attrs is not None else len(res)
-                rows += n
+                tally["flagged"] += int(((fl & ~quiet_bits) != 0).sum())
+                tally["conflicts"] += int(((fl & F.SPTYPE_CONFLICT) != 0).sum())
+                n = _rows_of(res)
+                tally["rows"] += n
                 if bar is not None:
                     bar.update(n)
+
+            offset = 0
+            pending: deque = deque()
+            for chunk in chunks:
+                if opts.mapping is None:
+                    infos = _arrow_infos(chunk, attrs) if attrs is not None else infos_from_table(chunk)
+                    opts = resolve_options(infos, opts)
+                n = _rows_of(chunk)
+                if pool is None and (n_workers == 1 or offset == 0):
+                    take(_classify_one(chunk, opts, offset, attrs))   # here: builds the maps it needs
+                else:
+                    if pool is None:    # second chunk: start the workers, after the maps exist
+                        pool = _pool_context().Pool(n_workers, initializer=_worker_init, initargs=(opts, attrs))
+                        used = n_workers
+                    pending.append(pool.apply_async(_worker_task, (chunk, offset)))
+                    while len(pending) >= 2 * n_workers:
+                        take(pending.popleft().get())
+                offset += n
+                del chunk
+            while pending:
+                take(pending.popleft().get())
     finally:
+        if pool is not None:
+            pool.terminate()
+            pool.join()
         if bar is not None:
             bar.close()
-    return {"rows": rows, "stages": {s: int(c) for s, c in zip(STAGES, counts)}, "flagged": flagged,
-            "sptype_conflicts": conflicts, "mapping": opts.mapping.describe() if opts.mapping else "",
-            "notes": list(opts.mapping.notes) if opts.mapping else [], "output": str(out)}
+    return {"rows": tally["rows"], "stages": {s: int(c) for s, c in zip(STAGES, counts)},
+            "flagged": tally["flagged"], "sptype_conflicts": tally["conflicts"],
+            "mapping": opts.mapping.describe() if opts.mapping else "",
+            "notes": list(opts.mapping.notes) if opts.mapping else [], "output": str(out), "workers": used}
 
 
 def _chunk_counts(res, prefix):

@@ -168,3 +168,92 @@ def test_hipparcos_every_row_out(validation_file):
     assert unclassified.sum() < 0.05 * len(out)
     assert all(len(str(s)) > 0 for s in out["flag_text"][unclassified])
     assert sum(str(s).startswith("unclassified: no HR position") for s in out["flag_text"][unclassified]) > 0
+
+
+def test_masked_optional_inputs_do_not_set_missing_input():
+    # Sun-like dwarfs and a red giant (IAU 2015 B3: Teff_sun 5772 K, L = 1 Lsun; the 4700 K / 80 Lsun
+    # giant is common practice) with [Fe/H] and the MK type masked on some rows: those rows are
+    # classified, carry NO_METALLICITY (only where feh is masked) and never MISSING_INPUT, which
+    # is kept for values the row's route needs.
+    n = 24
+    teff = np.where(np.arange(n) % 3 == 1, 4700.0, 5772.0)
+    lum = np.where(np.arange(n) % 3 == 1, 80.0, 1.0)
+    feh_mask = np.arange(n) % 4 == 0
+    sp_mask = np.arange(n) % 5 == 0
+    t = Table({"teff": teff, "lum": lum,
+               "teff_err": MaskedColumn(np.full(n, 80.0), mask=np.arange(n) % 6 == 0),
+               "feh": MaskedColumn(np.full(n, -0.2), mask=feh_mask),
+               "sptype": MaskedColumn(np.where(teff > 5000, "G2V", "K3III"), mask=sp_mask)})
+    out = hrstage.classify(t)
+    flags = np.asarray(out["flags"], dtype=np.int64)
+    assert not np.any(out["stage"] == "unclassified")
+    assert not np.any(flags & F.MISSING_INPUT)
+    assert np.all(((flags & F.NO_METALLICITY) != 0) == feh_mask)
+    assert not any("required input" in str(s) for s in out["flag_text"])
+    assert set(out["stage"][teff > 5000]) == {"main_sequence"}
+    assert set(out["stage"][teff < 5000]) == {"giant"}
+    # a missing route value still does: teff masked -> unclassified with MISSING_INPUT
+    t["teff"] = MaskedColumn(teff, mask=np.arange(n) == 3)
+    out = hrstage.classify(t)
+    assert out["stage"][3] == "unclassified" and out["flags"][3] & F.MISSING_INPUT
+    assert not np.any(np.asarray(out["flags"])[np.arange(n) != 3] & F.MISSING_INPUT)
+
+
+def test_scalar_feh_uses_the_exact_map(tmp_path):
+    # no feh column and a default [Fe/H] of -1.35 (between grid points): every row shares it, so
+    # the classifier gets a scalar and the map at exactly -1.35 (not the nearest grid point)
+    t = Table({"teff": [5772.0, 4700.0, 6200.0], "lum": [1.0, 80.0, 2.0]})
+    out = hrstage.classify(t, feh=-1.35)
+    np.testing.assert_allclose(np.asarray(out["feh_used"], dtype=float), -1.35)
+    assert not np.any(np.asarray(out["flags"]) & F.NO_METALLICITY)
+    src = tmp_path / "in.parquet"
+    write_table(t, src)
+    classify_file(src, tmp_path / "out.parquet", feh=-1.35, chunk_rows=2)
+    back = read_table(tmp_path / "out.parquet")
+    np.testing.assert_allclose(np.asarray(back["feh_used"], dtype=float), -1.35)
+    # a feh column keeps per-row values (grid choice is the classifier's), the default fills gaps
+    t["feh"] = MaskedColumn([0.1, -0.4, 0.0], mask=[False, False, True])
+    out = hrstage.classify(t, feh=-1.35)
+    assert not np.any(np.asarray(out["flags"]) & F.NO_METALLICITY)
+    assert float(out["feh_used"][2]) != pytest.approx(0.0)
+
+
+def _mixed_population(n, seed=11):
+    """Invented stars over the whole diagram (dwarfs, giants, white dwarfs) with [Fe/H] and errors."""
+    rng = np.random.default_rng(seed)
+    teff = 10 ** rng.uniform(3.45, 4.6, n)
+    logl = rng.uniform(-3.5, 5.0, n)
+    feh = MaskedColumn(np.round(rng.uniform(-2.0, 0.4, n), 2), mask=rng.random(n) < 0.1)
+    return Table({"star_id": np.arange(n), "teff": teff, "teff_err": 0.02 * teff, "lum": 10 ** logl,
+                  "lum_err": 0.1 * 10 ** logl, "feh": feh})
+
+
+@pytest.mark.parametrize("suffix, out_suffix", [(".parquet", ".parquet"), (".ecsv", ".csv"), (".fits", ".parquet")])
+def test_workers_give_the_same_bytes(tmp_path, suffix, out_suffix):
+    # 2 worker processes: same file, byte for byte, as one process (order, Monte Carlo streams per
+    # chunk offset, metadata), over several chunks (CSV input reads blocks of >= 4 MiB, so a small
+    # CSV is one chunk: the CSV writer is checked from ECSV input)
+    src = tmp_path / f"in{suffix}"
+    write_table(_mixed_population(2600), src)
+    one, two = tmp_path / f"one{out_suffix}", tmp_path / f"two{out_suffix}"
+    s1 = classify_file(src, one, chunk_rows=500, n_draws=8, workers=1)
+    s2 = classify_file(src, two, chunk_rows=500, n_draws=8, workers=2)
+    assert s1["workers"] == 1 and s2["workers"] == 2
+    assert one.read_bytes() == two.read_bytes()
+    assert {k: v for k, v in s1.items() if k not in ("output", "workers")} == \
+           {k: v for k, v in s2.items() if k not in ("output", "workers")}
+    assert s1["rows"] == 2600
+    assert not list(tmp_path.glob(".*"))           # no temporary file left behind
+
+
+def test_workers_option_checked(tmp_path):
+    from hrstage.pipeline import resolve_workers
+
+    assert resolve_workers("auto") >= 1 and resolve_workers(3) == 3 and resolve_workers("2") == 2
+    for bad in (0, -1, "many", 1.5):
+        with pytest.raises(HrstageInputError, match="workers"):
+            resolve_workers(bad)
+    # a file of a single chunk never starts a pool
+    src = tmp_path / "in.parquet"
+    write_table(_mixed_population(50), src)
+    assert classify_file(src, tmp_path / "o.parquet", workers=2)["workers"] == 1

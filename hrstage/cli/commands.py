@@ -58,6 +58,12 @@ def _nonneg_int(text: str) -> int:
     return n
 
 
+def _workers(text: str):
+    if text.strip().lower() == "auto":
+        return "auto"
+    return _positive_int(text)
+
+
 def _add_column_options(p):
     g = p.add_argument_group("columns")
     g.add_argument("--profile", choices=["direct", "gaia", "johnson", "spectroscopic", "none"],
@@ -122,7 +128,7 @@ def cmd_classify(args) -> int:
     summary = classify_file(args.input, args.output, chunk_rows=args.chunk_rows, overwrite=args.overwrite,
                             progress=_progress_wanted(args), input_format=args.in_format,
                             output_format=args.out_format, prefix=args.prefix,
-                            check_sptypes=not args.no_type_check, **opts)
+                            check_sptypes=not args.no_type_check, workers=args.workers, **opts)
     for line in _summary_lines(summary):
         _say(args, line)
     return EXIT_OK
@@ -304,6 +310,9 @@ def build_parser() -> argparse.ArgumentParser:
                    help="output format (default: from the suffix)")
     c.add_argument("--chunk-rows", type=_positive_int, default=None,
                    help="rows per chunk; peak memory follows it (default 100000)")
+    c.add_argument("--workers", type=_workers, default=1, metavar="N|auto",
+                   help="processes classifying chunks in parallel (default 1; 'auto': one per usable core); "
+                        "same output as one process, memory grows with N x chunk rows")
     c.add_argument("--prefix", default="", help="prefix for our column names (when the input already has one)")
     c.add_argument("--no-type-check", action="store_true", help="do not check MK spectral types")
     c.add_argument("-q", "--quiet", action="store_true", help="no summary, no progress bar")

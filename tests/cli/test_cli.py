@@ -172,7 +172,36 @@ def test_demo(tmp_path, capsys):
     assert "no real stars" in text and text.strip().splitlines()[-1].startswith("Labels are indicative")
     tagged = read_table(out / "demo_tagged.ecsv")
     assert len(tagged) == 3000 and str(tagged["target_id"][0]).startswith("KDF-")
+    # MISSING_INPUT ("a required input is missing") only on rows left unclassified: a masked [Fe/H]
+    # or MK type is optional (NO_METALLICITY / not checked), not a missing required input
+    from hrstage import flags as F
+
+    flags = np.asarray(tagged["flags"], dtype=np.int64)
+    missing = (flags & F.MISSING_INPUT) != 0
+    assert np.all(np.asarray(tagged["stage"])[missing] == "unclassified")
+    assert np.any(flags & F.NO_METALLICITY)
     code, _, err = run(capsys, "demo", "--out", str(out))
     assert_one_line_usage_error(code, err)
     code, _, err = run(capsys, "demo", "--out", str(out), "--overwrite", "--draws", "0")
+    assert code == 0, err
+
+
+def test_classify_workers_and_scalar_feh(tmp_path, capsys):
+    src = tmp_path / "in.parquet"
+    _, t = cat(tmp_path, n=400)
+    write_table(t, src)
+    outs = []
+    for n in ("1", "2"):
+        out = tmp_path / f"out{n}.parquet"
+        code, text, err = run(capsys, "classify", str(src), "-o", str(out), "--workers", n, "--chunk-rows", "100",
+                              "--draws", "8", "--feh", "-1.35", "-q")
+        assert code == 0, err
+        outs.append(out.read_bytes())
+    assert outs[0] == outs[1]
+    back = read_table(tmp_path / "out2.parquet")
+    # no feh column: the default -1.35 reaches the classifier as one value (exact map, not -1.25)
+    np.testing.assert_allclose(np.asarray(back["feh_used"], dtype=float), -1.35)
+    code, _, err = run(capsys, "classify", str(src), "-o", str(tmp_path / "x.parquet"), "--workers", "0")
+    assert_one_line_usage_error(code, err)
+    code, _, err = run(capsys, "classify", str(src), "-o", str(tmp_path / "x.parquet"), "--workers", "auto", "-q")
     assert code == 0, err

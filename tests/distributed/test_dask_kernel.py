@@ -158,7 +158,7 @@ def test_map_partitions_equals_one_process(frame):
         got = lazy.compute()
     assert list(lazy.columns) == list(single.columns)
     assert (lazy.dtypes == got.dtypes).all()      # the declared meta is what partitions return
-    ours = [c for c in _ours(single.columns) if c != "flag_text"]
+    ours = list(_ours(single.columns))
     pd.testing.assert_frame_equal(got[ours], single[ours])
 
 
@@ -278,5 +278,4 @@ def test_local_cluster_two_worker_processes(tmp_path, frame):
         pids = set(client.run(os.getpid).values())
         assert len(pids) == 2 and os.getpid() not in pids
     back = dd.read_parquet(dst).compute(scheduler="sync").reset_index(drop=True)
-    # flag_text: see test_flag_text_does_not_depend_on_partitioning
-    assert_same_as_table(back, reference, skip=("flag_text",))
+    assert_same_as_table(back, reference)   # flag_text included (row-independent since the classifier fix)
