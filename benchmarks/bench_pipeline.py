@@ -5,6 +5,7 @@ What is measured, side by side (each pair interleaved, median of ``--repeats`` r
 1. **Parquet**: ``hrstage classify IN.parquet -o OUT.parquet`` (a fresh process: start-up,
    import, read, classify, write) against a fresh process that only reads the same file with
    pyarrow and writes it back. The ratio CLI / pyarrow is the project's bar (design: <= 3x).
+   The CLI runs once per ``--workers`` value (default 1 and 2 worker processes), interleaved.
 2. **CSV**: the same with a CSV input and a CSV output (pyarrow.csv reading and writing).
 3. **Streaming memory**: peak resident memory (``ru_maxrss`` of the child, from ``os.wait4``) of
    ``hrstage classify --chunk-rows N`` on a ``--stream-rows`` Parquet file (default 20 M rows), for
@@ -253,27 +254,51 @@ def med(values) -> float:
 # --------------------------------------------------------------------------------------------
 # the four measurements
 # --------------------------------------------------------------------------------------------
-def bench_format(work: Path, rows: int, kind: str, repeats: int) -> dict:
+def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,)) -> dict:
+    """CLI (one run per worker count) and pyarrow, interleaved: cli w1, cli w2, ..., pyarrow, repeat."""
     src = write_synthetic(work / f"in_{rows}.{kind}", rows, kind)
-    out_cli = work / f"out_cli.{kind}"
     out_pa = work / f"out_pyarrow.{kind}"
-    r_cli, r_pa = side_by_side(cli(src, out_cli), pyarrow_copy(kind, src, out_pa), repeats, (out_cli, out_pa))
+    cmds = [(f"w{w}", cli(src, work / f"out_cli_w{w}.{kind}", "--workers", str(w)), work / f"out_cli_w{w}.{kind}")
+            for w in workers]
+    cmds.append(("pyarrow", pyarrow_copy(kind, src, out_pa), out_pa))
+    runs: dict = {name: [] for name, _, _ in cmds}
+    for _ in range(repeats):
+        for name, cmd, out in cmds:
+            if out.exists():
+                out.unlink()
+            runs[name].append(run_child(cmd))
+    first_out = cmds[0][2]
     res = {
         "rows": rows,
         "input_MiB": round(src.stat().st_size / 2**20, 1),
-        "output_MiB": round(out_cli.stat().st_size / 2**20, 1) if out_cli.exists() else None,
-        "cli_s": [round(t, 3) for t, _ in r_cli],
-        "pyarrow_s": [round(t, 3) for t, _ in r_pa],
-        "cli_median_s": round(med(t for t, _ in r_cli), 3),
-        "pyarrow_median_s": round(med(t for t, _ in r_pa), 3),
+        "output_MiB": round(first_out.stat().st_size / 2**20, 1) if first_out.exists() else None,
+        "pyarrow_s": [round(t, 3) for t, _ in runs["pyarrow"]],
+        "pyarrow_median_s": round(med(t for t, _ in runs["pyarrow"]), 3),
+        "workers": {},
     }
-    res["ratio_cli_over_pyarrow"] = round(res["cli_median_s"] / res["pyarrow_median_s"], 2)
-    res["cli_rows_per_s"] = round(rows / res["cli_median_s"])
+    for w in workers:
+        times = [t for t, _ in runs[f"w{w}"]]
+        m = round(med(times), 3)
+        res["workers"][w] = {"cli_s": [round(t, 3) for t in times], "cli_median_s": m,
+                             "ratio_cli_over_pyarrow": round(m / res["pyarrow_median_s"], 2),
+                             "cli_rows_per_s": round(rows / m)}
+    # the first worker count keeps the flat keys of earlier versions of this script
+    base = res["workers"][workers[0]]
+    res.update(cli_s=base["cli_s"], cli_median_s=base["cli_median_s"],
+               ratio_cli_over_pyarrow=base["ratio_cli_over_pyarrow"], cli_rows_per_s=base["cli_rows_per_s"])
     src.unlink()
-    for p in (out_cli, out_pa):
-        if p.exists():
-            p.unlink()
+    for _, _, out in cmds:
+        if out.exists():
+            out.unlink()
     return res
+
+
+def _print_format(title: str, r: dict, bar: str) -> None:
+    print(f"\n{title}, {r['rows']:,} rows ({r['input_MiB']} MiB in, {r['output_MiB']} MiB out):")
+    for w, x in r["workers"].items():
+        print(f"  hrstage classify --workers {w}  median {x['cli_median_s']:8.2f} s   {x['cli_s']}"
+              f"   ratio CLI / pyarrow = {x['ratio_cli_over_pyarrow']:.2f}{bar}")
+    print(f"  pyarrow read+write           median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}")
 
 
 def bench_streaming(work: Path, rows: int, chunk_sizes: list[int]) -> dict:
@@ -350,6 +375,8 @@ def parse_args(argv=None):
                    help="comma-separated chunk sizes for the memory measurement (default: rows/80, rows/20, rows/5)")
     p.add_argument("--dask-rows", type=lambda s: int(float(s)), default=None,
                    help="rows of the Dask dataset (default: --rows)")
+    p.add_argument("--workers", type=_int_list, default=[1, 2],
+                   help="comma-separated --workers values of the CLI runs (default 1,2)")
     p.add_argument("--dask-partitions", type=int, default=16, help="files in the Dask dataset (default 16)")
     p.add_argument("--repeats", type=int, default=3, help="repeats per timing; the median is reported (default 3)")
     p.add_argument("--skip", default="", help="comma-separated parts to skip: parquet,csv,stream,dask")
@@ -384,17 +411,11 @@ def main(argv=None) -> int:
     t_start = time.perf_counter()
     try:
         if "parquet" not in skip:
-            r = results["parquet"] = bench_format(work, args.rows, "parquet", args.repeats)
-            print(f"\nParquet, {r['rows']:,} rows ({r['input_MiB']} MiB in, {r['output_MiB']} MiB out):")
-            print(f"  hrstage classify   median {r['cli_median_s']:8.2f} s   {r['cli_s']}")
-            print(f"  pyarrow read+write median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}")
-            print(f"  ratio CLI / pyarrow = {r['ratio_cli_over_pyarrow']:.2f}   (bar: <= 3)")
+            r = results["parquet"] = bench_format(work, args.rows, "parquet", args.repeats, args.workers)
+            _print_format("Parquet", r, "   (bar: <= 3)")
         if "csv" not in skip:
-            r = results["csv"] = bench_format(work, args.csv_rows or args.rows, "csv", args.repeats)
-            print(f"\nCSV, {r['rows']:,} rows ({r['input_MiB']} MiB in, {r['output_MiB']} MiB out):")
-            print(f"  hrstage classify   median {r['cli_median_s']:8.2f} s   {r['cli_s']}")
-            print(f"  pyarrow read+write median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}")
-            print(f"  ratio CLI / pyarrow = {r['ratio_cli_over_pyarrow']:.2f}")
+            r = results["csv"] = bench_format(work, args.csv_rows or args.rows, "csv", args.repeats, args.workers)
+            _print_format("CSV", r, "")
         if "stream" not in skip:
             r = results["stream"] = bench_streaming(work, stream_rows, chunks)
             print(f"\nStreaming, {r['rows']:,} rows of Parquet ({r['input_MiB']} MiB):")
