@@ -25,7 +25,7 @@ from ..stages import (
     UNCLASSIFIED,
 )
 from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, stage_map
-from ._text import format_rows, join_notes
+from ._text import concat_codes, format_codes, format_rows, join_notes
 
 N_STAGES = len(STAGES)
 
@@ -172,7 +172,7 @@ class ClassificationResult:
 
     @property
     def stage_prob(self) -> np.ndarray:
-        return np.take_along_axis(self.proba, self.code.astype(np.intp)[:, None], axis=1)[:, 0]
+        return _row_pick(self.proba, self.code)
 
     @property
     def base_reason(self) -> np.ndarray:
@@ -230,6 +230,16 @@ class ClassificationResult:
             }
         )
         return out
+
+
+def _row_pick(a, k):
+    """``a[i, k[i]]`` for every row (a flat gather)."""
+    a = np.ascontiguousarray(a)
+    n, m = a.shape
+    i = np.arange(n, dtype=np.intp)
+    i *= m
+    i += k
+    return a.reshape(-1).take(i)
 
 
 def _draws(n_draws: int, seed):
@@ -677,7 +687,10 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         m_teff[sel] = sm.ms_mass_from_logt(t)
         m_lum[sel] = sm.ms_mass_from_logl(l)
         # propagated mass error: the mass surface at +-1 sigma (first order, with correlation)
-        if has_err.any():
+        # (only where a mass exists: the error of a NaN mass is NaN)
+        em = np.nonzero(has_err & np.isfinite(mp))[0]
+        if len(em):
+            e = None if len(em) == len(mp) else em
             if e is None:
                 xe, ye, se, de, re_, mpe = mx, my, ts, ls, rs, mp
             else:
@@ -702,10 +715,20 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         pl = (np.where(ls > 0, ls, opts["near_logl"]) * lk.inv_dl).astype(np.float32)
         cref = code[sel]
         nb = np.full(len(c), -1, dtype=np.int8)
+        # stars whose stage runs on beyond both probes (free-run raster) keep their label there:
+        # only the others are probed (a probe lands at most ceil(offset) + 1 cells away)
+        fr = _gather(sm.free_run, x, y)
+        unit = np.float32(sm.FREE_RUN_UNIT)
+        clear = ((fr & 15) * unit >= pt + 2) & ((fr >> 4) * unit >= pl + 2) & ~promote
+        pr_ = np.nonzero(~clear)[0]
+        if len(pr_) < len(c):
+            x, y, pt, pl, cref = x[pr_], y[pr_], pt[pr_], pl[pr_], cref[pr_]
+        sub = np.full(len(pr_), -1, dtype=np.int8)
         for dx, dy in ((pt, 0.0), (-pt, 0.0), (0.0, pl), (0.0, -pl)):
             cc = _gather(lk, x, y, dx, dy)
-            hit = (nb < 0) & (cc != cref)
-            nb[hit] = cc[hit]
+            hit = (sub < 0) & (cc != cref)
+            sub[hit] = cc[hit]
+        nb[pr_] = sub
         near_to[sel] = nb
 
     # per-row metallicity outside the fits (array input): clipped onto the grid, flagged
@@ -765,15 +788,16 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     cool = opts["cool_teff"]
 
     def cbm_text(ii):
-        head = format_rows(
+        head = format_codes(
             lambda mt, ml: f"cool but massive: M_MS(Teff)={mt:.2g} Msun vs M_MS(L)="
                            + (f"{ml:.2g} Msun" if np.isfinite(ml) else "> 100 Msun"),
             len(ii), (m_teff[ii], ".2g"), (m_lum[ii], ".2g"))
-        tail = format_rows(
+        tail = format_codes(
             lambda ms, tf: (f", supplied {ms:.3g} Msun" if np.isfinite(ms) else "")
                            + f" (Teff {tf:.0f} K < {cool:.0f} K): likely evolved",
             len(ii), (msup[ii], ".3g"), (teff[ii], ".0f"))
-        return head + tail
+        texts, codes = concat_codes(head, tail)
+        return texts[codes]
 
     note("1cbm", cbm, cbm_text)
 
@@ -822,7 +846,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     note("4near", near, near_text)
     note("6nomass", np.nonzero(nomass)[0], "no mass relation applies here (mass NaN)")
     # low probability
-    sp = np.take_along_axis(proba, code.astype(np.intp)[:, None], axis=1)[:, 0]
+    sp = _row_pick(proba, code)
     low = finite & (sp < opts["low_probability"])
     flags[low] |= F.LOW_PROBABILITY
     note("7low", low, lambda ii: format_rows(

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["display_round", "format_rows", "join_notes"]
+__all__ = ["display_round", "format_rows", "format_codes", "concat_codes", "join_notes"]
 
 
 def display_round(values, spec: str) -> np.ndarray:
@@ -20,21 +20,59 @@ def display_round(values, spec: str) -> np.ndarray:
     Only the distinct rounded values are formatted, so two values that print the same share one
     text. NaN and inf stay as they are.
     """
+    return _round_key(values, spec)[0]
+
+
+def _round_key(values, spec: str):
+    """(rounded values, int64 key or None): equal keys <=> equal rounded values (finite ones);
+    non-finite values get keys of their own above the finite ones."""
     v = np.asarray(values, dtype=float)
     kind = spec[-1:]
     digits = "".join(ch for ch in spec if ch.isdigit())
     if not digits or kind not in "fg":
-        return v
+        return v, None
     d = int(digits)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        fin = np.isfinite(v)
         if kind == "f":
             r = np.round(v, d)
+            k = r * 10.0**d
+            ok = fin & (np.abs(k) < 2.0**52)
+            key = np.where(ok, np.rint(k), 0.0).astype(np.int64)
         else:
             a = np.abs(v)
-            e = np.floor(np.log10(np.where((a > 0) & np.isfinite(a), a, 1.0)))
+            pos = (a > 0) & fin
+            e = np.floor(np.log10(np.where(pos, a, 1.0)))
             q = 10.0 ** (e - (max(d, 1) - 1))
-            r = np.where((a > 0) & np.isfinite(a), np.rint(v / q) * q, v)
-    return r
+            mant = np.where(pos, np.rint(v / q), 0.0)
+            r = np.where(pos, mant * q, v)
+            ok = fin
+            # rounded value = mant * 10^(e - d + 1): (e, mant) identifies it (mant may reach 10^d)
+            key = ((e.astype(np.int64) + 400) * (4 * 10**max(d, 1) + 1) + (mant.astype(np.int64) + 2 * 10**max(d, 1)))
+            key = np.where(pos, key, 0)
+        if (fin & ~(ok & np.isfinite(r))).any():
+            return r, None  # huge finite values: no exact integer key (sort-based uniques)
+    if not fin.all():
+        top = int(key[fin].max()) + 1 if fin.any() else 1
+        key = np.where(fin, key, np.where(np.isnan(v), top, np.where(v > 0, top + 1, top + 2)))
+    return r, key
+
+
+def _int_codes(k: np.ndarray):
+    """(distinct keys, inverse) of an int64 array; a presence table instead of a sort where the
+    range of the keys is small."""
+    if k.size == 0:
+        return k, k
+    lo, hi = int(k.min()), int(k.max())
+    span = hi - lo + 1
+    if span <= max(4 * k.size, 1 << 16):
+        present = np.zeros(span, dtype=bool)
+        off = k - lo
+        present[off] = True
+        pos = np.cumsum(present, dtype=np.int64) - 1
+        return np.nonzero(present)[0] + lo, pos[off]
+    u, inv = np.unique(k, return_inverse=True)
+    return u, inv.reshape(-1).astype(np.int64)
 
 
 def _codes(col):
@@ -42,8 +80,16 @@ def _codes(col):
     format spec ``(values, spec)``, or an array of labels (strings / small ints) ``(values, None)``."""
     values, spec = col
     a = np.asarray(values)
+    key = None
     if spec is not None:
-        a = display_round(a, spec)
+        a, key = _round_key(a, spec)
+    elif a.dtype.kind in "biu":
+        key = a.astype(np.int64)
+    if key is not None:
+        uk, inv = _int_codes(key.reshape(-1))
+        rep = np.empty(len(uk), dtype=a.dtype)
+        rep[inv] = a.reshape(-1)  # every row of a key holds the same value
+        return rep, inv
     u, inv = np.unique(a, return_inverse=True)
     return u, inv.reshape(-1).astype(np.int64)
 
@@ -65,34 +111,49 @@ def format_rows(fmt, n: int, *cols) -> np.ndarray:
     -------
     ndarray of object, length ``n``.
     """
+    texts, inv = format_codes(fmt, n, *cols)
+    return texts[inv]
+
+
+def format_codes(fmt, n: int, *cols):
+    """As :func:`format_rows`, but returns ``(texts, codes)``: the distinct texts (object array)
+    and, per row, the index of its text (so that texts can be combined per distinct pair)."""
     if n == 0:
-        return np.empty(0, dtype=object)
+        return np.empty(0, dtype=object), np.zeros(0, dtype=np.int64)
     if not cols:
-        return np.full(n, fmt(), dtype=object)
-    uniq, key = [], np.zeros(n, dtype=np.int64)
-    radix = 1
-    for col in cols:
-        u, inv = _codes(col)
-        if radix * max(len(u), 1) >= 2**62:  # too many combinations for one key: fold what we have
-            _, key = np.unique(key, return_inverse=True)
-            key = key.reshape(-1).astype(np.int64)
-            radix = int(key.max()) + 1
-        uniq.append(u)
-        key = key * len(u) + inv
-        radix *= max(len(u), 1)
-    ukey, inv = np.unique(key, return_inverse=True)
-    # decode each distinct key into the indices of its column values
-    parts = []
-    rest = ukey.copy()
-    for u in reversed(uniq):
-        parts.append(rest % len(u))
-        rest //= len(u)
-    parts.reverse()
-    texts = np.empty(len(ukey), dtype=object)
-    vals = [u[p] for u, p in zip(uniq, parts)]
-    for k in range(len(ukey)):
-        texts[k] = fmt(*(v[k].item() if hasattr(v[k], "item") else v[k] for v in vals))
-    return texts[inv.reshape(-1)]
+        t = np.empty(1, dtype=object)
+        t[0] = fmt()
+        return t, np.zeros(n, dtype=np.int64)
+    uniq, invs = zip(*(_codes(col) for col in cols))
+    sizes = [max(len(u), 1) for u in uniq]
+    if int(np.prod([float(k) for k in sizes])) < 2**62:
+        key = np.zeros(n, dtype=np.int64)
+        for u, inv in zip(uniq, invs):
+            key = key * len(u) + inv
+        ukey, inv = _int_codes(key)
+        # decode each distinct key into the indices of its column values
+        parts = []
+        rest = ukey.copy()
+        for u in reversed(uniq):
+            parts.append(rest % len(u))
+            rest //= len(u)
+        parts.reverse()
+    else:  # too many combinations for one integer key: distinct rows of the code matrix
+        rows, inv = np.unique(np.stack(invs, axis=1), axis=0, return_inverse=True)
+        parts = list(rows.T)
+    vals = [u[p].tolist() for u, p in zip(uniq, parts)]
+    texts = np.empty(len(parts[0]), dtype=object)
+    texts[:] = [fmt(*args) for args in zip(*vals)]
+    return texts, inv.reshape(-1)
+
+
+def concat_codes(a, b):
+    """Row-wise ``a + b`` of two ``(texts, codes)`` pairs (from :func:`format_codes`), one string
+    concatenation per distinct pair; returns a ``(texts, codes)`` pair."""
+    (ta, ia), (tb, ib) = a, b
+    key = ia * len(tb) + ib
+    u, inv = _int_codes(key)
+    return ta[u // len(tb)] + tb[u % len(tb)], inv
 
 
 def join_notes(n: int, notes) -> np.ndarray:

@@ -308,6 +308,31 @@ def test_draw_skipping_is_exact():
     assert 0 < (uni >= 0).sum() < n  # some stars skipped, some drawn
 
 
+def test_proximity_skip_is_exact():
+    # stars whose stage runs on beyond their probes (free-run raster) are not probed: the
+    # NEAR_BOUNDARY flags must equal probing every star at +-1 sigma (or the default probes
+    # without errors) -- common practice: an optimisation must not change results
+    from hrstage.classifier import _core
+    from hrstage.stagemap import stage_map
+
+    sm = stage_map(0.0)
+    rng = np.random.default_rng(12)
+    n = 60_000
+    lt, ll = rng.uniform(3.35, 5.0, n), rng.uniform(-5, 6.5, n)
+    st = np.where(rng.random(n) < 0.3, 0.0, rng.uniform(0, 0.05, n))
+    sl = np.where(rng.random(n) < 0.3, 0.0, rng.uniform(0, 0.3, n))
+    r = classify_hr(lt, ll, logt_err=st, logl_err=sl, feh=0.0)
+    lk = sm.codes
+    x, y = _core._axis_coords(lk, lt, ll)
+    pt = (np.where(st > 0, st, _core.OPTIONS["near_logt"]) * lk.inv_dt).astype(np.float32)
+    pl = (np.where(sl > 0, sl, _core.OPTIONS["near_logl"]) * lk.inv_dl).astype(np.float32)
+    near = np.zeros(n, bool)
+    for dx, dy in ((pt, 0.0), (-pt, 0.0), (0.0, pl), (0.0, -pl)):
+        near |= _core._gather(lk, x, y, dx, dy) != r.code
+    assert 0 < near.sum() < n
+    assert np.array_equal(near, (r.flags & F.NEAR_BOUNDARY) != 0)
+
+
 def test_hostile_floats_raise_no_numpy_warnings():
     # IEEE 754 extremes (largest/smallest doubles, inf, NaN, subnormals): the classifier masks
     # them deliberately, so no overflow/invalid RuntimeWarning may escape (common practice)
