@@ -309,18 +309,28 @@ def _uniform_range(sm, x0, x1, y0, y1):
     if not inside.any():
         return out, inside
     i = np.nonzero(inside)[0]
-    bx0 = x0[i].astype(np.int64) // k
-    bx1 = x1[i].astype(np.int64) // k + 1
-    by0 = y0[i].astype(np.int64) // k
-    by1 = y1[i].astype(np.int64) // k + 1
-    c = bcode[by0, bx0].astype(np.int64)
-    ok = c >= 0
-    cc = np.where(ok, c, 0)
+    bx0 = x0[i].astype(np.intp)
+    bx0 //= k
+    by0 = y0[i].astype(np.intp)
+    by0 //= k
+    c = bcode.reshape(-1).take(by0 * bx + bx0)
+    ok = np.nonzero(c >= 0)[0]  # the corner block is uniform: test the whole box
+    i, c, bx0, by0 = i[ok], c[ok].astype(np.intp), bx0[ok], by0[ok]
+    bx1 = x1[i].astype(np.intp)
+    bx1 //= k
+    bx1 += 1
+    by1 = y1[i].astype(np.intp)
+    by1 //= k
+    by1 += 1
     w1 = bx + 1
-    base = cc * (by + 1) * w1
-    tot = sat[base + by1 * w1 + bx1] - sat[base + by0 * w1 + bx1] - sat[base + by1 * w1 + bx0] + sat[base + by0 * w1 + bx0]
-    full = ok & (tot == (by1 - by0) * (bx1 - bx0))
-    out[i[full]] = c[full].astype(np.int8)
+    c *= (by + 1) * w1
+    r0 = by0 * w1
+    r0 += c
+    r1 = by1 * w1
+    r1 += c
+    tot = sat.take(r1 + bx1) - sat.take(r0 + bx1) - sat.take(r1 + bx0) + sat.take(r0 + bx0)
+    full = tot == (by1 - by0) * (bx1 - bx0)
+    out[i[full]] = (c[full] // ((by + 1) * w1)).astype(np.int8)
     return out, inside
 
 
@@ -360,7 +370,7 @@ def _y_extent(a, b, z1, z2):
     return lo, hi
 
 
-def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 16):
+def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 14):
     """Counts per stage (N, N_STAGES) of the draws, common random numbers z1, z2.
 
     Stars whose whole draw box (the exact range of their drawn positions, from the extreme z1 and
@@ -660,11 +670,13 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         e = None if has_err.all() else np.nonzero(has_err)[0]
         # probabilities
         if n_draws > 0 and has_err.any():
-            p = np.zeros((len(c), N_STAGES))
-            p[np.arange(len(c)), c] = 1.0
             te, le, se, de, re_ = (t, l, ts, ls, rs) if e is None else (t[e], l[e], ts[e], ls[e], rs[e])
             cnt = _mc_counts(sm, te, le, se, de, re_, z1, z2)
-            pe = cnt / float(n_draws)
+            if e is None and single:
+                np.divide(cnt, float(n_draws), out=proba)
+                pe = proba
+            else:
+                pe = cnt / float(n_draws)
             pr = promote if e is None else promote[e]
             if pr.any():
                 cols = [SUBGIANT, GIANT, BRIGHT_GIANT]
@@ -672,11 +684,14 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
                 moved = pe[np.ix_(ip, cols)].sum(axis=1)
                 pe[np.ix_(ip, cols)] = 0.0
                 pe[ip, SUPERGIANT] += moved
-            if e is None:
-                p = pe
-            else:
-                p[e] = pe
-            proba[sel] = p
+            if pe is not proba:
+                if e is None:
+                    p = pe
+                else:
+                    p = np.zeros((len(c), N_STAGES))
+                    p[np.arange(len(c)), c] = 1.0
+                    p[e] = pe
+                proba[sel] = p
         else:
             proba[np.arange(n) if single else idx, c] = 1.0
         # masses
