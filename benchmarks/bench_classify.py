@@ -37,18 +37,45 @@ def median_time(fn, repeats=5):
     return float(np.median(ts))
 
 
-def load_before(rev):
-    """``hrstage.classifier._core`` as it was at git revision ``rev`` (a module beside ours)."""
+def _git_show(rev, path):
     root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-    src = subprocess.run(["git", "show", f"{rev}:hrstage/classifier/_core.py"], cwd=root, check=True,
-                         capture_output=True, text=True).stdout
-    name = "hrstage.classifier._core_before"
+    return subprocess.run(["git", "show", f"{rev}:{path}"], cwd=root, check=True, capture_output=True,
+                          text=True).stdout
+
+
+def _exec_module(name, src, label):
     spec = importlib.util.spec_from_loader(name, loader=None)
     mod = importlib.util.module_from_spec(spec)
     mod.__package__ = "hrstage.classifier"
     sys.modules[name] = mod
-    exec(compile(src, f"{rev}:_core.py", "exec"), mod.__dict__)
+    exec(compile(src, label, "exec"), mod.__dict__)
     return mod
+
+
+def load_before(rev):
+    """``hrstage.classifier._core`` as it was at git revision ``rev`` (a module beside ours), with
+    the text helpers ``_text`` of the same revision; the stage map (layer 2) is the current one."""
+    src = _git_show(rev, "hrstage/classifier/_core.py")
+    try:
+        text_src = _git_show(rev, "hrstage/classifier/_text.py")
+    except subprocess.CalledProcessError:
+        text_src = None
+    if text_src is not None and "from ._text import" in src:
+        _exec_module("hrstage.classifier._text_before", text_src, f"{rev}:_text.py")
+        src = src.replace("from ._text import", "from ._text_before import")
+    return _exec_module("hrstage.classifier._core_before", src, f"{rev}:_core.py")
+
+
+def same_outputs(mod_a, mod_b, a, b, **kw):
+    """Whether two classifier cores give identical columns (labels, probabilities, texts...)."""
+    ca = mod_a.classify_hr(a, b, **kw).to_columns()
+    cb = mod_b.classify_hr(a, b, **kw).to_columns()
+    for k in ca:
+        x, y = ca[k], cb[k]
+        eq = np.array_equal(x, y) if x.dtype == object else np.array_equal(x, y, equal_nan=True)
+        if not eq:
+            return False
+    return True
 
 
 def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000, before=None, repeats=3):
@@ -80,6 +107,10 @@ def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000, before=None, repeats
     if before:
         (f0b, f1b), (f0a, f1a) = res[mods[0][0]], res["after"]
         print(f"speed-up after/before: 0 draws {f0b / f0a:5.2f} x, 128 draws {f1b / f1a:5.2f} x")
+        m = min(n_full, 200_000)
+        same = same_outputs(mods[0][1], _core, a[:m], b[:m], logt_err=st[:m], logl_err=sl[:m], corr=0.3,
+                            feh=0.0, n_draws=128)
+        print(f"identical columns before/after ({m} stars, 128 draws): {same}")
     z1, z2 = _core._draws(128, 20240601)
     rho = np.full(n_mc, 0.3)
     core = median_time(lambda: _core._mc_counts(sm, lt[:n_mc], ll[:n_mc], st[:n_mc], sl[:n_mc], rho, z1, z2),

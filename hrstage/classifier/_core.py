@@ -25,7 +25,7 @@ from ..stages import (
     UNCLASSIFIED,
 )
 from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, stage_map
-from ._text import concat_codes, format_codes, format_rows, join_notes
+from ._text import concat_codes, format_codes, join_notes
 
 N_STAGES = len(STAGES)
 
@@ -767,7 +767,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
 
     post = (rawc & RAW_STAGE)
     promoted = (code == SUPERGIANT) & (post != SUPERGIANT)
-    note("0promote", promoted, lambda ii: format_rows(
+    note("0promote", promoted, lambda ii: format_codes(
         lambda m, g: f"supplied mass {m:.3g} Msun >= supergiant mass {g:.2f} Msun: post-main-sequence position "
                      "labelled supergiant", len(ii), (msup[ii], ".3g"), (m_sg[ii], ".2f")))
 
@@ -783,7 +783,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         ratio = np.maximum(msup[si] / pos, pos / msup[si])
         off = si[np.isfinite(ratio) & (ratio > opts["mass_check_ratio"])]
         mest_off = mass_est[off]
-        note("5mass", off, lambda ii: format_rows(
+        note("5mass", off, lambda ii: format_codes(
             lambda a, b, k: f"supplied mass {a:.3g} Msun vs {b:.3g} Msun from the position ({MASS_METHODS[k]})",
             len(ii), (msup[ii], ".3g"), (mest_off, ".3g"), (code[ii], None)))
         mass_est[si] = msup[si]
@@ -811,8 +811,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
             lambda ms, tf: (f", supplied {ms:.3g} Msun" if np.isfinite(ms) else "")
                            + f" (Teff {tf:.0f} K < {cool:.0f} K): likely evolved",
             len(ii), (msup[ii], ".3g"), (teff[ii], ".0f"))
-        texts, codes = concat_codes(head, tail)
-        return texts[codes]
+        return concat_codes(head, tail)
 
     note("1cbm", cbm, cbm_text)
 
@@ -834,15 +833,15 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
                      else f"{h:.2f} dex above the main-sequence upper edge")
             return "possible unresolved binary: " + where + (" (or a subgiant)" if ms else "")
 
-        return format_rows(fmt, len(ii), (gap, ".2f"), (code[ii] == MAIN_SEQUENCE, None))
+        return format_codes(fmt, len(ii), (gap, ".2f"), (code[ii] == MAIN_SEQUENCE, None))
 
     note("2bin", b, bin_text)
     ex = (rawc & RAW_EXTRAPOLATED) != 0
     flags[ex] |= F.OUTSIDE_VALIDITY
-    note("3extrap", ex, lambda ii: format_rows(
+    note("3extrap", ex, lambda ii: format_codes(
         lambda tf, tz: f"Teff {tf:.0f} K is cooler than the 0.1 Msun ZAMS ({tz:.0f} K): main sequence "
                        "extrapolated beyond the fits", len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f")))
-    note("3zclip", zc, lambda ii: format_rows(
+    note("3zclip", zc, lambda ii: format_codes(
         lambda fg, fu: f"[Fe/H]={fg:+.2f} outside the fits (Z 1e-4..0.03): boundaries of [Fe/H]={fu:+.2f} used",
         len(ii), (feh_given[ii], "+.2f"), (feh_used[ii], "+.2f")))
     # near boundary
@@ -852,7 +851,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
 
     def near_text(ii):
         he = has_err_all[ii]
-        return format_rows(
+        return format_codes(
             lambda k, e_, a, b_: f"near a boundary: {STAGES[k]} within "
                                  + (f"1 sigma (dlogT={a:.3f}, dlogL={b_:.3f})" if e_ else probe),
             len(ii), (near_to[ii], None), (he, None), (np.where(he, st[ii], 0.0), ".3f"),
@@ -864,7 +863,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     sp = _row_pick(proba, code)
     low = finite & (sp < opts["low_probability"])
     flags[low] |= F.LOW_PROBABILITY
-    note("7low", low, lambda ii: format_rows(
+    note("7low", low, lambda ii: format_codes(
         lambda k, p, kb, pb: f"label uncertain: P({STAGES[k]})={p:.2f}, most probable {STAGES[kb]} ({pb:.2f})",
         len(ii), (code[ii], None), (sp[ii], ".2f"), (np.argmax(proba[ii], axis=1), None), (proba[ii].max(axis=1), ".2f")))
     # missing / bad input

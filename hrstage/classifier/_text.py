@@ -153,14 +153,18 @@ def concat_codes(a, b):
     (ta, ia), (tb, ib) = a, b
     key = ia * len(tb) + ib
     u, inv = _int_codes(key)
+    if len(u) > len(key) // 4:  # nearly one pair per row: concatenate the rows
+        return ta[ia] + tb[ib], np.arange(len(key), dtype=np.int64)
     return ta[u // len(tb)] + tb[u % len(tb)], inv
 
 
 def join_notes(n: int, notes) -> np.ndarray:
     """Join notes ``[(row indices, texts), ...]`` (in order) into one text per row with '; '.
 
-    ``texts`` is an object array aligned with the indices, or one string for all of them. Rows
-    with no note get "". Only rows that already hold a text are concatenated.
+    ``texts`` is one string for all the rows of the note, an object array aligned with the
+    indices, or a ``(distinct texts, codes)`` pair from :func:`format_codes`. Rows with no note
+    get "". Only rows that already hold a text are concatenated (row-wise object additions: a
+    catalogue's combinations of notes are nearly as many as its flagged rows).
     """
     out = np.full(n, "", dtype=object)
     filled = np.zeros(n, dtype=bool)
@@ -168,6 +172,8 @@ def join_notes(n: int, notes) -> np.ndarray:
         idx = np.asarray(idx, dtype=np.intp)
         if idx.size == 0:
             continue
+        if isinstance(texts, tuple):
+            texts = texts[0][texts[1]]
         scalar = isinstance(texts, str)
         had = filled[idx]
         if not had.any():

@@ -121,6 +121,11 @@ class PiecewiseLinear:
         self.start = np.clip(np.searchsorted(self.xp, edges, side="right") - 1, 0, m - 2).astype(np.int32)
         end = np.r_[self.start[1:], m - 2]
         self.steps = int((end - self.start).max()) + 1
+        # buckets where a query may have to advance past a knot (most hold none): only their
+        # queries run the stepping loop
+        nxt = np.r_[edges[1:], np.inf]
+        tol = 1e-9 * span
+        self.needs = (self.start < m - 2) & (self.xp[np.minimum(self.start + 1, m - 1)] <= nxt + tol)
 
     def __call__(self, x) -> np.ndarray:
         x = np.asarray(x, dtype=float)
@@ -129,19 +134,31 @@ class PiecewiseLinear:
         b = (x - self.x0) * self.inv_h
         np.fmax(b, 0.0, out=b)
         np.fmin(b, self.nb - 1, out=b)
-        j = self.start.take(b.astype(np.int32))
+        bi = b.astype(np.int32)
+        j = self.start.take(bi)
         xp = self.xp
-        for _ in range(self.steps):
-            adv = x >= xp.take(j + 1)
-            adv &= j < self.m - 2
-            if not adv.any():
-                break
-            j += adv
-        y = self.slope.take(j) * (x - xp.take(j)) + self.fp.take(j)
-        y[x < xp[0]] = self.left
-        y[x > xp[-1]] = self.right
-        y[x == xp[-1]] = self.fp[-1]
-        y[np.isnan(x)] = np.nan
+        loop = np.nonzero(self.needs.take(bi))[0]
+        if len(loop):
+            xs, js = x[loop], j[loop]
+            for _ in range(self.steps):
+                adv = xs >= xp.take(js + 1)
+                adv &= js < self.m - 2
+                if not adv.any():
+                    break
+                js += adv
+            j[loop] = js
+        y = self.slope.take(j)
+        y *= x - xp.take(j)
+        y += self.fp.take(j)
+        edge = ~((x >= xp[0]) & (x < xp[-1]))  # below, at or beyond the last knot, or NaN
+        if edge.any():
+            k = np.nonzero(edge)[0]
+            xk, yk = x[k], y[k]
+            yk[xk < xp[0]] = self.left
+            yk[xk > xp[-1]] = self.right
+            yk[xk == xp[-1]] = self.fp[-1]
+            yk[np.isnan(xk)] = np.nan
+            y[k] = yk
         return y
 
 
