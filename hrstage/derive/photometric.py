@@ -13,7 +13,7 @@ from ..errors import HrstageInputError
 from ..models import bolometric, casagrande2010, casagrande2021, flower_teff, mucciarelli2021, riello2021
 from . import extinction
 from ._constants import LN10, LOGG_SUN, TEFF_SUN
-from ._errors import Propagator, derivative
+from ._errors import Propagator, derivative_rows
 from ._inputs import broadcast, check_values, error_or_zero, to_float
 from ._position import HRPosition
 
@@ -236,8 +236,14 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     t_try = c21_teff(c0, gw)
     gw = np.where(~logg_known & ~np.isfinite(t_try), 2.0, gw)
     far_below = np.zeros(n, dtype=bool)
-    for _ in range(_N_ITER):
-        t_c = c21_teff(c0, gw)
+    # first pass: t_try already holds the Teff at the starting log g except where it moved to 2.0
+    t_c = t_try.copy()
+    moved = np.flatnonzero(~logg_known & ~np.isfinite(t_try))
+    if moved.size:
+        t_c[moved] = c21.teff(c0[moved], np.clip(gw[moved], *c21.LOGG_RANGE), feh_used[moved], **rel_kw)
+    for it in range(_N_ITER):
+        if it:
+            t_c = c21_teff(c0, gw)
         t_for_l = np.where(teff_given, teff_in, t_c)
         bc, _ = _gaia_bc(t_for_l, c0)
         logl_iter = bolometric.logl_from_mbol(abs_g + bc, bolometric.IAU_MBOL_SUN)
@@ -252,8 +258,8 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
         sig_cal = np.full(n, np.hypot(c21.SIGMA, c21.ZERO_POINT_SIGMA))
         tcode = np.where(logg_known, 2, 3)
 
-        def t_of_c(x):
-            return c21_teff(x, gw_eval)
+        def t_of_c(x, i):
+            return c21.teff(x, np.clip(gw_eval[i], *c21.LOGG_RANGE), feh_used[i], **rel_kw)
     else:
         giant = gw_eval <= GAIA_LOGG_SPLIT
         t_d = mucciarelli2021.teff(c0, feh_used, kind="dwarf")
@@ -267,11 +273,12 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
         tcode = np.where(fb, 6, np.where(giant, 5, 4))
         flags |= np.where(fb & ~teff_given, F.COLOUR_OUT_OF_RANGE, 0)
 
-        def t_of_c(x):
-            td = mucciarelli2021.teff(x, feh_used, kind="dwarf")
-            tg = mucciarelli2021.teff(x, feh_used, kind="giant")
-            tm = np.where(giant, tg, td)
-            return np.where(fb, c21_teff(x, gw_eval), tm)
+        def t_of_c(x, i):
+            fi = feh_used[i]
+            td = mucciarelli2021.teff(x, fi, kind="dwarf")
+            tg = mucciarelli2021.teff(x, fi, kind="giant")
+            tm = np.where(giant[i], tg, td)
+            return np.where(fb[i], c21.teff(x, np.clip(gw_eval[i], *c21.LOGG_RANGE), fi, **rel_kw), tm)
 
     need_colour = ~teff_given
     flags |= np.where(need_colour & ~colour_finite & ~np.isinf(colour), F.MISSING_INPUT, 0)
@@ -294,12 +301,11 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     bc_sig = np.where(np.isfinite(bc_sig), bc_sig, 0.0)
 
     # --- errors -------------------------------------------------------------------------------
-    def bc_of_t(t):
-        return _gaia_bc(t, c0)[0]
-
-    dbc_dt = derivative(bc_of_t, teff_out, 0.5)
-    dtdc = np.where(teff_given, 0.0, derivative(t_of_c, c0, 1e-3))
-    dgv_dc = np.where(fb_used, derivative(riello2021.g_minus_v, c0, 1e-3), 0.0)
+    # each derivative only on the rows that use it, from the values already computed
+    t_fin = np.isfinite(teff_out)
+    dbc_dt = derivative_rows(lambda t, i: _gaia_bc(t, c0[i])[0], teff_out, 0.5, t_fin, f0=bc, fill=np.nan)
+    dtdc = derivative_rows(t_of_c, c0, 1e-3, ~teff_given & np.isfinite(t_col), f0=t_col)
+    dgv_dc = derivative_rows(lambda x, i: riello2021.g_minus_v(x), c0, 1e-3, fb_used)
     with np.errstate(divide="ignore", invalid="ignore"):
         inv_tln = 1.0 / (teff_out * LN10)
     prop = Propagator(n)
@@ -462,13 +468,15 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     lcode = np.where(np.isfinite(logl), 1, 0)
 
     # --- errors -------------------------------------------------------------------------------
-    dbc_dt = derivative(bolometric.bc_v_flower, teff_out, 0.5)
-    d_vks = derivative(lambda x: casagrande2010.teff(x, feh_used, which="V-Ks"), vks0, 1e-3)
-    d_c10 = derivative(lambda x: casagrande2010.teff(x, feh_used, which="B-V"), bv0, 1e-3)
-    d_fl = derivative(flower_teff.teff, bv0, 1e-3)
-    d_sg = derivative(lambda x: flower_teff.teff(x, branch="supergiant"), bv0, 1e-3)
-    dt_dbv = np.select([tcode == 3, tcode == 4, tcode == 5], [d_c10, d_fl, d_sg], 0.0)
-    dt_dvks = np.where(tcode == 2, d_vks, 0.0)
+    # each derivative only on the rows whose Teff comes from that relation (same numbers there)
+    dbc_dt = derivative_rows(lambda t, i: bolometric.bc_v_flower(t), teff_out, 0.5, np.isfinite(teff_out),
+                             f0=bc, fill=np.nan)
+    dt_dvks = derivative_rows(lambda x, i: casagrande2010.teff(x, feh_used[i], which="V-Ks"), vks0, 1e-3,
+                              tcode == 2, f0=t_vks)
+    dt_dbv = derivative_rows(lambda x, i: casagrande2010.teff(x, feh_used[i], which="B-V"), bv0, 1e-3,
+                             tcode == 3, f0=t_c10bv)
+    dt_dbv += derivative_rows(lambda x, i: flower_teff.teff(x), bv0, 1e-3, tcode == 4, f0=t_fl)
+    dt_dbv += derivative_rows(lambda x, i: flower_teff.teff(x, branch="supergiant"), bv0, 1e-3, tcode == 5, f0=t_sg)
     with np.errstate(divide="ignore", invalid="ignore"):
         inv_tln = 1.0 / (teff_out * LN10)
     prop = Propagator(n)
