@@ -14,7 +14,7 @@ from ..models import bolometric, casagrande2010, casagrande2021, flower_teff, mu
 from . import extinction
 from ._constants import LN10, LOGG_SUN, TEFF_SUN
 from ._errors import Propagator, derivative_rows
-from ._inputs import broadcast, check_values, error_or_zero, to_float
+from ._inputs import broadcast, check_values, error_or_zero, or_flag, to_float
 from ._position import HRPosition
 
 #: log g split between the "dwarf" and "giant" branches of the colour relations
@@ -48,12 +48,12 @@ def _parallax(plx, plx_err, zp, min_snr, flags):
     plx_c = plx - zp
     ok = check_values(flags, plx_c)
     nonpos = ok & (plx_c <= 0)
-    flags |= np.where(nonpos, F.NONPOSITIVE_PARALLAX, 0)
+    or_flag(flags, nonpos, F.NONPOSITIVE_PARALLAX)
     good = ok & (plx_c > 0)
     safe = np.where(good, plx_c, np.nan)
     with np.errstate(divide="ignore", invalid="ignore"):
         snr = np.where(plx_err > 0, safe / plx_err, np.inf)
-    flags |= np.where(good & (snr < min_snr), F.LOW_PARALLAX_SNR, 0)
+    or_flag(flags, good & (snr < min_snr), F.LOW_PARALLAX_SNR)
     dist_pc = 1000.0 / safe
     mu_term = 5.0 * np.log10(safe) - 10.0          # M = m + 5 log10(plx / mas) - 10
     dlogl_dplx = -2.0 / (safe * LN10)
@@ -83,7 +83,7 @@ def _finish(n, teff, logl, prop, flags, source, extra):
     # no NaN without a flag: a row whose value is NaN but carries no derive/input flag gets MISSING_INPUT
     reason = (F.MISSING_INPUT | F.BAD_INPUT | F.NONPOSITIVE_PARALLAX | F.COLOUR_OUT_OF_RANGE
               | F.OUTSIDE_VALIDITY)
-    flags |= np.where((tbad | lbad) & ((flags & reason) == 0), F.MISSING_INPUT, 0)
+    or_flag(flags, (tbad | lbad) & ((flags & reason) == 0), F.MISSING_INPUT)
     return HRPosition(teff=teff, logt=logt, logl=logl, logt_err=logt_err, logl_err=logl_err,
                       corr=corr, flags=flags.astype(np.int64), source=source, extra=extra)
 
@@ -183,14 +183,14 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     colour = a["bp_rp"]
     g_ok = check_values(flags, gmag)
     colour_finite = np.isfinite(colour)
-    flags |= np.where(np.isinf(colour), F.BAD_INPUT, 0)
+    or_flag(flags, np.isinf(colour), F.BAD_INPUT)
     g_sig = error_or_zero(a["g_err"], n, flags, "g_err")
     c_sig = error_or_zero(a["bp_rp_err"], n, flags, "bp_rp_err")
     p_sig = error_or_zero(a["plx_err"], n, flags, "parallax_err")
     t_sig_in = error_or_zero(a["teff_err"], n, flags, "teff_err")
     feh_used = np.where(np.isfinite(a["feh"]), a["feh"], 0.0) if a["feh"] is not None else np.zeros(n)
     teff_in = a["teff"] if a["teff"] is not None else nan.copy()
-    flags |= np.where(np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT, 0)
+    or_flag(flags, np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT)
     teff_given = np.isfinite(teff_in) & (teff_in > 0)
 
     # --- extinction ---------------------------------------------------------------------------
@@ -213,7 +213,7 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
         ext_label = f"ext: {extinction_curve} R_V={float(r_v):g}"
     else:
         ext_label = "ext: none"
-    flags |= np.where(ext_given, 0, F.NO_EXTINCTION)
+    or_flag(flags, ~ext_given, F.NO_EXTINCTION)
     c0 = np.where(colour_finite, colour - e_arr, np.nan)
     g0 = np.where(g_ok, gmag - a_g_arr, np.nan)
 
@@ -271,7 +271,7 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
         sig_cal = np.where(fb, np.hypot(c21.SIGMA, c21.ZERO_POINT_SIGMA),
                            np.where(giant, mucciarelli2021.SIGMA["giant"], mucciarelli2021.SIGMA["dwarf"]))
         tcode = np.where(fb, 6, np.where(giant, 5, 4))
-        flags |= np.where(fb & ~teff_given, F.COLOUR_OUT_OF_RANGE, 0)
+        or_flag(flags, fb & ~teff_given, F.COLOUR_OUT_OF_RANGE)
 
         def t_of_c(x, i):
             fi = feh_used[i]
@@ -281,10 +281,10 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
             return np.where(fb[i], c21.teff(x, np.clip(gw_eval[i], *c21.LOGG_RANGE), fi, **rel_kw), tm)
 
     need_colour = ~teff_given
-    flags |= np.where(need_colour & ~colour_finite & ~np.isinf(colour), F.MISSING_INPUT, 0)
+    or_flag(flags, need_colour & ~colour_finite & ~np.isinf(colour), F.MISSING_INPUT)
     col_out = need_colour & colour_finite & ~np.isfinite(t_col)
-    flags |= np.where(col_out, F.COLOUR_OUT_OF_RANGE, 0)
-    flags |= np.where(need_colour & far_below & np.isfinite(t_col), F.OUTSIDE_VALIDITY, 0)
+    or_flag(flags, col_out, F.COLOUR_OUT_OF_RANGE)
+    or_flag(flags, need_colour & far_below & np.isfinite(t_col), F.OUTSIDE_VALIDITY)
     teff_out = np.where(teff_given, teff_in, t_col)
     tcode = np.where(teff_given, 1, np.where(np.isfinite(teff_out), tcode, 0))
 
@@ -292,9 +292,9 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     bc, use_fb = _gaia_bc(teff_out, c0)
     t_ok = np.isfinite(teff_out)
     fb_used = t_ok & use_fb & np.isfinite(bc)
-    flags |= np.where(fb_used, F.BC_FALLBACK, 0)
-    flags |= np.where(t_ok & ~np.isfinite(bc) & ~colour_finite, F.MISSING_INPUT, 0)
-    flags |= np.where(t_ok & ~np.isfinite(bc) & colour_finite, F.OUTSIDE_VALIDITY, 0)
+    or_flag(flags, fb_used, F.BC_FALLBACK)
+    or_flag(flags, t_ok & ~np.isfinite(bc) & ~colour_finite, F.MISSING_INPUT)
+    or_flag(flags, t_ok & ~np.isfinite(bc) & colour_finite, F.OUTSIDE_VALIDITY)
     logl = bolometric.logl_from_mbol(abs_g + bc, bolometric.IAU_MBOL_SUN)
     lcode = np.where(np.isfinite(logl), np.where(fb_used, 2, 1), 0)
     bc_sig = np.where(fb_used, riello2021.SIGMA, bolometric.bc_g_andrae_sigma(teff_out))
@@ -393,7 +393,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     v_ok = check_values(flags, vmag)
     bv = a["b_v"]
     bv_finite = np.isfinite(bv)
-    flags |= np.where(np.isinf(bv), F.BAD_INPUT, 0)
+    or_flag(flags, np.isinf(bv), F.BAD_INPUT)
     vks = a["v_ks"] if a["v_ks"] is not None else nan.copy()
     v_sig = error_or_zero(a["v_err"], n, flags, "v_err")
     bv_sig = error_or_zero(a["b_v_err"], n, flags, "b_v_err")
@@ -402,7 +402,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     t_sig_in = error_or_zero(a["teff_err"], n, flags, "teff_err")
     feh_used = np.where(np.isfinite(a["feh"]), a["feh"], 0.0) if a["feh"] is not None else np.zeros(n)
     teff_in = a["teff"] if a["teff"] is not None else nan.copy()
-    flags |= np.where(np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT, 0)
+    or_flag(flags, np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT)
     teff_given = np.isfinite(teff_in) & (teff_in > 0)
 
     # --- extinction ---------------------------------------------------------------------------
@@ -423,7 +423,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
         ext_label = f"ext: {extinction_curve} R_V={float(r_v):g}"
     else:
         ext_label = "ext: none"
-    flags |= np.where(ext_given, 0, F.NO_EXTINCTION)
+    or_flag(flags, ~ext_given, F.NO_EXTINCTION)
     bv0 = np.where(bv_finite, bv - ebv_arr, np.nan)
     vks0 = vks - av_arr * (1.0 - k_ks)
     v0 = np.where(v_ok, vmag - av_arr, np.nan)
@@ -454,16 +454,16 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
                                                    casagrande2010.RELATIONS["B-V"].sigma], flower_teff.SIGMA)
 
     need_colour = ~teff_given
-    flags |= np.where(need_colour & ~bv_finite & ~np.isinf(bv) & ~np.isfinite(t_col), F.MISSING_INPUT, 0)
-    flags |= np.where(need_colour & bv_finite & ~np.isfinite(t_col), F.COLOUR_OUT_OF_RANGE, 0)
-    flags |= np.where(need_colour & far_below & np.isfinite(t_col), F.OUTSIDE_VALIDITY, 0)
+    or_flag(flags, need_colour & ~bv_finite & ~np.isinf(bv) & ~np.isfinite(t_col), F.MISSING_INPUT)
+    or_flag(flags, need_colour & bv_finite & ~np.isfinite(t_col), F.COLOUR_OUT_OF_RANGE)
+    or_flag(flags, need_colour & far_below & np.isfinite(t_col), F.OUTSIDE_VALIDITY)
     # B-V saturates for M dwarfs: Flower's Teff of a dwarf redder than 1.40 is kept but flagged
-    flags |= np.where(need_colour & dwarf & (tcode == 4) & (bv0 > DWARF_MAX_BV_FLOWER), F.COLOUR_OUT_OF_RANGE, 0)
+    or_flag(flags, need_colour & dwarf & (tcode == 4) & (bv0 > DWARF_MAX_BV_FLOWER), F.COLOUR_OUT_OF_RANGE)
     teff_out = np.where(teff_given, teff_in, t_col)
     tcode = np.where(teff_given, 1, np.where(np.isfinite(teff_out), tcode, 0))
 
     bc = bolometric.bc_v_flower(teff_out)
-    flags |= np.where(np.isfinite(teff_out) & ~np.isfinite(bc), F.OUTSIDE_VALIDITY, 0)
+    or_flag(flags, np.isfinite(teff_out) & ~np.isfinite(bc), F.OUTSIDE_VALIDITY)
     logl = bolometric.logl_from_mbol(abs_v + bc, bolometric.FLOWER_MBOL_SUN)
     lcode = np.where(np.isfinite(logl), 1, 0)
 
