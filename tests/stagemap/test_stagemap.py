@@ -178,3 +178,42 @@ def test_hot_white_dwarf_widening():
     # no change at or below 30 kK (where the widening starts)
     sm, s0 = stage_map(0.0), stage_map(0.0, wd_hot_tolerance=0.0)
     assert sm.wd_edge(np.log10(25000.0), "upper") == pytest.approx(s0.wd_edge(np.log10(25000.0), "upper"))
+
+
+def test_piecewise_linear_matches_np_interp():
+    # the bucketed evaluation must be the piecewise-linear function np.interp gives (numpy's
+    # documented definition), at knots, between them, at both ends, outside and on NaN
+    from hrstage.stagemap._map import PiecewiseLinear
+
+    sm = stage_map(0.0)
+    rng = np.random.default_rng(21)
+    cases = [sm._ms_top, (sm._zams_logt, sm._logm), (sm._zams_logl, sm._logm),
+             (np.sort(rng.uniform(0, 1, 60)), rng.normal(size=60))]
+    for xp, fp in cases:
+        xp, fp = np.asarray(xp, float), np.asarray(fp, float)
+        f = PiecewiseLinear(xp, fp)
+        o = np.argsort(xp, kind="stable")
+        keep = np.r_[xp[o][1:] != xp[o][:-1], True]
+        xs, fs = xp[o][keep], fp[o][keep]
+        x = np.r_[rng.uniform(xs[0] - 0.2, xs[-1] + 0.2, 200_000), xs, xs[0], xs[-1], np.nan]
+        want = np.interp(x, xs, fs, left=np.nan, right=np.nan)
+        got = f(x)
+        assert np.allclose(got, want, rtol=1e-12, atol=1e-12, equal_nan=True)
+        assert np.isnan(got[-1]) and got[-2] == fs[-1] and got[-3] == fs[0]
+
+
+def test_free_run_raster_is_conservative():
+    # every cell within the stored run (both sides, both axes) has the cell's stage: probes of
+    # fewer cells cannot change the label (what the classifier relies on to skip them)
+    sm = stage_map(0.0)
+    c = sm.codes.values
+    v = sm.free_run.values
+    unit = sm.FREE_RUN_UNIT
+    rng = np.random.default_rng(5)
+    ny, nx = c.shape
+    for j, i in zip(rng.integers(0, ny, 3000), rng.integers(0, nx, 3000)):
+        kx, ky = int(v[j, i] & 15) * unit, int(v[j, i] >> 4) * unit
+        assert i - kx >= 0 and i + kx < nx and j - ky >= 0 and j + ky < ny
+        assert (c[j, i - kx : i + kx + 1] == c[j, i]).all()
+        assert (c[j - ky : j + ky + 1, i] == c[j, i]).all()
+    assert (v & 15).mean() > 2  # and it is not trivially zero
