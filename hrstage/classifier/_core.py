@@ -645,6 +645,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     flags[no_feh] |= F.NO_METALLICITY
     has_err_all = (st > 0) | (sl > 0)
     single = len(groups) == 1
+    drew = False  # whether any probabilities came from draws (else they are one-hot at the label)
     for gi, (fg, idx) in enumerate(groups.items()):
         sm = stage_map(fg, **stage_kw)
         maps.append(sm)
@@ -670,6 +671,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         e = None if has_err.all() else np.nonzero(has_err)[0]
         # probabilities
         if n_draws > 0 and has_err.any():
+            drew = True
             te, le, se, de, re_ = (t, l, ts, ls, rs) if e is None else (t[e], l[e], ts[e], ls[e], rs[e])
             cnt = _mc_counts(sm, te, le, se, de, re_, z1, z2)
             if e is None and single:
@@ -860,9 +862,13 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     note("4near", near, near_text)
     note("6nomass", np.nonzero(nomass)[0], "no mass relation applies here (mass NaN)")
     # low probability
-    sp = _row_pick(proba, code)
-    low = finite & (sp < opts["low_probability"])
-    flags[low] |= F.LOW_PROBABILITY
+    if drew or opts["low_probability"] > 1.0:
+        sp = _row_pick(proba, code)
+        low = finite & (sp < opts["low_probability"])
+        flags[low] |= F.LOW_PROBABILITY
+    else:  # one-hot at the label: P(label) = 1 for every row
+        sp = None
+        low = np.zeros(n, dtype=bool)
     note("7low", low, lambda ii: format_codes(
         lambda k, p, kb, pb: f"label uncertain: P({STAGES[k]})={p:.2f}, most probable {STAGES[kb]} ({pb:.2f})",
         len(ii), (code[ii], None), (sp[ii], ".2f"), (np.argmax(proba[ii], axis=1), None), (proba[ii].max(axis=1), ".2f")))
