@@ -653,7 +653,14 @@ def _worker_init(opts, attrs, spill):
 def _classify_one(chunk, opts, offset, attrs):
     from .catalog.formats import describe_columns
 
-    res = classify_chunk(chunk, opts, offset=offset, attrs=attrs)
+    try:
+        res = classify_chunk(chunk, opts, offset=offset, attrs=attrs)
+    except HrstageInputError as exc:
+        if offset == 0:
+            raise
+        n = _rows_of(chunk)  # rows in the message are counted within the chunk: say which chunk
+        raise HrstageInputError(f"{exc} (in the chunk of data rows {offset}-{offset + n - 1}, "
+                                f"counted from 0; row numbers above are within the chunk)") from None
     if attrs is None:
         describe_columns(res, prefix=opts.prefix)
     return res

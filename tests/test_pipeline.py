@@ -257,3 +257,24 @@ def test_workers_option_checked(tmp_path):
     src = tmp_path / "in.parquet"
     write_table(_mixed_population(50), src)
     assert classify_file(src, tmp_path / "o.parquet", workers=2)["workers"] == 1
+
+
+@pytest.mark.parametrize("workers", [1, 2])
+def test_error_in_a_later_chunk_names_the_rows_and_leaves_nothing(tmp_path, monkeypatch, workers):
+    import tempfile
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    spill_base = tmp_path / "tmp"
+    spill_base.mkdir()
+    monkeypatch.setattr(tempfile, "tempdir", str(spill_base))
+    n = 3000
+    teff = np.array([str(5000 + i % 100) for i in range(n)], dtype=object)
+    teff[2000:] = "hot"                     # a column of words from row 2000 on: the wrong column
+    pq.write_table(pa.table({"teff": teff, "lum": np.ones(n)}), tmp_path / "in.parquet")
+    out = tmp_path / "out.parquet"
+    with pytest.raises(HrstageInputError, match=r"teff.*data rows 2000-2499"):
+        classify_file(tmp_path / "in.parquet", out, chunk_rows=500, workers=workers)
+    assert not out.exists() and not list(tmp_path.glob(".*"))
+    assert not list(spill_base.iterdir())     # the workers' result folder is removed
