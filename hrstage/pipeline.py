@@ -645,9 +645,9 @@ def resolve_workers(workers) -> int:
 _WORKER_STATE: tuple | None = None
 
 
-def _worker_init(opts, attrs, spill):
+def _worker_init(opts, attrs, spill, out_format):
     global _WORKER_STATE
-    _WORKER_STATE = (opts, attrs, spill)
+    _WORKER_STATE = (opts, attrs, spill, out_format)
 
 
 def _classify_one(chunk, opts, offset, attrs):
@@ -667,30 +667,49 @@ def _classify_one(chunk, opts, offset, attrs):
 
 
 def _worker_task(chunk, offset):
-    """Classify one chunk in a worker. An Arrow result goes back as an Arrow IPC file in the
-    run's spill folder (the parent memory-maps it: no pickling of ~300 bytes per row through a
-    pipe, measured as the parent's main cost); an astropy Table is returned as it is."""
+    """Classify one chunk in a worker; returns ``(kind, payload, tally)``.
+
+    For a CSV output the worker also formats the rows (``"csv"``: the text without header and the
+    column names), the slow part of CSV writing. Otherwise an Arrow result goes back as an Arrow IPC
+    file in the run's spill folder (``"file"``: the parent memory-maps it; pickling ~300 bytes per
+    row through a pipe was measured as the parent's main cost), an astropy Table as it is
+    (``"table"``). ``tally`` is :func:`_chunk_tally` of the result.
+    """
     import os
 
-    opts, attrs, spill = _WORKER_STATE
+    opts, attrs, spill, out_format = _WORKER_STATE
     res = _classify_one(chunk, opts, offset, attrs)
+    tally = _chunk_tally(res, opts.prefix)
+    if out_format == "csv":
+        from .catalog.arrow import arrow_to_table
+        from .catalog.formats import csv_text
+
+        table = arrow_to_table(res) if _is_arrow(res) else res
+        return "csv", (csv_text(table, header=False), list(table.colnames)), tally
     if spill is None or not _is_arrow(res):
-        return "table", res
+        return "table", res, tally
     import pyarrow as pa
 
     path = os.path.join(spill, f"chunk-{offset}.arrow")
     with pa.OSFile(path, "wb") as sink, pa.ipc.new_file(sink, res.schema) as ipc:
         ipc.write_table(res)
-    return "file", path
+    return "file", path, tally
+
+
+def _chunk_tally(res, prefix):
+    """(stage names, counts, flag integers, rows) of one classified chunk."""
+    stage, fl = _chunk_counts(res, prefix)
+    return stage[0], np.asarray(stage[1]), fl, _rows_of(res)
 
 
 class _Received:
     """A worker's result in the parent: the table, and the memory map to release after writing."""
 
     def __init__(self, item):
-        kind, value = item
+        kind, value, self.tally = item
+        self.kind = kind
         self.path = self.source = None
-        if kind == "table":
+        if kind in ("table", "csv"):
             self.table = value
             return
         import pyarrow as pa
@@ -787,22 +806,27 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
     try:
         with ChunkWriter(out, output_format, overwrite=overwrite, inputs=[inp]) as writer:
 
-            def take(res):
-                writer.write(res)
-                stage, fl = _chunk_counts(res, opts.prefix)
-                for name, c in zip(*stage):
+            def count(names, cnt, fl, n):
+                for name, c in zip(names, cnt):
                     counts[stage_code[name]] += c
                 tally["flagged"] += int(((fl & ~quiet_bits) != 0).sum())
                 tally["conflicts"] += int(((fl & F.SPTYPE_CONFLICT) != 0).sum())
-                n = _rows_of(res)
                 tally["rows"] += n
                 if bar is not None:
                     bar.update(n)
 
+            def take(res):
+                writer.write(res)
+                count(*_chunk_tally(res, opts.prefix))
+
             def take_from(async_result):
                 got = _Received(async_result.get())
                 try:
-                    take(got.table)
+                    if got.kind == "csv":
+                        writer.write_csv_text(got.table[0], got.table[1], got.tally[3])
+                    else:
+                        writer.write(got.table)
+                    count(*got.tally)
                 finally:
                     got.release()
 
@@ -819,7 +843,7 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                     if pool is None:    # second chunk: start the workers, after the maps exist
                         spill = tempfile.mkdtemp(prefix="hrstage-chunks-")
                         pool = _pool_context().Pool(n_workers, initializer=_worker_init,
-                                                    initargs=(opts, attrs, spill))
+                                                    initargs=(opts, attrs, spill, writer.format))
                         used = n_workers
                     pending.append(pool.apply_async(_worker_task, (chunk, offset)))
                     while len(pending) >= 2 * n_workers:

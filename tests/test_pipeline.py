@@ -228,7 +228,8 @@ def _mixed_population(n, seed=11):
                   "lum_err": 0.1 * 10 ** logl, "feh": feh})
 
 
-@pytest.mark.parametrize("suffix, out_suffix", [(".parquet", ".parquet"), (".ecsv", ".csv"), (".fits", ".parquet")])
+@pytest.mark.parametrize("suffix, out_suffix", [(".parquet", ".parquet"), (".parquet", ".csv"), (".ecsv", ".csv"),
+                                                (".fits", ".parquet")])
 def test_workers_give_the_same_bytes(tmp_path, suffix, out_suffix):
     # 2 worker processes: same file, byte for byte, as one process (order, Monte Carlo streams per
     # chunk offset, metadata), over several chunks (CSV input reads blocks of >= 4 MiB, so a small

@@ -334,6 +334,22 @@ class ChunkWriter:
             self._kept.append(chunk)
         self.rows += len(chunk)
 
+    def write_csv_text(self, text: str, names, rows: int) -> None:
+        """Append a chunk already formatted by :func:`~hrstage.catalog.formats.csv_text` (without
+        its header line), e.g. by a worker process; CSV output only, after a first chunk.
+
+        ``names`` are the chunk's column names (checked against the first chunk's), ``rows`` its
+        number of rows.
+        """
+        if self._closed:
+            raise RuntimeError("writer already closed")
+        if self.format != "csv" or self._writer is None:
+            raise RuntimeError("write_csv_text needs a CSV output whose first chunk is written")
+        if list(names) != self._names:
+            raise HrstageInputError(f"chunk at row {self.rows} does not have the columns of the first chunk")
+        self._writer.write(text)
+        self.rows += int(rows)
+
     def _write_arrow(self, data) -> None:
         import pyarrow as pa
         import pyarrow.parquet as pq
