@@ -84,6 +84,7 @@ def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000, before=None, repeats
     ll = rng.uniform(-3, 5, n_point)
     sm = stage_map(0.0)
     sm.locate(lt[:10], ll[:10])
+    print(f"stage map build (uncached, [Fe/H]=-1): {median_time(lambda: type(sm)(-1.0), repeats=3):8.3f} s")
     base = median_time(lambda: np.log10(lt) + ll)
     loc = median_time(lambda: sm.locate(lt, ll))
     print(f"baseline np.log10(a)+b          : {n_point / base / 1e6:8.1f} M stars/s")

@@ -26,7 +26,7 @@ from ..stages import (
 )
 from ._loci import LOG_TSUN, Loci, logt_from_lr
 from ._params import StageParams
-from ._raster import Grid, Lookup, fill_polygon
+from ._raster import Grid, Lookup, fill_polygon_strips
 
 #: bit of a raw raster code: the cell is in the unresolved-binary band above the main sequence
 RAW_BINARY = 16
@@ -162,11 +162,13 @@ class PiecewiseLinear:
         return y
 
 
-def _invert_tracks(track_logt, track_logl, logm, row_logl, col_logt):
+def _invert_tracks(track_logt, track_logl, logm, row_logl, col_logt, rows=None):
     """Mass raster from tracks: each track is cut at each row's log L, masses interpolated in T.
 
     Rows where fewer than two tracks reach the luminosity get NaN; along a row, cells beyond the
-    outermost tracks get the mass of the nearest one (clamped).
+    outermost tracks get the mass of the nearest one (clamped). ``rows`` (boolean, one per row):
+    only these rows are computed, the others are left NaN (the rows where no cell needs the
+    result; the computed rows do not depend on the others).
     """
     n_m = len(logm)
     tcut = np.full((len(row_logl), n_m), np.nan)
@@ -181,7 +183,8 @@ def _invert_tracks(track_logt, track_logl, logm, row_logl, col_logt):
         tl = np.maximum.accumulate(tl)
         tcut[:, i] = np.interp(row_logl, tl, tt, left=np.nan, right=np.nan)
     out = np.full((len(row_logl), len(col_logt)), np.nan, dtype=np.float32)
-    for r in range(len(row_logl)):
+    todo = range(len(row_logl)) if rows is None else np.flatnonzero(rows)
+    for r in todo:
         ok = np.isfinite(tcut[r])
         if ok.sum() < 2:
             continue
@@ -357,19 +360,21 @@ class StageMap:
         g = self.grid
         raw = np.full((g.ny, g.nx), UNCLASSIFIED, dtype=np.int8)
         for code, poly in self._polygons():
-            mask = fill_polygon(poly, g)
-            if code == "hb":
-                # core-He burning is long-lived, the gap crossing fast: giant where they overlap
-                mask &= (raw & RAW_STAGE) == SUBGIANT
-                raw[mask] = (raw[mask] & ~np.int8(RAW_STAGE)) | np.int8(GIANT | RAW_HB)
-            elif code == "binary":
-                mask &= (raw & RAW_STAGE) != MAIN_SEQUENCE
-                if self.params.binary_promote:
-                    raw[mask] |= RAW_BINARY
+            # painted strip by strip, on views of the raster, only where the polygon lies
+            for (j0, j1, i0, i1), mask in fill_polygon_strips(poly, g):
+                sub = raw[j0:j1, i0:i1]
+                if code == "hb":
+                    # core-He burning is long-lived, the gap crossing fast: giant where they overlap
+                    mask &= (sub & RAW_STAGE) == SUBGIANT
+                    np.copyto(sub, (sub & ~np.int8(RAW_STAGE)) | np.int8(GIANT | RAW_HB), where=mask)
+                elif code == "binary":
+                    mask &= (sub & RAW_STAGE) != MAIN_SEQUENCE
+                    if self.params.binary_promote:
+                        np.bitwise_or(sub, np.int8(RAW_BINARY), out=sub, where=mask)
+                    else:
+                        np.copyto(sub, np.int8(MAIN_SEQUENCE | RAW_BINARY), where=mask)
                 else:
-                    raw[mask] = MAIN_SEQUENCE | RAW_BINARY
-            else:
-                raw[mask] = code
+                    np.copyto(sub, np.int8(code), where=mask)
         # main sequence cooler than the ZAMS of 0.1 Msun: extrapolated
         tc, _ = g.centres()
         cool = tc < self._logt_valid_min
@@ -389,16 +394,18 @@ class StageMap:
         m = L.m
         logm = np.log10(m)
         # main sequence
+        # rows holding cells of each stage (the track inversions are needed only there)
+        rows_of = {code: (codes == code).any(axis=1) for code in (MAIN_SEQUENCE, SUBGIANT, GIANT, BRIGHT_GIANT)}
         tr_t, tr_l = L.ms_tracks(m)
-        ms_raster = _invert_tracks(tr_t, tr_l, logm, cl, ct)
+        ms_raster = _invert_tracks(tr_t, tr_l, logm, cl, ct, rows=rows_of[MAIN_SEQUENCE])
         # Hertzsprung gap
         ev = L.evolved & (m < 0.999 * self.m_fgb)
         hg_t, hg_l = L.hg_tracks(m[ev])
-        hg_raster = _invert_tracks(hg_t, hg_l, logm[ev], cl, ct)
+        hg_raster = _invert_tracks(hg_t, hg_l, logm[ev], cl, ct, rows=rows_of[SUBGIANT])
         # giant branch / AGB (masses below M_FGB have a giant branch)
         gb = L.evolved & (m < 0.999 * self.m_fgb)
         gt, gl = L.giant_tracks(m[gb], logl_max=min(g.l1, 5.5))
-        gb_raster = _invert_tracks(gt, gl, logm[gb], cl, ct)
+        gb_raster = _invert_tracks(gt, gl, logm[gb], cl, ct, rows=rows_of[GIANT] | rows_of[BRIGHT_GIANT])
         # supergiants: mean post-MS luminosity -> mass (monotone part above M_HeF)
         hi = (m >= self.m_hef) & np.isfinite(L.logl_post)
         lp = np.maximum.accumulate(L.logl_post[hi])
@@ -407,15 +414,16 @@ class StageMap:
         # white dwarfs: radius from (T, L), then eq 91 inverted
         mw = np.linspace(0.1, 1.43, 400)
         rw = np.log10(hpt.wd_radius(mw))
-        logr = 0.5 * cl[:, None] - 2.0 * (ct[None, :] - LOG_TSUN)
-        wd_raster = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.nan)
+        wsel = codes == WHITE_DWARF  # evaluated in the white-dwarf cells only
+        wr, wc = np.nonzero(wsel)
+        logr = 0.5 * cl[wr] - 2.0 * (ct[wc] - LOG_TSUN)
+        mass[wsel] = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.nan)
         for code, src in (
             (MAIN_SEQUENCE, ms_raster),
             (SUBGIANT, hg_raster),
             (GIANT, gb_raster),
             (BRIGHT_GIANT, gb_raster),
             (SUPERGIANT, sg_raster),
-            (WHITE_DWARF, wd_raster),
         ):
             sel = codes == code
             mass[sel] = src[sel]

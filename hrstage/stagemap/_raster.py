@@ -52,15 +52,50 @@ class Grid:
 def fill_polygon(poly: np.ndarray, grid: Grid) -> np.ndarray:
     """Boolean mask (ny, nx) of the cells whose centre lies inside a closed polygon.
 
-    Even-odd scan-line fill, vectorised: every edge is cut with the rows of cell centres it spans
-    (half-open in y so that vertices are counted once), the cuts of each row are sorted and the
-    cells between successive pairs are switched on through a cumulative sum.
+    Even-odd scan-line fill (see :func:`fill_polygon_strips`, which does the work on narrow
+    windows around the polygon only); this puts the strips into a full-size mask.
 
     Parameters
     ----------
     poly : ndarray (K, 2)
         Vertices (log Teff, log L); closing edge implied. NaN vertices are not allowed.
     grid : Grid
+    """
+    mask = np.zeros((grid.ny, grid.nx), dtype=bool)
+    for (j0, j1, i0, i1), sub in fill_polygon_strips(poly, grid):
+        mask[j0:j1, i0:i1] = sub
+    return mask
+
+
+#: rows of cell centres per strip of :func:`fill_polygon_strips`
+STRIP_ROWS = 128
+
+
+def fill_polygon_strips(poly: np.ndarray, grid: Grid, rows: int = STRIP_ROWS) -> list:
+    """Cells whose centre lies inside a closed polygon, as masks of narrow windows (strips).
+
+    Even-odd scan-line fill, vectorised: every edge is cut with the rows of cell centres it spans
+    (half-open in y so that vertices are counted once), the cuts of each row are sorted and the
+    cells between successive pairs are switched on through a cumulative sum along the row. The
+    rows are taken ``rows`` at a time, each block only between its first and its last cut (the
+    cells outside hold no cut and are outside), so the work follows the polygon's outline rather
+    than its bounding box: a thin diagonal band (the main sequence, the white-dwarf band) costs
+    little on a large grid.
+
+    Parameters
+    ----------
+    poly : ndarray (K, 2)
+        Vertices (log Teff, log L); closing edge implied. NaN vertices are not allowed.
+    grid : Grid
+    rows : int
+        Rows per strip.
+
+    Returns
+    -------
+    list of ((j0, j1, i0, i1), mask)
+        Disjoint windows ``rows j0:j1, columns i0:i1`` of the (ny, nx) raster, top to bottom, and
+        their boolean masks; cells of the raster in no window are outside. Empty if no cell
+        centre is inside.
     """
     poly = np.asarray(poly, dtype=float)
     nx, ny = grid.nx, grid.ny
@@ -73,10 +108,9 @@ def fill_polygon(poly: np.ndarray, grid: Grid) -> np.ndarray:
     jhi = np.clip(np.ceil(yhi), 0, ny).astype(np.int64)  # exclusive
     count = np.where(y1 != y2, jhi - jlo, 0)
     count = np.maximum(count, 0)
-    mask = np.zeros((ny, nx), dtype=bool)
     total = int(count.sum())
     if total == 0:
-        return mask
+        return []
     edge = np.repeat(np.arange(len(x)), count)
     start = np.repeat(np.cumsum(count) - count, count)
     j = jlo[edge] + (np.arange(total) - start)
@@ -88,11 +122,23 @@ def fill_polygon(poly: np.ndarray, grid: Grid) -> np.ndarray:
     first = np.r_[True, j[1:] != j[:-1]]
     rank = np.arange(total) - np.maximum.accumulate(np.where(first, np.arange(total), 0))
     sign = np.where(rank % 2 == 0, 1, -1).astype(np.int16)
-    diff = np.zeros((ny, nx + 1), dtype=np.int16)
-    np.add.at(diff, (j, c), sign)
-    inside = np.cumsum(diff[:, :nx], axis=1, dtype=np.int16) > 0
-    mask |= inside
-    return mask
+    block = j // int(rows)
+    cuts = np.r_[0, np.flatnonzero(block[1:] != block[:-1]) + 1, total]
+    out = []
+    for a, b in zip(cuts[:-1], cuts[1:]):
+        jj, cc, ss = j[a:b], c[a:b], sign[a:b]
+        j0, j1 = int(jj[0]), int(jj[-1]) + 1
+        i0 = int(cc.min())
+        # a row with an odd number of cuts (only from a degenerate polygon) stays on to the edge
+        odd = (np.bincount(jj - j0, weights=ss) != 0).any()
+        i1 = nx if odd else int(cc.max())
+        if i1 <= i0:
+            continue
+        diff = np.zeros((j1 - j0, i1 - i0 + 1), dtype=np.int16)
+        np.add.at(diff, (jj - j0, cc - i0), ss)
+        inside = np.cumsum(diff[:, : i1 - i0], axis=1, dtype=np.int16) > 0
+        out.append(((j0, j1, i0, i1), inside))
+    return out
 
 
 class Lookup:
