@@ -516,6 +516,9 @@ def _gather(lk, x, y, dx=0.0, dy=0.0):
     return lk.flat.take(i)
 
 
+# post-main-sequence stages that a supplied mass >= M_sg turns into supergiant
+_POST_MS_PROMOTABLE = np.array([SUBGIANT, GIANT, BRIGHT_GIANT, SUPERGIANT], dtype=np.int8)
+
 def classify_hr(
     logt,
     logl,
@@ -741,8 +744,13 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         if len(pr_) < len(c):
             x, y, pt, pl, cref = x[pr_], y[pr_], pt[pr_], pl[pr_], cref[pr_]
         sub = np.full(len(pr_), -1, dtype=np.int8)
+        # a star promoted to supergiant by its supplied mass would be promoted at any post-MS
+        # probe too: there the probe's label is the same, not a neighbouring stage
+        prm = promote[pr_] if promote.any() else None
         for dx, dy in ((pt, 0.0), (-pt, 0.0), (0.0, pl), (0.0, -pl)):
             cc = _gather(lk, x, y, dx, dy)
+            if prm is not None:
+                cc = np.where(prm & np.isin(cc, _POST_MS_PROMOTABLE), SUPERGIANT, cc).astype(cc.dtype)
             hit = (sub < 0) & (cc != cref)
             sub[hit] = cc[hit]
         nb[pr_] = sub

@@ -368,3 +368,18 @@ def test_row_result_does_not_depend_on_other_rows():
             assert other.code[j] == full.code[i] and other.flags[j] == full.flags[i]
             assert other.flag_text[j] == full.flag_text[i] and other.reason[j] == full.reason[i]
             assert other.feh_used[j] == full.feh_used[i]
+
+
+def test_supplied_mass_promotion_is_not_a_boundary():
+    """A red giant position with a supplied mass above the supergiant mass is labelled supergiant;
+    its error probes land on giant cells, which the same supplied mass would promote too, so the
+    star is not 'near a boundary' unless the star without a supplied mass is (the 10 Msun value
+    is a constructed case; the promotion rule is design.md's supergiant definition)."""
+    lt = np.log10([4500.0, 4400.0])
+    ll = np.array([2.0, 2.3])
+    plain = classify_hr(lt, ll, logt_err=0.01, logl_err=0.05)
+    heavy = classify_hr(lt, ll, logt_err=0.01, logl_err=0.05, mass=10.0)
+    assert list(plain.stage) == ["giant", "giant"]
+    assert list(heavy.stage) == ["supergiant", "supergiant"]
+    assert not np.any(plain.flags & F.NEAR_BOUNDARY)
+    assert not np.any(heavy.flags & F.NEAR_BOUNDARY)
