@@ -182,7 +182,8 @@ def test_error_model_gaia():
     assert r.logt_err[0] > 0 and r.logl_err[0] > 0
     assert -1 <= r.corr[0] < 0
     # calibration scatter alone (zero measurement errors) still gives a Teff error (Casagrande 2021:
-    # ~70 K + 20 K zero point in quadrature)
+    # ~70 K + 20 K zero point in quadrature; the 70 K scatter is from memory, the 20 K zero point is
+    # the author's code, formulae.md §5.4)
     r0 = from_gaia(10.0, 1.2, 5.0)
     sig_t = r0.logt_err[0] * np.log(10) * r0.teff[0]
     assert sig_t == pytest.approx(np.hypot(70, 20), rel=1e-6)

@@ -157,10 +157,10 @@ def test_white_dwarf_radius_section_2_8():
     np.testing.assert_allclose(
         hpt.wd_radius([0.4, 0.6, 0.8, 1.0, 1.2]), [0.01595, 0.01278, 0.01031, 0.00806, 0.00568], atol=5.1e-6
     )
-    # a 0.6 Msun WD: log L = -1.63 at 20 000 K, -3.22 at 8 000 K, -4.04 at 5 000 K
+    # a 0.6 Msun WD: log L = -1.63 at 20 000 K, -3.22 at 8 000 K, -4.04 at 5 000 K (formulae.md §2.8 [C])
     np.testing.assert_allclose(logl_from_rt(hpt.wd_radius(0.6), [20000, 8000, 5000]), [-1.63, -3.22, -4.04], atol=0.0051)
     assert np.isnan(hpt.wd_radius([0.05, 1.5])).all()
-    assert hpt.wd_radius(1.44) == pytest.approx(1.4e-5)  # neutron-star floor at M_Ch
+    assert hpt.wd_radius(1.44) == pytest.approx(1.4e-5)  # neutron-star floor at M_Ch (HPT2000 eq 91, formulae.md §2.8)
 
 
 def test_original_sse_lifetimes():
@@ -170,7 +170,7 @@ def test_original_sse_lifetimes():
     # first MS time step = 0.05 t_MS: 550.1565, 58.2081, 18.8768 Myr for 1, 2, 3 Msun (printed to
     # 4 decimals; the notes' own value for 2 Msun is 58.2082, so one unit of slack)
     np.testing.assert_allclose(0.05 * hpt.t_ms([1.0, 2.0, 3.0], 0.02), [550.1565, 58.2081, 18.8768], atol=1.5e-4)
-    # 5 Msun enters the Hertzsprung gap at 104.0 Myr and the giant branch at 104.4 Myr
+    # [V-ref] (formulae.md §2.9): 5 Msun enters the Hertzsprung gap at 104.0 Myr and the giant branch at 104.4 Myr
     assert hpt.t_ms(5.0, 0.02) == pytest.approx(104.0, abs=0.05)
     assert hpt.t_bgb(5.0, 0.02) == pytest.approx(104.4, abs=0.05)
 
