@@ -12,7 +12,6 @@ before/after ratio does not depend on the load of a shared machine.
 """
 
 import argparse
-import importlib.util
 import os
 import subprocess
 import sys
@@ -20,50 +19,26 @@ import sys
 for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[var] = "1"
 
-import time  # noqa: E402
 
 import numpy as np  # noqa: E402
+from _bench_util import exec_module, git_show, median_time  # noqa: E402
 
 from hrstage.classifier import _core, classify_hr  # noqa: E402
 from hrstage.stagemap import stage_map  # noqa: E402
 
 
-def median_time(fn, repeats=5):
-    ts = []
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t0)
-    return float(np.median(ts))
-
-
-def _git_show(rev, path):
-    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-    return subprocess.run(["git", "show", f"{rev}:{path}"], cwd=root, check=True, capture_output=True,
-                          text=True).stdout
-
-
-def _exec_module(name, src, label):
-    spec = importlib.util.spec_from_loader(name, loader=None)
-    mod = importlib.util.module_from_spec(spec)
-    mod.__package__ = "hrstage.classifier"
-    sys.modules[name] = mod
-    exec(compile(src, label, "exec"), mod.__dict__)
-    return mod
-
-
 def load_before(rev):
     """``hrstage.classifier._core`` as it was at git revision ``rev`` (a module beside ours), with
     the text helpers ``_text`` of the same revision; the stage map (layer 2) is the current one."""
-    src = _git_show(rev, "hrstage/classifier/_core.py")
+    src = git_show(rev, "hrstage/classifier/_core.py")
     try:
-        text_src = _git_show(rev, "hrstage/classifier/_text.py")
+        text_src = git_show(rev, "hrstage/classifier/_text.py")
     except subprocess.CalledProcessError:
         text_src = None
     if text_src is not None and "from ._text import" in src:
-        _exec_module("hrstage.classifier._text_before", text_src, f"{rev}:_text.py")
+        exec_module("hrstage.classifier._text_before", text_src, f"{rev}:_text.py", "hrstage.classifier")
         src = src.replace("from ._text import", "from ._text_before import")
-    return _exec_module("hrstage.classifier._core_before", src, f"{rev}:_core.py")
+    return exec_module("hrstage.classifier._core_before", src, f"{rev}:_core.py", "hrstage.classifier")
 
 
 def same_outputs(mod_a, mod_b, a, b, **kw):
@@ -79,6 +54,7 @@ def same_outputs(mod_a, mod_b, a, b, **kw):
 
 
 def main(n_point=4_000_000, n_full=1_000_000, n_mc=200_000, before=None, repeats=3):
+    n_mc = min(n_mc, n_full)  # the Monte Carlo core runs on a slice of the n_full error arrays
     rng = np.random.default_rng(1)
     lt = rng.uniform(3.45, 4.5, n_point)
     ll = rng.uniform(-3, 5, n_point)

@@ -12,57 +12,31 @@ a shared machine) and says whether the outputs are identical.
 """
 
 import argparse
-import importlib.util
 import os
-import subprocess
 import sys
 
 for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[var] = "1"
 
-import time  # noqa: E402
 
 import numpy as np  # noqa: E402
+from _bench_util import exec_module, git_show, median_time  # noqa: E402
 
 from hrstage.derive import direct, photometric  # noqa: E402
 
 HELPERS = ("_errors", "_inputs")
 
 
-def median_time(fn, repeats):
-    ts = []
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t0)
-    return float(np.median(ts))
-
-
-def _git_show(rev, path):
-    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-    return subprocess.run(["git", "show", f"{rev}:{path}"], cwd=root, check=True, capture_output=True,
-                          text=True).stdout
-
-
-def _exec_module(name, src, label):
-    spec = importlib.util.spec_from_loader(name, loader=None)
-    mod = importlib.util.module_from_spec(spec)
-    mod.__package__ = "hrstage.derive"
-    sys.modules[name] = mod
-    exec(compile(src, label, "exec"), mod.__dict__)
-    return mod
-
-
 def load_before(rev):
     """(photometric, direct) of revision ``rev``, using that revision's helper modules."""
     for h in HELPERS:
-        _exec_module(f"hrstage.derive.{h}_before", _git_show(rev, f"hrstage/derive/{h}.py"), f"{rev}:{h}.py")
+        exec_module(f"hrstage.derive.{h}_before", git_show(rev, f"hrstage/derive/{h}.py"), f"{rev}:{h}.py", "hrstage.derive")
     mods = []
     for m in ("photometric", "direct"):
-        src = _git_show(rev, f"hrstage/derive/{m}.py")
+        src = git_show(rev, f"hrstage/derive/{m}.py")
         for h in HELPERS:
             src = src.replace(f"from .{h} import", f"from .{h}_before import")
-        mods.append(_exec_module(f"hrstage.derive.{m}_before", src, f"{rev}:{m}.py"))
+        mods.append(exec_module(f"hrstage.derive.{m}_before", src, f"{rev}:{m}.py", "hrstage.derive"))
     return tuple(mods)
 
 
