@@ -102,6 +102,19 @@ def _gaia_bc(teff, c0):
     return bc, use_fb
 
 
+
+def _shared_inputs(a, n, flags):
+    """Inputs the Gaia and Johnson paths read alike: parallax and supplied-Teff errors, the [Fe/H]
+    used (solar where missing), and a supplied Teff with its validity (bad values flagged)."""
+    p_sig = error_or_zero(a["plx_err"], n, flags, "parallax_err")
+    t_sig_in = error_or_zero(a["teff_err"], n, flags, "teff_err")
+    feh_used = np.where(np.isfinite(a["feh"]), a["feh"], 0.0) if a["feh"] is not None else np.zeros(n)
+    teff_in = a["teff"] if a["teff"] is not None else np.full(n, np.nan)
+    or_flag(flags, np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT)
+    teff_given = np.isfinite(teff_in) & (teff_in > 0)
+    return p_sig, t_sig_in, feh_used, teff_in, teff_given
+
+
 def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=None, parallax_zp=0.0,
               a_g=None, e_bp_rp=None, a_v=None, r_v=3.1, feh=None, logg=None, teff=None, teff_err=None,
               min_parallax_snr=5.0, teff_relation="casagrande2021", gaia_release="dr3",
@@ -186,12 +199,7 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     or_flag(flags, np.isinf(colour), F.BAD_INPUT)
     g_sig = error_or_zero(a["g_err"], n, flags, "g_err")
     c_sig = error_or_zero(a["bp_rp_err"], n, flags, "bp_rp_err")
-    p_sig = error_or_zero(a["plx_err"], n, flags, "parallax_err")
-    t_sig_in = error_or_zero(a["teff_err"], n, flags, "teff_err")
-    feh_used = np.where(np.isfinite(a["feh"]), a["feh"], 0.0) if a["feh"] is not None else np.zeros(n)
-    teff_in = a["teff"] if a["teff"] is not None else nan.copy()
-    or_flag(flags, np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT)
-    teff_given = np.isfinite(teff_in) & (teff_in > 0)
+    p_sig, t_sig_in, feh_used, teff_in, teff_given = _shared_inputs(a, n, flags)
 
     # --- extinction ---------------------------------------------------------------------------
     ext_given = np.zeros(n, dtype=bool)
@@ -398,12 +406,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     v_sig = error_or_zero(a["v_err"], n, flags, "v_err")
     bv_sig = error_or_zero(a["b_v_err"], n, flags, "b_v_err")
     vks_sig = error_or_zero(a["v_ks_err"], n, flags, "v_ks_err")
-    p_sig = error_or_zero(a["plx_err"], n, flags, "parallax_err")
-    t_sig_in = error_or_zero(a["teff_err"], n, flags, "teff_err")
-    feh_used = np.where(np.isfinite(a["feh"]), a["feh"], 0.0) if a["feh"] is not None else np.zeros(n)
-    teff_in = a["teff"] if a["teff"] is not None else nan.copy()
-    or_flag(flags, np.isinf(teff_in) | (teff_in <= 0), F.BAD_INPUT)
-    teff_given = np.isfinite(teff_in) & (teff_in > 0)
+    p_sig, t_sig_in, feh_used, teff_in, teff_given = _shared_inputs(a, n, flags)
 
     # --- extinction ---------------------------------------------------------------------------
     av_arr = np.zeros(n)
