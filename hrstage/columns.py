@@ -3,6 +3,10 @@
 One table of truth for the classifier (which fills them), the catalogue writer (which attaches
 units / descriptions / UCDs) and the plot and report faces (which read them). UCDs come from
 the IVOA UCD1+ vocabulary where one fits; ``None`` where none does.
+
+Probabilities, masses, errors, the correlation and the [Fe/H] used are single precision (7
+significant digits: finer than the Monte Carlo resolution 1/n_draws and than the relations'
+accuracy), which halves their share of the output; Teff and log L used stay double precision.
 """
 
 from __future__ import annotations
@@ -15,7 +19,7 @@ from .stages import STAGES
 @dataclass(frozen=True)
 class OutputColumn:
     name: str
-    dtype: str          # numpy dtype string ("f8", "i8", "U", "O" for text)
+    dtype: str          # numpy dtype string ("f8", "f4", "i8", "U", "O" for text)
     unit: str | None
     description: str
     ucd: str | None
@@ -23,23 +27,23 @@ class OutputColumn:
 
 _COLUMNS = [
     OutputColumn("stage", "U", None, "Evolutionary stage from the HR position (indicative)", "src.class"),
-    OutputColumn("stage_prob", "f8", None, "Probability of the assigned stage (Monte Carlo over the errors)", "stat.probability"),
+    OutputColumn("stage_prob", "f4", None, "Probability of the assigned stage (Monte Carlo over the errors)", "stat.probability"),
     *[
-        OutputColumn(f"prob_{s}", "f8", None, f"Probability that the star is {s.replace('_', ' ')}", "stat.probability")
+        OutputColumn(f"prob_{s}", "f4", None, f"Probability that the star is {s.replace('_', ' ')}", "stat.probability")
         for s in STAGES
     ],
-    OutputColumn("mass_est", "f8", "solMass", "Initial-mass estimate from the stellar relations", "phys.mass"),
-    OutputColumn("mass_err", "f8", "solMass", "Uncertainty of mass_est (first-order propagation of the log Teff and log L errors)", "stat.error;phys.mass"),
+    OutputColumn("mass_est", "f4", "solMass", "Initial-mass estimate from the stellar relations", "phys.mass"),
+    OutputColumn("mass_err", "f4", "solMass", "Uncertainty of mass_est (first-order propagation of the log Teff and log L errors)", "stat.error;phys.mass"),
     OutputColumn("mass_method", "U", None, "How mass_est was obtained", "meta.code"),
-    OutputColumn("mass_ms_teff", "f8", "solMass", "Main-sequence mass implied by Teff", "phys.mass"),
-    OutputColumn("mass_ms_lum", "f8", "solMass", "Main-sequence mass implied by the luminosity", "phys.mass"),
+    OutputColumn("mass_ms_teff", "f4", "solMass", "Main-sequence mass implied by Teff", "phys.mass"),
+    OutputColumn("mass_ms_lum", "f4", "solMass", "Main-sequence mass implied by the luminosity", "phys.mass"),
     OutputColumn("teff_used", "f8", "K", "Effective temperature used for the classification", "phys.temperature.effective"),
     OutputColumn("logl_used", "f8", "dex(solLum)", "log10 luminosity used for the classification", "phys.luminosity"),
-    OutputColumn("logt_err", "f8", "dex", "1-sigma error of log10 Teff", "stat.error;phys.temperature.effective"),
-    OutputColumn("logl_err", "f8", "dex", "1-sigma error of log10 L", "stat.error;phys.luminosity"),
-    OutputColumn("logt_logl_corr", "f8", None, "Correlation coefficient of the log Teff and log L errors", "stat.correlation"),
+    OutputColumn("logt_err", "f4", "dex", "1-sigma error of log10 Teff", "stat.error;phys.temperature.effective"),
+    OutputColumn("logl_err", "f4", "dex", "1-sigma error of log10 L", "stat.error;phys.luminosity"),
+    OutputColumn("logt_logl_corr", "f4", None, "Correlation coefficient of the log Teff and log L errors", "stat.correlation"),
     OutputColumn("hr_source", "U", None, "Where Teff and L came from (input path and relations used)", "meta.note"),
-    OutputColumn("feh_used", "f8", None, "[Fe/H] used for the stage map", "phys.abund.Z"),
+    OutputColumn("feh_used", "f4", None, "[Fe/H] used for the stage map", "phys.abund.Z"),
     OutputColumn("flags", "i8", None, "Flag bits (see hrstage.flags)", "meta.code.qual"),
     OutputColumn("flag_text", "U", None, "Readable reasons behind the flags, with the numbers", "meta.note"),
     # MK spectral-type check (layer 4); present only when an MK type column is given

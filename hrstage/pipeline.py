@@ -33,9 +33,10 @@ from . import __version__
 from . import flags as F
 from .catalog.profiles import ROLES, ROUTES, ColumnInfo, ColumnMapping, detect_profile, infos_from_table
 from .catalog.sanity import MISSING, NONPHYSICAL, NOT_A_NUMBER, OK, SENTINEL, STATUS_TEXT, extract_roles
+from .classifier._text import CodedText, int_codes, join_coded
 from .columns import CLASSIFY_COLUMNS, COLUMNS, SPTYPE_COLUMNS
 from .errors import HrstageInputError
-from .stages import STAGES
+from .stages import STAGES, UNCLASSIFIED as _UNCLASSIFIED_CODE
 
 CAUTION = ("Stage labels are indicative: they follow from the HR position and analytic stellar relations "
            "and do not replace a spectroscopic analysis; luminosities from low signal-to-noise parallaxes "
@@ -264,15 +265,22 @@ def _status_reason(route, status, mapping, rows, words=None):
 
 
 def _positions(values, status, mapping, opts, feh, n):
-    """HR positions for all rows, route by route with row-wise fall-back."""
+    """HR positions for all rows, route by route with row-wise fall-back.
+
+    ``source_codes`` of the result holds the provenance texts of every route used and a code per
+    row (rows no route placed point at "").
+    """
     from .derive import HRPosition
 
     out = HRPosition(teff=np.full(n, np.nan), logt=np.full(n, np.nan), logl=np.full(n, np.nan),
                      logt_err=np.full(n, np.nan), logl_err=np.full(n, np.nan), corr=np.zeros(n),
-                     flags=np.zeros(n, dtype=np.int64), source=np.full(n, "", dtype=object))
+                     flags=np.zeros(n, dtype=np.int64), source=None)
     done = np.zeros(n, dtype=bool)
     route_of = np.full(n, -1, dtype=np.int16)
     fail_flags = np.zeros(n, dtype=np.int64)
+    src_texts = [np.array([""], dtype=object)]
+    src_size = 1
+    src_code = np.zeros(n, dtype=np.int64)
     for k, route in enumerate(mapping.routes):
         needs = _ROUTE_NEEDS[route]
         usable = ~done
@@ -287,47 +295,30 @@ def _positions(values, status, mapping, opts, feh, n):
         for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
             getattr(out, name)[ok_rows] = np.asarray(getattr(pos, name), dtype=float)[good]
         out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
-        src = np.asarray(pos.source, dtype=object)
-        src = np.broadcast_to(src, (idx.size,)) if src.ndim == 0 else src
-        src_good = src[good].astype(object)
+        if pos.source_codes is not None:
+            texts, codes = pos.source_codes
+            texts = np.asarray(texts, dtype=object)
+            codes = np.broadcast_to(np.asarray(codes, dtype=np.int64), (idx.size,))
+        else:  # a route without coded provenance: its distinct texts
+            texts, codes = np.unique(np.broadcast_to(np.asarray(pos.source, dtype=object), (idx.size,)).astype(str),
+                                     return_inverse=True)
+            texts = texts.astype(object)
         if k > 0:
-            src_good = f"fallback to {route}: " + src_good
-        out.source[ok_rows] = src_good
+            texts = f"fallback to {route}: " + texts
+        src_code[ok_rows] = codes.reshape(-1)[good] + src_size
+        src_texts.append(texts)
+        src_size += len(texts)
         fail_flags[idx[~good]] |= np.asarray(pos.flags, dtype=np.int64)[~good]
         route_of[ok_rows] = k
         done[ok_rows] = True
+    texts = np.concatenate(src_texts)
+    out.source_codes = (texts, src_code)
+    out.source = texts[src_code]
     return out, done, route_of, fail_flags
 
 
-def _as_text(a) -> np.ndarray:
-    """Text as an object array of str (never fixed width: see :func:`_text_array`)."""
-    a = np.asarray(a)
-    if a.dtype.kind == "O":
-        return a.copy()
-    return (a if a.dtype.kind == "U" else a.astype(str)).astype(object)
-
-
-def _text_array(parts):
-    """Join per-row texts with '; ', skipping empty ones.
-
-    Works on object arrays (one Python string per row, shared where rows repeat) and only on the
-    rows where a part is not empty, and stays an object array: a fixed-width array would cost
-    rows x (longest text) x 4 bytes.
-    """
-    out = np.asarray(parts[0], dtype=object).copy()
-    out[out == None] = ""  # noqa: E711 (element-wise)
-    for part in parts[1:]:
-        part = np.asarray(part, dtype=object)
-        has = (part != "") & (part != None)  # noqa: E711
-        if not has.any():
-            continue
-        empty = out == ""
-        both = has & ~empty
-        only = has & empty
-        if both.any():
-            out[both] = out[both] + "; " + part[both]
-        out[only] = part[only]
-    return out
+#: Roles read for other faces (plots, reports) but not needed to classify a row.
+_UNUSED_ROLES = ("id",)
 
 
 def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
@@ -337,7 +328,7 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     mapping = opts.mapping
     n = len(sub)
     words = {}
-    values, status = extract_roles(sub, mapping, words)
+    values, status = extract_roles(sub, mapping, words, skip=_UNUSED_ROLES)
     if n == 0:
         return {c: np.zeros(0, dtype=_dtype(c)) for c in _our_columns(opts)}
     if "logl" in values or "lum" in values:
@@ -360,9 +351,9 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     pos, done, route_of, fail_flags = _positions(values, status, mapping, opts, feh, n)
 
     # why a row is unclassified, and MISSING_INPUT / BAD_INPUT
-    reason = np.full(n, "", dtype=object)
     first = mapping.routes[0]
     not_done = np.flatnonzero(~done)
+    reason_text = np.full(not_done.size, "", dtype=object)
     if not_done.size:
         in_flags[not_done] |= fail_flags[not_done]      # why the routes failed (e.g. parallax <= 0)
         lacks = np.zeros(not_done.size, dtype=bool)
@@ -379,7 +370,7 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
         if rest.any():
             text[rest] = F.describe_many(fail_flags[not_done[rest]])
         routes = " / ".join(_ROUTE_TEXT[r] for r in mapping.routes)
-        reason[not_done] = f"unclassified: no HR position from {routes}: " + text
+        reason_text = f"unclassified: no HR position from {routes}: " + text
     # MISSING_INPUT only marks a value the row's route needs (the row is then unclassified, above);
     # an optional input that is absent (errors, [Fe/H], MK type, mass) does not set it: [Fe/H] has
     # NO_METALLICITY, missing errors give a point classification, a missing MK type is not checked.
@@ -388,18 +379,17 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     res = classify_hr(pos.logt, pos.logl, logt_err=_nan_none(pos.logt_err), logl_err=_nan_none(pos.logl_err),
                       corr=pos.corr, feh=feh_clf, mass=mass, n_draws=opts.n_draws,
                       seed=_chunk_seed(opts.seed, offset), **opts.params)
-    cols = dict(res.to_columns())
-    cols["hr_source"] = _as_text(pos.source)
-    cols["hr_source"][~done] = "none"
-    stage = _as_text(cols["stage"]).astype("U13")
-    stage[~done] = "unclassified"
-    cols["stage"] = stage
+    cols = dict(res.to_columns(coded=True))
+    src_texts, src_codes = pos.source_codes
+    src_codes = np.where(done, src_codes, len(src_texts))
+    cols["hr_source"] = CodedText(np.append(src_texts, "none"), src_codes)
+    stage_code = np.where(done, res.code, _UNCLASSIFIED_CODE)
+    cols["stage"] = CodedText(STAGES, stage_code)
     extra_bits = in_flags | pos.flags
     flags_all = np.asarray(cols.get("flags", np.zeros(n, dtype=np.int64)), dtype=np.int64) | extra_bits
     # readable text: our reasons first, then the classifier's, then the bits nobody described
-    clf_text = np.asarray(cols.pop("flag_text", np.full(n, "", dtype=object)), dtype=object)
     own_bits = extra_bits & ~np.asarray(cols.get("flags", 0), dtype=np.int64)
-    parts = [reason, clf_text, F.describe_many(own_bits)]
+    notes = [(not_done, reason_text), *res.flag_notes(), _bits_note(own_bits)]
 
     if opts.check_sptypes and "sptype" in values:
         from .sptype import check_types
@@ -408,11 +398,27 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
                           logl_err=_nan_none(pos.logl_err), feh=feh_clf)
         cols.update(chk.to_columns())
         sp_flags = np.asarray(chk.flags, dtype=np.int64)
-        parts.append(F.describe_many(sp_flags & ~flags_all))
+        notes.append(_bits_note(sp_flags & ~flags_all))
         flags_all |= sp_flags
     cols["flags"] = flags_all
-    cols["flag_text"] = _text_array(parts)
-    return {c: cols[c] for c in _our_columns(opts, sptype="sptype_verdict" in cols) if c in cols}
+    cols["flag_text"] = CodedText(*join_coded(n, notes))
+    out = {}
+    for c in _our_columns(opts, sptype="sptype_verdict" in cols):
+        if c in cols:
+            v = cols[c]
+            want = COLUMNS[c].dtype
+            if want in ("f4", "f8") and v.dtype != want:
+                v = v.astype(want)
+            out[c] = v
+    return out
+
+
+def _bits_note(bits):
+    """The readable description of flag bits as a note ``(rows, (texts, codes))`` over the rows
+    where any bit is set (one description per distinct combination of bits)."""
+    idx = np.flatnonzero(bits)
+    uniq, inv = np.unique(bits[idx], return_inverse=True)
+    return idx, (np.array([F.describe(int(b)) for b in uniq], dtype=object), inv.reshape(-1))
 
 
 def _nan_none(a):
@@ -538,7 +544,7 @@ def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0,
         if attrs is None:
             attrs = header_from_schema(data.schema)
         opts = resolve_options(_arrow_infos(data, attrs), options)
-        needed = list(dict.fromkeys(opts.mapping.roles.values()))
+        needed = list(dict.fromkeys(c for r, c in opts.mapping.roles.items() if r not in _UNUSED_ROLES))
         sub = arrow_to_table(data.select(needed), attrs)
         cols = _compute(sub, opts, offset)
         arrays, names = list(data.columns), list(data.schema.names)
@@ -557,6 +563,8 @@ def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0,
     out = Table(table_or_batch, copy=False)  # new table object, input columns shared, untouched
     for name, values in cols.items():
         spec = COLUMNS[name]
+        if isinstance(values, CodedText):
+            values = values.to_numpy()
         col_cls = MaskedColumn if np.ma.isMaskedArray(values) else Column
         out[opts.prefix + name] = col_cls(values, name=opts.prefix + name, unit=spec.unit,
                                           description=spec.description,
@@ -565,10 +573,44 @@ def classify_chunk(table_or_batch, options: ClassifyOptions, *, offset: int = 0,
     return out
 
 
+def _used_codes(codes):
+    """(the distinct codes in use, in order of first appearance; each row's index among them).
+
+    First-appearance order is what ``pyarrow`` ``dictionary_encode`` gives: dictionary pages
+    then come out as they did from encoding the row texts.
+    """
+    codes = np.asarray(codes, dtype=np.int64)
+    used, inv = int_codes(codes)
+    if len(used) > 1:
+        if len(used) <= 64:
+            first = np.array([np.argmax(inv == k) for k in range(len(used))])
+        else:
+            first = np.unique(inv, return_index=True)[1]
+        order = np.argsort(first, kind="stable")
+        rank = np.empty_like(order)
+        rank[order] = np.arange(len(order))
+        used, inv = used[order], rank[inv]
+    return used, inv
+
+
 def _numpy_to_arrow(values, dictionary: bool = False):
     """One of our columns -> arrow array: text as (dictionary-encoded) strings, numbers zero-copy."""
     import pyarrow as pa
 
+    if isinstance(values, CodedText):   # distinct texts + codes: no per-row string is made
+        used, codes = _used_codes(values.codes)
+        texts = values.texts[used]
+        if dictionary:
+            # two codes may carry the same text (e.g. two stages with one mass method): a
+            # dictionary holds each text once, in order of first appearance
+            slot: dict = {}
+            merge = np.array([slot.setdefault(t, len(slot)) for t in texts.tolist()], dtype=np.int64)
+            if len(slot) < len(texts):
+                texts = np.array(list(slot), dtype=object)
+                codes = merge[codes]
+            return pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32, copy=False)),
+                                                  pa.array(texts, type=pa.string(), from_pandas=False))
+        return pa.array(texts, type=pa.string(), from_pandas=False).take(pa.array(codes.astype(np.int32, copy=False)))
     arr = np.asarray(values)
     if arr.dtype.kind in "UO":
         text = pa.array(arr, type=pa.string(), from_pandas=False)

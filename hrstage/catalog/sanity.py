@@ -217,16 +217,19 @@ def text_values(col) -> np.ndarray:
     return out
 
 
-def extract_roles(table, mapping, words: dict | None = None) -> tuple[dict, dict]:
+def extract_roles(table, mapping, words: dict | None = None, skip=()) -> tuple[dict, dict]:
     """All mapped roles of ``table`` -> (values, status) dictionaries keyed by role.
 
     Numeric roles give float64 arrays in canonical units (NaN = unusable) and int8 status arrays;
     text roles (``sptype``, ``id``) give str arrays and no status. ``bp`` and ``rp`` together
     provide ``bp_rp`` when it is not mapped. ``words`` (optional dict) receives, per role, the
-    text of entries that are not numbers (see :func:`column_values`).
+    text of entries that are not numbers (see :func:`column_values`). Roles in ``skip`` are not
+    read.
     """
     values, status = {}, {}
     for role, colname in mapping.roles.items():
+        if role in skip:
+            continue
         col = table[colname]
         if ROLES[role].kind == "text":
             values[role] = text_values(col)

@@ -25,7 +25,7 @@ from ..stages import (
     UNCLASSIFIED,
 )
 from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, stage_map
-from ._text import concat_codes, format_codes, join_notes
+from ._text import CodedText, concat_codes, format_codes, join_notes
 
 N_STAGES = len(STAGES)
 
@@ -100,7 +100,8 @@ def _as_array(x, name, shape=None):
 
 
 #: mass-method names: the stage methods (by code), then the special ones
-_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied")
+#: Names of the mass methods, indexed by ``ClassificationResult.mass_code``.
+MASS_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied")
 _M_HB, _M_NONE, _M_SUPPLIED = len(MASS_METHODS), len(MASS_METHODS) + 1, len(MASS_METHODS) + 2
 #: base-reason keys beyond the stage codes
 _B_HB, _B_NOPOS, _B_OFFMAP = N_STAGES, N_STAGES + 1, N_STAGES + 2
@@ -132,6 +133,7 @@ class ClassificationResult:
     proba : ndarray (N, len(STAGES)), probability per stage (one-hot without Monte Carlo)
     stage_prob : ndarray, probability of the assigned stage
     mass, mass_err : ndarray (Msun); mass_method : ndarray of object (str)
+    mass_code : ndarray of int8, index of ``mass_method`` in :data:`MASS_METHOD_NAMES`
     mass_ms_teff, mass_ms_lum : ndarray (Msun), ZAMS masses of the same Teff / the same L
     flags : ndarray of int64 (``hrstage.flags`` bits)
     reason, flag_text : ndarray of object (readable texts with the numbers; built on first access)
@@ -150,7 +152,7 @@ class ClassificationResult:
     proba: np.ndarray
     mass: np.ndarray
     mass_err: np.ndarray
-    mass_method: np.ndarray
+    mass_code: np.ndarray
     mass_ms_teff: np.ndarray
     mass_ms_lum: np.ndarray
     flags: np.ndarray
@@ -162,6 +164,7 @@ class ClassificationResult:
     _teff: np.ndarray | None = field(default=None, repr=False)
     _reason: np.ndarray | None = field(default=None, repr=False)
     _flag_text: np.ndarray | None = field(default=None, repr=False)
+    _built_notes: list | None = field(default=None, repr=False)
 
     def __len__(self):
         return len(self.code)
@@ -169,6 +172,11 @@ class ClassificationResult:
     @property
     def stage(self) -> np.ndarray:
         return np.asarray(STAGES)[self.code]
+
+    @property
+    def mass_method(self) -> np.ndarray:
+        """How each mass was obtained (object array of str, see :data:`MASS_METHOD_NAMES`)."""
+        return np.asarray(MASS_METHOD_NAMES, dtype=object)[self.mass_code]
 
     @property
     def stage_prob(self) -> np.ndarray:
@@ -183,12 +191,18 @@ class ClassificationResult:
         tab = _base_table(self._maps)
         return tab.reshape(-1)[self._group.astype(np.intp) * tab.shape[1] + self._base_key]
 
+    def flag_notes(self) -> list:
+        """The flag reasons as notes ``[(row indices, texts), ...]`` in their order of the text
+        (see :func:`hrstage.classifier._text.join_coded`), built on first access."""
+        if self._built_notes is None:
+            self._built_notes = [(idx, build() if callable(build) else build) for idx, build in self._notes]
+        return self._built_notes
+
     @property
     def flag_text(self) -> np.ndarray:
         """Readable reasons behind the flags (object array; "" where no flag is set)."""
         if self._flag_text is None:
-            notes = [(idx, build() if callable(build) else build) for idx, build in self._notes]
-            self._flag_text = join_notes(len(self.code), notes)
+            self._flag_text = join_notes(len(self.code), self.flag_notes())
         return self._flag_text
 
     @property
@@ -202,13 +216,19 @@ class ClassificationResult:
             self._reason = reason
         return self._reason
 
-    def to_columns(self) -> dict:
+    def to_columns(self, coded: bool = False) -> dict:
         """Columns named as ``hrstage.columns.CLASSIFY_COLUMNS`` (all but ``hr_source``).
 
         Text columns (``stage``, ``mass_method``, ``flag_text``) are object arrays of Python
-        strings (shared between rows with the same text), not fixed-width arrays.
+        strings (shared between rows with the same text), not fixed-width arrays. With
+        ``coded=True`` they are :class:`~hrstage.classifier._text.CodedText` (distinct texts and a
+        code per row) and ``flag_text`` is left out: :meth:`flag_notes` gives its parts.
         """
-        out = {"stage": np.asarray(STAGES, dtype=object)[self.code], "stage_prob": self.stage_prob}
+        if coded:
+            stage = CodedText(STAGES, self.code)
+        else:
+            stage = np.asarray(STAGES, dtype=object)[self.code]
+        out = {"stage": stage, "stage_prob": self.stage_prob}
         for k, s in enumerate(STAGES):
             out[f"prob_{s}"] = self.proba[:, k]
         teff = self._teff if self._teff is not None else 10.0**self.logt
@@ -216,7 +236,7 @@ class ClassificationResult:
             {
                 "mass_est": self.mass,
                 "mass_err": self.mass_err,
-                "mass_method": np.asarray(self.mass_method, dtype=object),
+                "mass_method": CodedText(MASS_METHOD_NAMES, self.mass_code) if coded else self.mass_method,
                 "mass_ms_teff": self.mass_ms_teff,
                 "mass_ms_lum": self.mass_ms_lum,
                 "teff_used": teff,
@@ -226,9 +246,10 @@ class ClassificationResult:
                 "logt_logl_corr": self.corr,
                 "feh_used": self.feh_used,
                 "flags": self.flags.astype(np.int64, copy=False),
-                "flag_text": self.flag_text,
             }
         )
+        if not coded:
+            out["flag_text"] = self.flag_text
         return out
 
 
@@ -900,11 +921,10 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     lk = maps[0].grid if maps else stage_map(0.0, **stage_kw).grid
     out = finite & (code == UNCLASSIFIED) & ((logt < lk.t0) | (logt > lk.t1) | (logl < lk.l0) | (logl > lk.l1))
     base_key[out] = _B_OFFMAP
-    method = np.asarray(_METHOD_NAMES, dtype=object)[mcode]
 
     return ClassificationResult(
         logt=logt, logl=logl, logt_err=st, logl_err=sl, corr=rho, feh_used=feh_used, code=code, proba=proba,
-        mass=mass_est, mass_err=mass_err, mass_method=method, mass_ms_teff=m_teff,
+        mass=mass_est, mass_err=mass_err, mass_code=mcode, mass_ms_teff=m_teff,
         mass_ms_lum=m_lum, flags=flags, n_draws=n_draws, _notes=[(i, b) for _, i, b in sorted(notes, key=lambda x: x[0])], _base_key=base_key, _group=group,
         _maps=maps, _teff=teff,
     )

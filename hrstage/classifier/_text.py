@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["display_round", "format_rows", "format_codes", "concat_codes", "join_notes"]
+__all__ = ["display_round", "format_rows", "format_codes", "concat_codes", "CodedText", "int_codes", "join_coded", "join_notes"]
 
 
 def display_round(values, spec: str) -> np.ndarray:
@@ -73,6 +73,10 @@ def _int_codes(k: np.ndarray):
         return np.nonzero(present)[0] + lo, pos[off]
     u, inv = np.unique(k, return_inverse=True)
     return u, inv.reshape(-1).astype(np.int64)
+
+
+#: Public name of :func:`_int_codes` (distinct int64 keys and each row's index among them).
+int_codes = _int_codes
 
 
 def _codes(col):
@@ -158,30 +162,89 @@ def concat_codes(a, b):
     return ta[u // len(tb)] + tb[u % len(tb)], inv
 
 
-def join_notes(n: int, notes) -> np.ndarray:
-    """Join notes ``[(row indices, texts), ...]`` (in order) into one text per row with '; '.
+class CodedText:
+    """A text column as its distinct texts and one code per row (``texts[codes]``).
 
-    ``texts`` is one string for all the rows of the note, an object array aligned with the
-    indices, or a ``(distinct texts, codes)`` pair from :func:`format_codes`. Rows with no note
-    get "". Only rows that already hold a text are concatenated (row-wise object additions: a
-    catalogue's combinations of notes are nearly as many as its flagged rows).
+    Cheap to build from codes the classifier has anyway and cheap to turn into a dictionary-encoded
+    Arrow column; :meth:`to_numpy` gives the object array of the row texts.
     """
-    out = np.full(n, "", dtype=object)
-    filled = np.zeros(n, dtype=bool)
+
+    __slots__ = ("texts", "codes")
+
+    def __init__(self, texts, codes):
+        self.texts = np.asarray(texts, dtype=object).reshape(-1)
+        self.codes = np.asarray(codes).reshape(-1)
+
+    def __len__(self):
+        return len(self.codes)
+
+    def to_numpy(self) -> np.ndarray:
+        return self.texts[self.codes]
+
+
+def note_codes(n: int, idx, texts):
+    """One note as ``(row indices, distinct texts, code per listed row)``; rows whose text is empty
+    are left out. ``texts`` as in :func:`join_notes`."""
+    idx = np.asarray(idx, dtype=np.intp).reshape(-1)
+    if isinstance(texts, tuple):
+        u, c = np.asarray(texts[0], dtype=object), np.asarray(texts[1], dtype=np.int64).reshape(-1)
+    elif isinstance(texts, str):
+        u, c = np.array([texts], dtype=object), np.zeros(idx.size, dtype=np.int64)
+    else:
+        u, c = np.asarray(texts, dtype=object).reshape(-1), np.arange(idx.size, dtype=np.int64)
+    if u.size:
+        empty = (u == "") | np.equal(u, None)
+        if empty.any():
+            keep = ~empty[c]
+            idx, c = idx[keep], c[keep]
+    return idx, u, c
+
+
+def join_coded(n: int, notes):
+    """Join notes ``[(row indices, texts), ...]`` (in order) with '; ' into ``(texts, codes)``: the
+    distinct joined texts (object array, ``texts[0] == ""``) and one int32 code per row.
+
+    No per-row string is built: each note's rows get the code of their text; where a row already
+    holds a text, the distinct (held, new) pairs are concatenated once each. Rows with no note (or
+    only empty texts) get code 0, the empty text. ``texts`` of a note is one string for all its
+    rows, an object array aligned with the indices, or a ``(distinct texts, codes)`` pair from
+    :func:`format_codes`.
+    """
+    pool = [np.array([""], dtype=object)]   # texts of the codes handed out so far, in blocks
+    size = 1
+    code = np.zeros(n, dtype=np.int64)
     for idx, texts in notes:
-        idx = np.asarray(idx, dtype=np.intp)
+        idx, u, c = note_codes(n, idx, texts)
         if idx.size == 0:
             continue
-        if isinstance(texts, tuple):
-            texts = texts[0][texts[1]]
-        scalar = isinstance(texts, str)
-        had = filled[idx]
+        held = code[idx]
+        had = held > 0
         if not had.any():
-            out[idx] = texts
-        else:
-            new = ~had
-            out[idx[new]] = texts if scalar else texts[new]
-            j = idx[had]
-            out[j] = out[j] + ("; " + texts if scalar else "; " + texts[had])
-        filled[idx] = True
-    return out
+            code[idx] = c + size
+            pool.append(u)
+            size += len(u)
+            continue
+        fresh = ~had
+        used, inv = _int_codes(c[fresh]) if fresh.any() else (c[:0], c[:0])
+        code[idx[fresh]] = inv + size
+        pool.append(u[used])
+        size += len(used)
+        # rows holding a text: one concatenation per distinct (held text, new text) pair
+        flat = np.concatenate(pool) if len(pool) > 1 else pool[0]
+        pool = [flat]
+        key = held[had] * len(u) + c[had]
+        pairs, pinv = _int_codes(key)
+        joined = flat[pairs // len(u)] + ("; " + u[pairs % len(u)])
+        code[idx[had]] = pinv + size
+        pool.append(joined)
+        size += len(joined)
+    flat = np.concatenate(pool) if len(pool) > 1 else pool[0]
+    used, inv = _int_codes(np.concatenate([[0], code]))   # drop texts no row kept; "" stays code 0
+    return flat[used], inv[1:].astype(np.int32)
+
+
+def join_notes(n: int, notes) -> np.ndarray:
+    """Join notes ``[(row indices, texts), ...]`` (in order) into one text per row with '; '
+    (object array; rows with no note get ""). See :func:`join_coded`, which this expands."""
+    texts, codes = join_coded(n, notes)
+    return texts[codes]

@@ -33,6 +33,9 @@ class HRPosition:
     extra : dict of str -> numpy.ndarray
         Intermediate quantities (``distance_pc``, ``abs_mag``, ``bc``, ``extinction``,
         ``mass_used`` ...), one entry per row.
+    source_codes : tuple or None
+        ``(texts, codes)`` with ``source == texts[codes]``: the distinct provenance texts and an
+        index per row (lets a writer store ``source`` dictionary-encoded without hashing strings).
     """
 
     teff: np.ndarray
@@ -44,6 +47,7 @@ class HRPosition:
     flags: np.ndarray
     source: np.ndarray
     extra: dict = field(default_factory=dict)
+    source_codes: tuple | None = field(default=None, repr=False)
 
     def __len__(self) -> int:
         return int(self.teff.shape[0])

@@ -23,6 +23,8 @@ def _base(n, teff, flags, t_sig):
 
 
 def _result(teff, logt, logl, st, sl, corr, flags, source, extra):
+    """``source`` is one provenance text shared by every row."""
+    texts, codes = np.array([source], dtype=object), np.zeros(len(teff), dtype=np.intp)
     tbad = ~np.isfinite(teff)
     lbad = ~np.isfinite(logl)
     reason = F.MISSING_INPUT | F.BAD_INPUT | F.LOGG_ITERATION | F.OUTSIDE_VALIDITY
@@ -30,7 +32,7 @@ def _result(teff, logt, logl, st, sl, corr, flags, source, extra):
     return HRPosition(teff=teff, logt=logt, logl=logl,
                       logt_err=np.where(tbad, np.nan, st), logl_err=np.where(lbad, np.nan, sl),
                       corr=np.where(tbad | lbad, np.nan, corr), flags=flags.astype(np.int64),
-                      source=source, extra=extra)
+                      source=texts[codes], extra=extra, source_codes=(texts, codes))
 
 
 def from_teff_lum(teff, lum, *, teff_err=None, lum_err=None, lum_is_log=False, feh=None) -> HRPosition:
@@ -94,7 +96,7 @@ def from_teff_lum(teff, lum, *, teff_err=None, lum_err=None, lum_is_log=False, f
     else:
         with np.errstate(divide="ignore", invalid="ignore"):
             sl = l_sig / (10.0 ** logl * LN10)
-    source = np.array(["Teff: input; L: input"], dtype=object)[np.zeros(n, dtype=np.intp)]
+    source = "Teff: input; L: input"
     extra = {"feh_used": a["feh"] if a["feh"] is not None else np.full(n, np.nan)}
     return _result(teff_out, logt, logl, np.abs(dlogt), sl, np.zeros(n), flags, source, extra)
 
@@ -134,7 +136,7 @@ def from_teff_radius(teff, radius, *, teff_err=None, radius_err=None, feh=None) 
         prop.add(t_sig, 1.0 / (teff_out * LN10), 4.0 / (teff_out * LN10))
         prop.add(r_sig, 0.0, 2.0 / (r * LN10))
     st, sl, corr = prop.result()
-    source = np.array(["Teff: input; L: R^2 Teff^4 (Stefan-Boltzmann)"], dtype=object)[np.zeros(n, dtype=np.intp)]
+    source = "Teff: input; L: R^2 Teff^4 (Stefan-Boltzmann)"
     extra = {"radius_rsun": r, "feh_used": a["feh"] if a["feh"] is not None else np.full(n, np.nan)}
     return _result(teff_out, logt, logl, st, sl, corr, flags, source, extra)
 
@@ -217,6 +219,6 @@ def from_teff_logg(teff, logg, *, feh=None, teff_err=None, logg_err=None, feh_er
     # a Jacobian that is not finite (edge of the model grid) leaves the error unknown
     bad_j = ok & ~(np.isfinite(sl) & np.isfinite(corr))
     flags |= np.where(bad_j & np.isfinite(logl), F.LOGG_ITERATION, 0)
-    source = np.array(["Teff: input; L: log g + model mass (Stefan-Boltzmann)"], dtype=object)[np.zeros(n, dtype=np.intp)]
+    source = "Teff: input; L: log g + model mass (Stefan-Boltzmann)"
     extra = {"mass_used": mass, "logg_used": lg, "feh_used": feh_used}
     return _result(teff_out, logt, logl, st, sl, corr, flags, source, extra)

@@ -72,6 +72,8 @@ def _source_table(teff_labels, lum_labels, ext_labels):
 
 
 def _finish(n, teff, logl, prop, flags, source, extra):
+    """``source`` is ``(texts, codes)``: the provenance table and an index per row."""
+    texts, codes = source
     logt_err, logl_err, corr = prop.result()
     with np.errstate(divide="ignore", invalid="ignore"):
         logt = np.log10(teff)
@@ -85,7 +87,8 @@ def _finish(n, teff, logl, prop, flags, source, extra):
               | F.OUTSIDE_VALIDITY)
     or_flag(flags, (tbad | lbad) & ((flags & reason) == 0), F.MISSING_INPUT)
     return HRPosition(teff=teff, logt=logt, logl=logl, logt_err=logt_err, logl_err=logl_err,
-                      corr=corr, flags=flags.astype(np.int64), source=source, extra=extra)
+                      corr=corr, flags=flags.astype(np.int64), source=texts[codes], extra=extra,
+                      source_codes=(texts, codes))
 
 
 # --------------------------------------------------------------------------------------------
@@ -333,7 +336,7 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     lum_labels = ["L: none", "L: G+BC_G(Andrae+2018)+parallax",
                   "L: G+BC_V(Flower/Torres)-(G-V)(Riello+2021)+parallax [BC fallback]"]
     table = _source_table(teff_labels, lum_labels, [ext_label])
-    source = table[tcode * len(lum_labels) + lcode]
+    source = (table, tcode * len(lum_labels) + lcode)
     extra = {
         "distance_pc": dist_pc, "parallax_corrected": plx_c, "parallax_snr": np.where(np.isfinite(snr), snr, np.nan),
         "abs_mag": abs_g, "bc": bc, "extinction": a_g_arr, "colour_excess": e_arr, "colour0": c0,
@@ -494,7 +497,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
                    "Teff: Flower 1996 supergiant (B-V)0"]
     lum_labels = ["L: none", "L: V+BC_V(Flower/Torres, Mbol_sun=4.73)+parallax"]
     table = _source_table(teff_labels, lum_labels, [ext_label])
-    source = table[tcode * len(lum_labels) + lcode]
+    source = (table, tcode * len(lum_labels) + lcode)
     extra = {
         "distance_pc": dist_pc, "parallax_corrected": plx_c, "parallax_snr": np.where(np.isfinite(snr), snr, np.nan),
         "abs_mag": abs_v, "bc": bc, "extinction": av_arr, "colour_excess": ebv_arr, "colour0": bv0,

@@ -119,6 +119,8 @@ def _declared_dtype(name: str, fallback=None):
         return np.dtype(bool)
     if kind == "f8":
         return np.dtype(np.float64)
+    if kind == "f4":
+        return np.dtype(np.float32)
     return np.dtype(object)
 
 

@@ -104,6 +104,8 @@ def test_declared_schema_follows_hrstage_columns(frame):
         dtype = meta[name].dtype
         if kind == "f8":
             assert dtype == np.float64, name
+        elif kind == "f4":
+            assert dtype == np.float32, name   # probabilities, masses, errors: single precision
         elif kind == "i8":
             assert dtype == np.int64, name     # flags: int64, never a float with NaN
         else:
