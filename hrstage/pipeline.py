@@ -598,19 +598,20 @@ def _numpy_to_arrow(values, dictionary: bool = False):
     import pyarrow as pa
 
     if isinstance(values, CodedText):   # distinct texts + codes: no per-row string is made
+        if not dictionary:
+            return pa.array(values.texts, type=pa.string(), from_pandas=False).take(
+                pa.array(np.asarray(values.codes, dtype=np.int32)))
         used, codes = _used_codes(values.codes)
         texts = values.texts[used]
-        if dictionary:
-            # two codes may carry the same text (e.g. two stages with one mass method): a
-            # dictionary holds each text once, in order of first appearance
-            slot: dict = {}
-            merge = np.array([slot.setdefault(t, len(slot)) for t in texts.tolist()], dtype=np.int64)
-            if len(slot) < len(texts):
-                texts = np.array(list(slot), dtype=object)
-                codes = merge[codes]
-            return pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32, copy=False)),
-                                                  pa.array(texts, type=pa.string(), from_pandas=False))
-        return pa.array(texts, type=pa.string(), from_pandas=False).take(pa.array(codes.astype(np.int32, copy=False)))
+        # two codes may carry the same text (e.g. two stages with one mass method): a dictionary
+        # holds each text once, in order of first appearance
+        slot: dict = {}
+        merge = np.array([slot.setdefault(t, len(slot)) for t in texts.tolist()], dtype=np.int64)
+        if len(slot) < len(texts):
+            texts = np.array(list(slot), dtype=object)
+            codes = merge[codes]
+        return pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32, copy=False)),
+                                              pa.array(texts, type=pa.string(), from_pandas=False))
     arr = np.asarray(values)
     if arr.dtype.kind in "UO":
         text = pa.array(arr, type=pa.string(), from_pandas=False)

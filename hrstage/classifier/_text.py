@@ -145,10 +145,56 @@ def format_codes(fmt, n: int, *cols):
     else:  # too many combinations for one integer key: distinct rows of the code matrix
         rows, inv = np.unique(np.stack(invs, axis=1), axis=0, return_inverse=True)
         parts = list(rows.T)
-    vals = [u[p].tolist() for u, p in zip(uniq, parts)]
+    vals = [_values_list(u[p]) for u, p in zip(uniq, parts)]
     texts = np.empty(len(parts[0]), dtype=object)
-    texts[:] = [fmt(*args) for args in zip(*vals)]
+    memo = _memo_for(fmt)
+    if memo is None:
+        texts[:] = [fmt(*args) for args in zip(*vals)]
+    else:  # texts already made for earlier chunks are looked up, not formatted again
+        get = memo.get
+        out = []
+        for args in zip(*vals):
+            t = get(args)
+            if t is None:
+                t = memo[args] = fmt(*args)
+            out.append(t)
+        texts[:] = out
     return texts, inv.reshape(-1)
+
+
+_NAN = float("nan")
+
+
+def _values_list(a) -> list:
+    """``a.tolist()`` with every NaN the same float object (so equal argument tuples compare and
+    hash equal in the memo: distinct NaN objects never do)."""
+    out = a.tolist()
+    if a.dtype.kind == "f":
+        for i in np.flatnonzero(np.isnan(a)).tolist():
+            out[i] = _NAN
+    return out
+
+
+#: Formatted texts per formatter, shared by the calls of a run (a catalogue read in chunks
+#: formats the same numbers again and again); each formatter's memo is dropped when it outgrows
+#: :data:`_MEMO_MAX` entries.
+_MEMOS: dict = {}
+_MEMO_MAX = 1 << 17
+
+
+def _memo_for(fmt):
+    """The memo of a formatter, keyed by its code and the values it closes over (``None`` when
+    those are not hashable, e.g. arrays: then nothing is memoised)."""
+    try:
+        key = (fmt.__code__, tuple(c.cell_contents for c in (fmt.__closure__ or ())))
+        memo = _MEMOS.get(key)
+    except (AttributeError, TypeError, ValueError):
+        return None
+    if memo is None or len(memo) > _MEMO_MAX:
+        if len(_MEMOS) > 64:
+            _MEMOS.clear()
+        memo = _MEMOS[key] = {}
+    return memo
 
 
 def concat_codes(a, b):
