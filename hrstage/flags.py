@@ -60,6 +60,12 @@ def describe(bits: int) -> str:
     return "; ".join(text for bit, text in DESCRIPTIONS.items() if bits & bit)
 
 
+def or_flag(flags, where, bits) -> None:
+    """``flags |= bits`` on the rows where ``where`` is true (in place, one pass, no temporary;
+    a boolean-mask ``flags[where] |= bits`` gathers and scatters the rows)."""
+    np.bitwise_or(flags, np.int64(bits), out=flags, where=np.asarray(where, dtype=bool))
+
+
 def describe_many(bits) -> np.ndarray:
     """Vectorised :func:`describe` (works on the unique values only, so it is cheap)."""
     bits = np.asarray(bits, dtype=np.int64)

@@ -666,7 +666,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     if n_draws > 0:
         z1, z2 = _draws(n_draws, seed)
     finite = np.isfinite(logt) & np.isfinite(logl)
-    flags[no_feh] |= F.NO_METALLICITY
+    F.or_flag(flags, no_feh, F.NO_METALLICITY)
     has_err_all = (st > 0) | (sl > 0)
     single = len(groups) == 1
     drew = False  # whether any probabilities came from draws (else they are one-hot at the label)
@@ -787,7 +787,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         if maps and maps[0].z_clipped:
             zc[:] = True
         feh_given = np.full(n, float(feh) if feh is not None and np.isfinite(float(feh)) else 0.0)
-    flags[zc] |= F.METALLICITY_CLIPPED | F.OUTSIDE_VALIDITY
+    F.or_flag(flags, zc, F.METALLICITY_CLIPPED | F.OUTSIDE_VALIDITY)
 
     notes = []
 
@@ -830,7 +830,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     cbm = finite & (teff < opts["cool_teff"]) & np.isfinite(m_teff) & (
         (np.isfinite(ratio) & (ratio > opts["cool_massive_ratio"])) | too_bright
     )
-    flags[cbm] |= F.COOL_BUT_MASSIVE
+    F.or_flag(flags, cbm, F.COOL_BUT_MASSIVE)
     cool = opts["cool_teff"]
 
     def cbm_text(ii):
@@ -848,7 +848,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
 
     # binary band
     b = (rawc & RAW_BINARY) != 0
-    flags[b] |= F.POSSIBLE_BINARY
+    F.or_flag(flags, b, F.POSSIBLE_BINARY)
 
     def bin_text(ii):
         # height above the upper edge as the band is built (nearest crossing below, per column)
@@ -868,7 +868,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
 
     note("2bin", b, bin_text)
     ex = (rawc & RAW_EXTRAPOLATED) != 0
-    flags[ex] |= F.OUTSIDE_VALIDITY
+    F.or_flag(flags, ex, F.OUTSIDE_VALIDITY)
     note("3extrap", ex, lambda ii: format_codes(
         lambda tf, tz: f"Teff {tf:.0f} K is cooler than the 0.1 Msun ZAMS ({tz:.0f} K): main sequence "
                        "extrapolated beyond the fits", len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f")))
@@ -877,7 +877,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         len(ii), (feh_given[ii], "+.2f"), (feh_used[ii], "+.2f")))
     # near boundary
     near = (near_to >= 0) & finite
-    flags[near] |= F.NEAR_BOUNDARY
+    F.or_flag(flags, near, F.NEAR_BOUNDARY)
     probe = f"dlogT={opts['near_logt']:g} / dlogL={opts['near_logl']:g} dex"
 
     def near_text(ii):
@@ -894,7 +894,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     if drew or opts["low_probability"] > 1.0:
         sp = _row_pick(proba, code)
         low = finite & (sp < opts["low_probability"])
-        flags[low] |= F.LOW_PROBABILITY
+        F.or_flag(flags, low, F.LOW_PROBABILITY)
     else:  # one-hot at the label: P(label) = 1 for every row
         sp = None
         low = np.zeros(n, dtype=bool)
@@ -904,8 +904,8 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     # missing / bad input
     miss = np.isnan(logt) | np.isnan(logl)
     badi = ~miss & ~finite
-    flags[miss] |= F.MISSING_INPUT
-    flags[badi] |= F.BAD_INPUT
+    F.or_flag(flags, miss, F.MISSING_INPUT)
+    F.or_flag(flags, badi, F.BAD_INPUT)
     base_key = code.astype(np.int8)
     base_key[hb] = _B_HB
     for mask, what, key in ((badi, "not finite (inf)", "8bad"), (miss, "missing (NaN)", "8miss")):

@@ -6,6 +6,7 @@ import numpy as np
 from astropy import units as u
 
 from .. import flags as F
+from ..flags import or_flag
 from ..errors import HrstageInputError
 
 
@@ -70,11 +71,6 @@ def broadcast(named: dict):
     for k, v in named.items():
         out[k] = None if v is None else np.array(np.broadcast_to(v, shape).reshape(n), dtype=float)
     return n, out
-
-
-def or_flag(flags, where, bits):
-    """``flags |= bits`` on the rows where ``where`` is true (in place, one pass, no temporary)."""
-    np.bitwise_or(flags, np.int64(bits), out=flags, where=np.asarray(where, dtype=bool))
 
 
 def check_values(flags, values, *, positive: bool = False):
