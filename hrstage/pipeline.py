@@ -82,6 +82,9 @@ class ClassifyOptions:
         Check MK types when an ``sptype`` column is present.
     params : dict
         Further keyword parameters for :func:`hrstage.classifier.classify_hr`.
+    add_columns : tuple of str or None
+        Which of our columns to add (``None``: all of them); ``stage`` and ``flags`` always
+        come. See :func:`make_options` for ``"brief"``.
     """
 
     mapping: ColumnMapping | None = None
@@ -97,6 +100,7 @@ class ClassifyOptions:
     check_sptypes: bool = True
     params: dict = field(default_factory=dict)
     source: str = "the table"
+    add_columns: tuple | None = None
 
     def settings(self) -> dict:
         """JSON-friendly summary, written into the output's metadata."""
@@ -105,11 +109,41 @@ class ClassifyOptions:
                 "routes": list(self.mapping.routes) if self.mapping else [],
                 "feh_default": self.feh, "n_draws": self.n_draws, "seed": self.seed,
                 "min_parallax_snr": self.min_parallax_snr, "parallax_zp": self.parallax_zp,
-                "r_v": self.r_v, "prefix": self.prefix, "params": dict(self.params)}
+                "r_v": self.r_v, "prefix": self.prefix, "params": dict(self.params),
+                "add_columns": "all" if self.add_columns is None else list(self.add_columns)}
 
 
 _OPTION_NAMES = {"profile", "columns", "feh", "n_draws", "draws", "seed", "min_parallax_snr", "parallax_zp",
-                 "r_v", "prefix", "check_sptypes", "params", "source"}
+                 "r_v", "prefix", "check_sptypes", "params", "source", "add_columns"}
+
+#: Our columns that always come, whatever ``add_columns`` says (the interface contract's stage,
+#: and the flag bits that say why a row is unclassified or flagged).
+ALWAYS_ADDED = ("stage", "flags")
+
+#: ``add_columns="brief"``: the label, its probability, the mass, the position used and the flag
+#: bits (and the MK-type verdict when types are checked). Leaves out the per-stage probabilities,
+#: the errors, the provenance and the readable reasons - for very large catalogues.
+BRIEF_COLUMNS = ("stage", "stage_prob", "mass_est", "teff_used", "logl_used", "flags", "sptype_verdict")
+
+
+def _add_columns(value):
+    """``add_columns`` option -> tuple of our column names, or None for all of them."""
+    if value is None:
+        return None
+    if isinstance(value, str):
+        key = value.strip().lower()
+        if key == "all":
+            return None
+        if key == "brief":
+            return BRIEF_COLUMNS
+        value = [v for v in value.split(",") if v.strip()]
+    names = [str(v).strip() for v in value]
+    known = (*CLASSIFY_COLUMNS, *SPTYPE_COLUMNS)
+    bad = [v for v in names if v not in known]
+    if bad:
+        raise HrstageInputError(f"unknown column(s) to add: {', '.join(bad)}; choose 'all', 'brief' or "
+                                f"names among {', '.join(known)}")
+    return tuple(c for c in known if c in set(names) | set(ALWAYS_ADDED))
 
 
 def make_options(**options) -> ClassifyOptions:
@@ -134,6 +168,8 @@ def make_options(**options) -> ClassifyOptions:
             if n < 0:
                 raise HrstageInputError(f"number of draws must be >= 0, got {value}")
             kw["n_draws"] = n
+        elif key == "add_columns":
+            kw[key] = _add_columns(value)
         elif key in _OPTION_NAMES:
             kw[key] = value
         else:
@@ -389,7 +425,7 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     flags_all = np.asarray(cols.get("flags", np.zeros(n, dtype=np.int64)), dtype=np.int64) | extra_bits
     # readable text: our reasons first, then the classifier's, then the bits nobody described
     own_bits = extra_bits & ~np.asarray(cols.get("flags", 0), dtype=np.int64)
-    notes = [(not_done, reason_text), *res.flag_notes(), _bits_note(own_bits)]
+    notes = [(not_done, reason_text), res.flag_notes, _bits_note(own_bits)]   # the classifier's: lazily
 
     if opts.check_sptypes and "sptype" in values:
         from .sptype import check_types
@@ -401,9 +437,12 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
         notes.append(_bits_note(sp_flags & ~flags_all))
         flags_all |= sp_flags
     cols["flags"] = flags_all
-    cols["flag_text"] = CodedText(*join_coded(n, notes))
+    wanted = _our_columns(opts, sptype="sptype_verdict" in cols)
+    if "flag_text" in wanted:   # the reasons are formatted only when they are written
+        notes = [notes[0], *notes[1](), *notes[2:]]
+        cols["flag_text"] = CodedText(*join_coded(n, notes))
     out = {}
-    for c in _our_columns(opts, sptype="sptype_verdict" in cols):
+    for c in wanted:
         if c in cols:
             v = cols[c]
             want = COLUMNS[c].dtype
@@ -436,6 +475,8 @@ def _our_columns(opts, sptype=False):
     names = list(CLASSIFY_COLUMNS)
     if sptype or (opts.check_sptypes and opts.mapping is not None and "sptype" in opts.mapping.roles):
         names += list(SPTYPE_COLUMNS)
+    if opts.add_columns is not None:
+        names = [c for c in names if c in opts.add_columns]
     return names
 
 
@@ -634,14 +675,17 @@ def classify_table(table, **options):
         ``n_draws`` (Monte Carlo draws for probabilities, default 0), ``seed``;
         ``min_parallax_snr`` (default 5), ``parallax_zp`` (mas, subtracted), ``r_v``;
         ``prefix`` for our column names; ``check_sptypes`` (default True); ``params`` (dict for
-        :func:`hrstage.classifier.classify_hr`).
+        :func:`hrstage.classifier.classify_hr`); ``add_columns`` (``"all"``, the default;
+        ``"brief"``: :data:`BRIEF_COLUMNS`; or a list of our column names - ``stage`` and
+        ``flags`` always come).
 
     Returns
     -------
     astropy.table.Table
         The input columns, in order and untouched, then ``stage``, the probabilities, mass estimate,
         the Teff and L used, ``hr_source``, ``flags``, ``flag_text`` (and the ``sptype_*`` columns
-        when an MK type column is present). ``meta`` records the profile, roles and options.
+        when an MK type column is present), or those ``add_columns`` asks for. ``meta`` records
+        the profile, roles and options.
 
     Raises
     ------

@@ -279,3 +279,33 @@ def test_error_in_a_later_chunk_names_the_rows_and_leaves_nothing(tmp_path, monk
         classify_file(tmp_path / "in.parquet", out, chunk_rows=500, workers=workers)
     assert not out.exists() and not list(tmp_path.glob(".*"))
     assert not list(spill_base.iterdir())     # the workers' result folder is removed
+
+
+def test_add_columns_brief_and_named_lists():
+    # the brief set and a named list are subsets of the full output with the same values
+    t = _mixed_population(700)
+    full = hrstage.classify(t, n_draws=8)
+    brief = hrstage.classify(t, n_draws=8, add_columns="brief")
+    ours = [c for c in brief.colnames if c not in t.colnames]
+    assert ours == ["stage", "stage_prob", "mass_est", "teff_used", "logl_used", "flags"]
+    for c in ours:
+        np.testing.assert_array_equal(np.asarray(brief[c]), np.asarray(full[c]))
+    named = hrstage.classify(t, add_columns=["mass_method", "flag_text"])
+    # stage and flags always come; order follows the full output
+    assert [c for c in named.colnames if c not in t.colnames] == ["stage", "mass_method", "flags", "flag_text"]
+    np.testing.assert_array_equal(np.asarray(named["flag_text"]), np.asarray(hrstage.classify(t)["flag_text"]))
+    assert [c for c in hrstage.classify(t, add_columns="all").colnames] == full.colnames
+    with pytest.raises(HrstageInputError, match="unknown column"):
+        hrstage.classify(t, add_columns="stage,no_such_column")
+
+
+def test_add_columns_in_a_streamed_file(tmp_path):
+    src = tmp_path / "in.parquet"
+    write_table(_mixed_population(1200), src)
+    classify_file(src, tmp_path / "full.parquet", chunk_rows=500, n_draws=8)
+    classify_file(src, tmp_path / "brief.parquet", chunk_rows=500, n_draws=8, add_columns="brief", workers=2)
+    full = read_table(tmp_path / "full.parquet")
+    brief = read_table(tmp_path / "brief.parquet")
+    assert "flag_text" not in brief.colnames and "prob_giant" not in brief.colnames
+    for c in ("stage", "stage_prob", "mass_est", "teff_used", "logl_used", "flags"):
+        np.testing.assert_array_equal(np.asarray(brief[c]), np.asarray(full[c]))

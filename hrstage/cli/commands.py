@@ -128,7 +128,8 @@ def cmd_classify(args) -> int:
     summary = classify_file(args.input, args.output, chunk_rows=args.chunk_rows, overwrite=args.overwrite,
                             progress=_progress_wanted(args), input_format=args.in_format,
                             output_format=args.out_format, prefix=args.prefix,
-                            check_sptypes=not args.no_type_check, workers=args.workers, **opts)
+                            check_sptypes=not args.no_type_check, workers=args.workers,
+                            add_columns=args.add_columns, **opts)
     for line in _summary_lines(summary):
         _say(args, line)
     return EXIT_OK
@@ -315,6 +316,10 @@ def build_parser() -> argparse.ArgumentParser:
                         "same output as one process, memory grows with N x chunk rows")
     c.add_argument("--prefix", default="", help="prefix for our column names (when the input already has one)")
     c.add_argument("--no-type-check", action="store_true", help="do not check MK spectral types")
+    c.add_argument("--add-columns", default="all", metavar="all|brief|NAMES",
+                   help="which of our columns to add: all (default); brief (stage, stage_prob, mass_est, "
+                        "teff_used, logl_used, flags, and the MK verdict) for very large catalogues; or "
+                        "comma-separated names (stage and flags always come)")
     c.add_argument("-q", "--quiet", action="store_true", help="no summary, no progress bar")
     _add_column_options(c)
     _add_model_options(c, draws_default=128)
