@@ -26,7 +26,7 @@ from ..stages import (
 )
 from ._loci import LOG_TSUN, Loci, logt_from_lr
 from ._params import StageParams
-from ._raster import Grid, Lookup, fill_polygon_strips
+from ._raster import Grid, Lookup, fill_polygon_strips, run_levels
 
 #: bit of a raw raster code: the cell is in the unresolved-binary band above the main sequence
 RAW_BINARY = 16
@@ -470,32 +470,7 @@ class StageMap:
         (capped at 15 units; the raster edge counts as a change; the border gets 0). A probe of
         fewer cells than that cannot change the label, so it need not be looked up.
         """
-        c = self.codes.values
-        unit = self.FREE_RUN_UNIT
-
-        def run(a):  # cells to the nearest change along axis 1, both sides, edge included
-            a = np.ascontiguousarray(a)
-            nx = a.shape[1]
-            i = np.arange(nx, dtype=np.int16)[None, :]
-            start = np.ones(a.shape, dtype=bool)
-            np.not_equal(a[:, 1:], a[:, :-1], out=start[:, 1:])
-            left = np.where(start, i, np.int16(0))
-            np.maximum.accumulate(left, axis=1, out=left)
-            np.subtract(i, left, out=left)
-            end = np.ones(a.shape, dtype=bool)
-            end[:, :-1] = start[:, 1:]
-            right = np.where(end[:, ::-1], i[:, ::-1], np.int16(nx - 1))
-            np.minimum.accumulate(right, axis=1, out=right)
-            right = right[:, ::-1]
-            right -= i
-            np.minimum(left, right, out=left)
-            left //= unit
-            np.minimum(left, 15, out=left)
-            return left.astype(np.uint8)
-
-        kx = run(c)
-        ky = run(c.T).T
-        return Lookup(kx | (ky << 4), self.grid, np.uint8(0))
+        return Lookup(run_levels(self.codes.values, self.FREE_RUN_UNIT, 15), self.grid, np.uint8(0))
 
     @functools.cached_property
     def _ms_top_columns(self):

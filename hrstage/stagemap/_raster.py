@@ -141,6 +141,80 @@ def fill_polygon_strips(poly: np.ndarray, grid: Grid, rows: int = STRIP_ROWS) ->
     return out
 
 
+def _level_segments(lengths: np.ndarray, unit: int, cap: int):
+    """Run-length code of the levels ``min(d // unit, cap)`` inside runs of the given lengths.
+
+    ``d`` is a cell's distance to the nearer end of its run (0 for the first and the last cell).
+    A run of ``n`` cells has ``ceil(n / 2)`` cells on its first half (d = 0, 1, ... rising) and
+    ``floor(n / 2)`` on its second (d falling back to 0), so each run is 2 (cap + 1) segments
+    of constant level: 0 .. cap then cap .. 0, of lengths clipped to ``unit`` (some empty).
+    Returns (levels, counts) to be expanded with ``np.repeat``.
+    """
+    n = np.asarray(lengths, dtype=np.int64)[:, None]
+    lo = np.arange(cap, dtype=np.int64)[None, :] * unit  # first d of each level below the cap
+    first, second = (n + 1) // 2, n // 2
+    counts = np.concatenate(
+        [
+            np.clip(first - lo, 0, unit),
+            np.maximum(first - unit * cap, 0),
+            np.maximum(second - unit * cap, 0),
+            np.clip(second - lo, 0, unit)[:, ::-1],
+        ],
+        axis=1,
+    )
+    up = np.arange(cap + 1, dtype=np.uint8)
+    levels = np.tile(np.r_[up, up[::-1]], len(n))
+    return levels, counts.ravel()
+
+
+def _expand_runs(starts: np.ndarray, total: int, unit: int, cap: int) -> np.ndarray:
+    """Levels of ``total`` cells (flat) cut into runs beginning at the sorted ``starts`` (0 first)."""
+    lengths = np.diff(np.r_[starts, total])
+    levels, counts = _level_segments(lengths, unit, cap)
+    return np.repeat(levels, counts)
+
+
+def run_levels(values: np.ndarray, unit: int = 8, cap: int = 15, tile: int = 512) -> np.ndarray:
+    """How far each cell's value runs on unchanged along each axis, in units of ``unit`` cells.
+
+    For each cell of the 2-D array: ``kx = min(d_x // unit, cap)`` with ``d_x`` the number of
+    cells between it and the nearer end of its run of equal values along axis 1 (the array edge
+    ends a run), ``ky`` the same along axis 0; returned as uint8 ``kx | ky << 4`` (``cap`` at most
+    15). Every cell within ``unit * kx`` cells left and right of a cell (``unit * ky`` up and down)
+    has its value.
+
+    Works on the positions where the value changes (few on a stage raster): the runs are cut
+    there and each run is written as a short run-length code of levels, expanded with one
+    ``np.repeat`` per axis; the axis-0 levels come out column by column and are merged in tiles
+    of ``tile`` x ``tile`` cells, so no whole-array transposed copy is made.
+    """
+    a = np.asarray(values)
+    if a.ndim != 2:
+        raise ValueError("run_levels: a 2-D array is needed")
+    if not 0 <= cap <= 15 or unit < 1:
+        raise ValueError("run_levels: need unit >= 1 and 0 <= cap <= 15")
+    ny, nx = a.shape
+    total = ny * nx
+    if total == 0:
+        return np.zeros((ny, nx), dtype=np.uint8)
+    # along axis 1, in row-major order: every row starts a run, and so does every change
+    k = np.flatnonzero(a[:, 1:] != a[:, :-1]).astype(np.int64)  # index in the (ny, nx - 1) array
+    starts = np.r_[np.arange(ny, dtype=np.int64) * nx, k + k // max(nx - 1, 1) + 1]
+    starts.sort()
+    kx = _expand_runs(starts, total, unit, cap).reshape(ny, nx)
+    # along axis 0, in column-major order (transposed layout)
+    k = np.flatnonzero(a[1:] != a[:-1]).astype(np.int64)  # index in the (ny - 1, nx) array
+    starts = np.r_[np.arange(nx, dtype=np.int64) * ny, (k % nx) * ny + k // nx + 1]
+    starts.sort()
+    kyt = _expand_runs(starts, total, unit, cap).reshape(nx, ny)
+    np.left_shift(kyt, 4, out=kyt)
+    for j in range(0, ny, tile):
+        for i in range(0, nx, tile):
+            sub = kx[j : j + tile, i : i + tile]
+            np.bitwise_or(sub, kyt[i : i + tile, j : j + tile].T, out=sub)
+    return kx
+
+
 class Lookup:
     """A padded raster with a fast (log T, log L) -> cell gather.
 
