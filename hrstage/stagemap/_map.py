@@ -358,7 +358,9 @@ class StageMap:
 
     def _paint(self):
         g = self.grid
-        raw = np.full((g.ny, g.nx), UNCLASSIFIED, dtype=np.int8)
+        # painted in the interior of the padded lookup array (border: unclassified)
+        padded = Lookup.padded_array(g, UNCLASSIFIED, np.int8)
+        raw = padded[1:-1, 1:-1]
         for code, poly in self._polygons():
             # painted strip by strip, on views of the raster, only where the polygon lies
             for (j0, j1, i0, i1), mask in fill_polygon_strips(poly, g):
@@ -375,13 +377,14 @@ class StageMap:
                         np.copyto(sub, np.int8(MAIN_SEQUENCE | RAW_BINARY), where=mask)
                 else:
                     np.copyto(sub, np.int8(code), where=mask)
-        # main sequence cooler than the ZAMS of 0.1 Msun: extrapolated
+        # main sequence cooler than the ZAMS of 0.1 Msun: extrapolated (the cool columns are the
+        # first ones: centres ascend)
         tc, _ = g.centres()
-        cool = tc < self._logt_valid_min
-        ms = (raw[:, cool] & RAW_STAGE) == MAIN_SEQUENCE
-        raw[:, cool] = np.where(ms, raw[:, cool] | RAW_EXTRAPOLATED, raw[:, cool])
-        self.raw = Lookup(raw, g, np.int8(UNCLASSIFIED))
-        self.codes = Lookup((raw & RAW_STAGE).astype(np.int8), g, np.int8(UNCLASSIFIED))
+        cool = raw[:, : int(np.count_nonzero(tc < self._logt_valid_min))]
+        np.bitwise_or(cool, np.int8(RAW_EXTRAPOLATED), out=cool, where=(cool & RAW_STAGE) == MAIN_SEQUENCE)
+        self.raw = Lookup.from_padded(padded, g)
+        # border: UNCLASSIFIED & RAW_STAGE == UNCLASSIFIED
+        self.codes = Lookup.from_padded(np.bitwise_and(padded, np.int8(RAW_STAGE)), g)
 
     def _masses(self):
         """Coarse raster of the mass estimate of each cell, by the method of its stage."""
@@ -470,7 +473,9 @@ class StageMap:
         (capped at 15 units; the raster edge counts as a change; the border gets 0). A probe of
         fewer cells than that cannot change the label, so it need not be looked up.
         """
-        return Lookup(run_levels(self.codes.values, self.FREE_RUN_UNIT, 15), self.grid, np.uint8(0))
+        padded = Lookup.padded_array(self.grid, 0, np.uint8)
+        run_levels(self.codes.values, self.FREE_RUN_UNIT, 15, out=padded[1:-1, 1:-1])
+        return Lookup.from_padded(padded, self.grid)
 
     @functools.cached_property
     def _ms_top_columns(self):
