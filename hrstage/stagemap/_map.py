@@ -162,16 +162,28 @@ class PiecewiseLinear:
         return y
 
 
-def _invert_tracks(track_logt, track_logl, logm, row_logl, col_logt, rows=None):
+def _invert_tracks(track_logt, track_logl, logm, row_logl, col_logt, rows=None, need=None):
     """Mass raster from tracks: each track is cut at each row's log L, masses interpolated in T.
 
     Rows where fewer than two tracks reach the luminosity get NaN; along a row, cells beyond the
     outermost tracks get the mass of the nearest one (clamped). ``rows`` (boolean, one per row):
-    only these rows are computed, the others are left NaN (the rows where no cell needs the
-    result; the computed rows do not depend on the others).
+    only these rows are computed, the others are left NaN. ``need`` (boolean, rows x columns):
+    only the rows holding a needed cell are computed, each only from its first to its last
+    needed cell, the rest is left NaN. Every cell's value depends on its row's tracks and its own
+    log T alone, so a computed cell is the same whichever others are computed.
     """
     n_m = len(logm)
-    tcut = np.full((len(row_logl), n_m), np.nan)
+    out = np.full((len(row_logl), len(col_logt)), np.nan, dtype=np.float32)
+    if need is not None:
+        have = need.any(axis=1)
+        rows = have if rows is None else rows & have
+        c0 = np.argmax(need, axis=1)
+        c1 = need.shape[1] - np.argmax(need[:, ::-1], axis=1)
+    todo = np.arange(len(row_logl)) if rows is None else np.flatnonzero(rows)
+    if len(todo) == 0:
+        return out
+    rl = row_logl[todo]
+    tcut = np.full((len(todo), n_m), np.nan)
     for i in range(n_m):
         tl, tt = track_logl[i], track_logt[i]
         ok = np.isfinite(tl) & np.isfinite(tt)
@@ -181,16 +193,20 @@ def _invert_tracks(track_logt, track_logl, logm, row_logl, col_logt, rows=None):
         if tl[-1] < tl[0]:
             tl, tt = tl[::-1], tt[::-1]
         tl = np.maximum.accumulate(tl)
-        tcut[:, i] = np.interp(row_logl, tl, tt, left=np.nan, right=np.nan)
-    out = np.full((len(row_logl), len(col_logt)), np.nan, dtype=np.float32)
-    todo = range(len(row_logl)) if rows is None else np.flatnonzero(rows)
-    for r in todo:
-        ok = np.isfinite(tcut[r])
-        if ok.sum() < 2:
-            continue
-        tt, mm = tcut[r, ok], logm[ok]
-        o = np.argsort(tt, kind="stable")
-        out[r] = np.interp(col_logt, tt[o], mm[o])
+        tcut[:, i] = np.interp(rl, tl, tt, left=np.nan, right=np.nan)
+    # per row, the tracks that reach it in order of log T (a stable sort puts the NaNs last and
+    # keeps the finite cuts in the order a stable sort of them alone gives)
+    n_ok = np.isfinite(tcut).sum(axis=1)
+    order = np.argsort(tcut, axis=1, kind="stable")
+    tsort = np.take_along_axis(tcut, order, axis=1)
+    msort = logm[order]
+    for k in np.flatnonzero(n_ok >= 2):
+        r, n = todo[k], n_ok[k]
+        if need is None:
+            out[r] = np.interp(col_logt, tsort[k, :n], msort[k, :n])
+        else:
+            a, b = c0[r], c1[r]
+            out[r, a:b] = np.interp(col_logt[a:b], tsort[k, :n], msort[k, :n])
     return out
 
 
@@ -392,23 +408,24 @@ class StageMap:
         fx, fy = self.mass_factor
         cg = g.coarsen(fx, fy)
         ct, cl = cg.centres()
-        codes = self.codes.values[fy // 2 :: fy, fx // 2 :: fx][: cg.ny, : cg.nx]
+        # the cell-centre samples of the fine raster, contiguous (compared several times)
+        codes = np.ascontiguousarray(self.codes.values[fy // 2 :: fy, fx // 2 :: fx][: cg.ny, : cg.nx])
         mass = np.full((cg.ny, cg.nx), np.nan, dtype=np.float32)
         m = L.m
         logm = np.log10(m)
+        # cells of each stage (the track inversions are needed only there)
+        is_ = {code: codes == code for code in (MAIN_SEQUENCE, SUBGIANT, GIANT, BRIGHT_GIANT, SUPERGIANT)}
         # main sequence
-        # rows holding cells of each stage (the track inversions are needed only there)
-        rows_of = {code: (codes == code).any(axis=1) for code in (MAIN_SEQUENCE, SUBGIANT, GIANT, BRIGHT_GIANT)}
         tr_t, tr_l = L.ms_tracks(m)
-        ms_raster = _invert_tracks(tr_t, tr_l, logm, cl, ct, rows=rows_of[MAIN_SEQUENCE])
+        ms_raster = _invert_tracks(tr_t, tr_l, logm, cl, ct, need=is_[MAIN_SEQUENCE])
         # Hertzsprung gap
         ev = L.evolved & (m < 0.999 * self.m_fgb)
         hg_t, hg_l = L.hg_tracks(m[ev])
-        hg_raster = _invert_tracks(hg_t, hg_l, logm[ev], cl, ct, rows=rows_of[SUBGIANT])
+        hg_raster = _invert_tracks(hg_t, hg_l, logm[ev], cl, ct, need=is_[SUBGIANT])
         # giant branch / AGB (masses below M_FGB have a giant branch)
         gb = L.evolved & (m < 0.999 * self.m_fgb)
         gt, gl = L.giant_tracks(m[gb], logl_max=min(g.l1, 5.5))
-        gb_raster = _invert_tracks(gt, gl, logm[gb], cl, ct, rows=rows_of[GIANT] | rows_of[BRIGHT_GIANT])
+        gb_raster = _invert_tracks(gt, gl, logm[gb], cl, ct, need=is_[GIANT] | is_[BRIGHT_GIANT])
         # supergiants: mean post-MS luminosity -> mass (monotone part above M_HeF)
         hi = (m >= self.m_hef) & np.isfinite(L.logl_post)
         lp = np.maximum.accumulate(L.logl_post[hi])
@@ -417,10 +434,10 @@ class StageMap:
         # white dwarfs: radius from (T, L), then eq 91 inverted
         mw = np.linspace(0.1, 1.43, 400)
         rw = np.log10(hpt.wd_radius(mw))
-        wsel = codes == WHITE_DWARF  # evaluated in the white-dwarf cells only
-        wr, wc = np.nonzero(wsel)
+        wk = np.flatnonzero(codes == WHITE_DWARF)  # evaluated in the white-dwarf cells only
+        wr, wc = np.divmod(wk, cg.nx)
         logr = 0.5 * cl[wr] - 2.0 * (ct[wc] - LOG_TSUN)
-        mass[wsel] = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.nan)
+        mass.reshape(-1)[wk] = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.nan)
         for code, src in (
             (MAIN_SEQUENCE, ms_raster),
             (SUBGIANT, hg_raster),
@@ -428,10 +445,10 @@ class StageMap:
             (BRIGHT_GIANT, gb_raster),
             (SUPERGIANT, sg_raster),
         ):
-            sel = codes == code
+            sel = is_[code]
             mass[sel] = src[sel]
         # bright giants without a giant-branch solution: luminosity relation
-        fallback = (codes == BRIGHT_GIANT) & ~np.isfinite(mass)
+        fallback = is_[BRIGHT_GIANT] & ~np.isfinite(mass)
         mass[fallback] = sg_raster[fallback]
         # horizontal-branch cells: typical current mass of a ZAHB star of that Teff
         rawc = self.raw.values[fy // 2 :: fy, fx // 2 :: fx][: cg.ny, : cg.nx]
@@ -440,7 +457,11 @@ class StageMap:
             hbm = np.log10(self._hb_mass(ct))
             mass[hbc] = np.broadcast_to(hbm[None, :], mass.shape)[hbc]
         self.mass_grid = cg
-        self.mass_lookup = Lookup((10.0 ** mass).astype(np.float32), cg, np.float32(np.nan))
+        # 10^x only where there is a mass (the power is elementwise; NaN stays NaN)
+        padded = Lookup.padded_array(cg, np.nan, np.float32)
+        have = np.isfinite(mass)
+        padded[1:-1, 1:-1][have] = 10.0 ** mass[have]
+        self.mass_lookup = Lookup.from_padded(padded, cg)
         # 1-D relations along the ZAMS
         self._zams_logt = L.zams[0]
         self._zams_logl = L.zams[1]

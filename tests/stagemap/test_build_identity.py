@@ -202,3 +202,32 @@ def test_invert_tracks_rows_subset_matches_all_rows():
     assert np.array_equal(part[rows], full[rows], equal_nan=True)
     assert np.isnan(part[~rows]).all()
     assert np.isfinite(full[~rows]).any()
+
+
+def test_invert_tracks_needed_cells_match_all_cells():
+    # only the needed cells of a row are computed (from its first to its last needed one); they
+    # equal the whole-raster inversion of the previous algorithm, the rest stays NaN
+    sm = _map.StageMap(-1.5, StageParams())
+    L = sm.loci
+    cg = sm.grid.coarsen(*sm.mass_factor)
+    ct, cl = cg.centres()
+    ev = L.evolved & (L.m < 0.999 * sm.m_fgb)
+    logm = np.log10(L.m)
+    rng = np.random.default_rng(2)
+    for t, l, lm in [(*L.ms_tracks(L.m), logm), (*L.hg_tracks(L.m[ev]), logm[ev])]:
+        full = _ref_invert_tracks(t, l, lm, cl, ct)
+        need = rng.random(full.shape) < 0.01
+        need[:, :3] = True  # first columns, and a whole row, a single cell, an empty row
+        need[len(cl) // 2] = True
+        need[len(cl) // 3] = False
+        need[len(cl) // 3, 500] = True
+        need[len(cl) // 4] = False
+        part = _map._invert_tracks(t, l, lm, cl, ct, need=need)
+        assert np.array_equal(part[need], full[need], equal_nan=True)
+        assert np.isfinite(part[need]).any()
+        assert np.isnan(part[len(cl) // 4]).all()
+        span = np.zeros_like(need)
+        for r in np.flatnonzero(need.any(axis=1)):
+            c = np.flatnonzero(need[r])
+            span[r, c[0] : c[-1] + 1] = True
+        assert np.isnan(part[~span]).all()
