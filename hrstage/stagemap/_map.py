@@ -494,6 +494,9 @@ class StageMap:
         (capped at 15 units; the raster edge counts as a change; the border gets 0). A probe of
         fewer cells than that cannot change the label, so it need not be looked up.
         """
+        return self._free_run_lookup()
+
+    def _free_run_lookup(self) -> Lookup:
         padded = Lookup.padded_array(self.grid, 0, np.uint8)
         run_levels(self.codes.values, self.FREE_RUN_UNIT, 15, out=padded[1:-1, 1:-1])
         return Lookup.from_padded(padded, self.grid)
@@ -738,22 +741,18 @@ def _cross(xc, yc, x, y):
     return out
 
 
-@functools.lru_cache(maxsize=24)
+#: maps the cache of :func:`stage_map` holds (least recently used ones are dropped beyond)
+CACHE_SIZE = 24
+
+
+@functools.lru_cache(maxsize=CACHE_SIZE)
 def _cached(feh_key: float, params: StageParams) -> StageMap:
     return StageMap(feh_key, params)
 
 
-def stage_map(feh: float = 0.0, **params) -> StageMap:
-    """The (cached) stage map for [Fe/H] ``feh`` (rounded to 0.001 dex) and stage parameters.
-
-    Parameters
-    ----------
-    feh : float
-        [Fe/H] in dex; Z = 0.02 x 10^feh in the fits' scale, clipped to 1e-4..0.03 (the map says
-        ``z_clipped``).
-    **params
-        Any field of :class:`StageParams`; or ``params=StageParams(...)``.
-    """
+def _key(feh, params: dict):
+    """Cache key (rounded [Fe/H], StageParams) of a stage_map call, with its argument checks."""
+    params = dict(params)
     if "params" in params:
         sp = params.pop("params")
         if params:
@@ -768,4 +767,62 @@ def stage_map(feh: float = 0.0, **params) -> StageMap:
         raise HrstageInputError(f"stage map: [Fe/H]={feh!r} is not a number") from None
     if not np.isfinite(feh):
         raise HrstageInputError(f"stage map: [Fe/H]={feh!r} is not a finite number")
-    return _cached(round(feh, 3), sp)
+    return round(feh, 3), sp
+
+
+def stage_map(feh: float = 0.0, **params) -> StageMap:
+    """The (cached) stage map for [Fe/H] ``feh`` (rounded to 0.001 dex) and stage parameters.
+
+    Parameters
+    ----------
+    feh : float
+        [Fe/H] in dex; Z = 0.02 x 10^feh in the fits' scale, clipped to 1e-4..0.03 (the map says
+        ``z_clipped``).
+    **params
+        Any field of :class:`StageParams`; or ``params=StageParams(...)``.
+    """
+    return _cached(*_key(feh, params))
+
+
+def _build_with_free_run(key) -> StageMap:
+    sm = _cached(*key)
+    if "free_run" not in sm.__dict__:
+        # set directly: the cached_property of Python < 3.12 computes under one lock shared by
+        # all instances, which would serialise the threads
+        sm.__dict__["free_run"] = sm._free_run_lookup()
+    return sm
+
+
+def prebuild(fehs, workers: int = 2, **params) -> list:
+    """Build (and cache) the stage maps of several metallicities at once, ``free_run`` included.
+
+    The same maps :func:`stage_map` returns (same rounding and parameters, same cache); each
+    distinct map is built once. ``workers`` threads build different maps concurrently (numpy
+    releases the interpreter lock in its larger loops): on an otherwise idle 2-core machine 12
+    maps took ~1.15 s with 2 threads against ~1.55 s one after another (median of 6, same
+    run); on cores busy with other work threads gain nothing and can be slower, so pass
+    ``workers=1`` there. Results are identical either way. At most :data:`CACHE_SIZE` maps stay
+    cached; the returned list (one map per entry of ``fehs``, in order) holds them all.
+
+    Parameters
+    ----------
+    fehs : iterable of float
+        [Fe/H] values (dex).
+    workers : int
+        Threads (1: one map after another in the calling thread).
+    **params
+        As for :func:`stage_map`.
+    """
+    keys = [_key(f, params) for f in np.atleast_1d(np.asarray(fehs, dtype=object)).tolist()]
+    workers = int(workers)
+    if workers < 1:
+        raise HrstageInputError(f"prebuild: workers={workers} must be at least 1")
+    todo = list(dict.fromkeys(keys))
+    if workers == 1 or len(todo) < 2:
+        built = {k: _build_with_free_run(k) for k in todo}
+    else:
+        from concurrent.futures import ThreadPoolExecutor
+
+        with ThreadPoolExecutor(max_workers=min(workers, len(todo))) as pool:
+            built = dict(zip(todo, pool.map(_build_with_free_run, todo)))
+    return [built[k] for k in keys]
