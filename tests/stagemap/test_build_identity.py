@@ -168,18 +168,24 @@ def test_strips_reassemble_to_whole_raster_fill():
         ang = np.sort(rng.uniform(0, 2 * np.pi, 40))
         r = rng.uniform(0.05, 1.2, 40)
         polys.append(np.c_[4.3 + r * np.cos(ang), 0.5 + 7 * r * np.sin(ang)])
+    # thin bands running off the left and right edges, and a box with vertices on cell centres
+    polys.append(np.array([[3.0, -5.0], [5.6, 6.0], [5.6, 6.3], [3.0, -4.7]]))
+    polys.append(np.array([[3.3005, 0.00125], [3.4005, 0.00125], [3.4005, 1.00125], [3.3005, 1.00125]]))
     polys.append(np.array([[3.5, -1.0], [4.0, 0.0], [4.5, 1.0]]))  # collinear: empty
     polys.append(np.array([[4.0001, 0.0001], [4.0002, 0.0001], [4.0002, 0.0002]]))  # below a cell
     for poly in polys:
         ref = _ref_fill_polygon(poly, g)
         assert np.array_equal(fill_polygon(poly, g), ref)
-        strips = fill_polygon_strips(poly, g, rows=7)
-        rows = [(j0, j1) for (j0, j1, _, _), _m in strips]
-        assert all(a[1] <= b[0] for a, b in zip(rows, rows[1:]))  # disjoint, in order
-        covered = np.zeros_like(ref)
-        for (j0, j1, i0, i1), sub in strips:
-            covered[j0:j1, i0:i1] = sub
-        assert np.array_equal(covered, ref)
+        for n_rows in (1, 7, 128):
+            strips = fill_polygon_strips(poly, g, rows=n_rows)
+            rows = [(j0, j1) for (j0, j1, _, _), _m in strips]
+            assert all(a[1] <= b[0] for a, b in zip(rows, rows[1:]))  # disjoint, in order
+            assert all(j1 - j0 <= n_rows for j0, j1 in rows)
+            covered = np.zeros_like(ref)
+            for (j0, j1, i0, i1), sub in strips:
+                assert sub.shape == (j1 - j0, i1 - i0) and sub.flags.writeable
+                covered[j0:j1, i0:i1] = sub
+            assert np.array_equal(covered, ref)
 
 
 def test_invert_tracks_rows_subset_matches_all_rows():
@@ -196,3 +202,32 @@ def test_invert_tracks_rows_subset_matches_all_rows():
     assert np.array_equal(part[rows], full[rows], equal_nan=True)
     assert np.isnan(part[~rows]).all()
     assert np.isfinite(full[~rows]).any()
+
+
+def test_invert_tracks_needed_cells_match_all_cells():
+    # only the needed cells of a row are computed (from its first to its last needed one); they
+    # equal the whole-raster inversion of the previous algorithm, the rest stays NaN
+    sm = _map.StageMap(-1.5, StageParams())
+    L = sm.loci
+    cg = sm.grid.coarsen(*sm.mass_factor)
+    ct, cl = cg.centres()
+    ev = L.evolved & (L.m < 0.999 * sm.m_fgb)
+    logm = np.log10(L.m)
+    rng = np.random.default_rng(2)
+    for t, l, lm in [(*L.ms_tracks(L.m), logm), (*L.hg_tracks(L.m[ev]), logm[ev])]:
+        full = _ref_invert_tracks(t, l, lm, cl, ct)
+        need = rng.random(full.shape) < 0.01
+        need[:, :3] = True  # first columns, and a whole row, a single cell, an empty row
+        need[len(cl) // 2] = True
+        need[len(cl) // 3] = False
+        need[len(cl) // 3, 500] = True
+        need[len(cl) // 4] = False
+        part = _map._invert_tracks(t, l, lm, cl, ct, need=need)
+        assert np.array_equal(part[need], full[need], equal_nan=True)
+        assert np.isfinite(part[need]).any()
+        assert np.isnan(part[len(cl) // 4]).all()
+        span = np.zeros_like(need)
+        for r in np.flatnonzero(need.any(axis=1)):
+            c = np.flatnonzero(need[r])
+            span[r, c[0] : c[-1] + 1] = True
+        assert np.isnan(part[~span]).all()
