@@ -24,7 +24,7 @@ from ..stages import (
     SUPERGIANT,
     UNCLASSIFIED,
 )
-from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, stage_map
+from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, prebuild, stage_map
 from ._text import CodedText, concat_codes, format_codes, join_notes
 
 N_STAGES = len(STAGES)
@@ -648,6 +648,16 @@ def classify_hr(
                          stage_kw, opts)
 
 
+def _build_threads() -> int:
+    """Threads for building several stage maps: two where this process may use two cores."""
+    import os
+
+    try:
+        return min(2, len(os.sched_getaffinity(0)))
+    except AttributeError:  # pragma: no cover (macOS, Windows)
+        return min(2, os.cpu_count() or 1)
+
+
 def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n_draws, seed, stage_kw, opts):
     code = np.full(n, UNCLASSIFIED, dtype=np.int8)
     rawc = np.full(n, UNCLASSIFIED, dtype=np.int8)
@@ -670,6 +680,8 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     has_err_all = (st > 0) | (sl > 0)
     single = len(groups) == 1
     drew = False  # whether any probabilities came from draws (else they are one-hot at the label)
+    if len(groups) > 1:   # several metallicities: their maps are built together (threads)
+        prebuild(list(groups), workers=_build_threads(), **stage_kw)
     for gi, (fg, idx) in enumerate(groups.items()):
         sm = stage_map(fg, **stage_kw)
         maps.append(sm)
