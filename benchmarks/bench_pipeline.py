@@ -5,7 +5,8 @@ What is measured, side by side (each pair interleaved, median of ``--repeats`` r
 1. **Parquet**: ``hrstage classify IN.parquet -o OUT.parquet`` (a fresh process: start-up,
    import, read, classify, write) against a fresh process that only reads the same file with
    pyarrow and writes it back. The ratio CLI / pyarrow is the project's bar (design: <= 3x).
-   The CLI runs once per ``--workers`` value (default 1 and 2 worker processes), interleaved.
+   The CLI runs once per ``--workers`` value (default 1 and 2 worker processes) and per
+   ``--add-columns`` set (default ``all``, every column, and ``brief``), interleaved.
 2. **CSV**: the same with a CSV input and a CSV output (pyarrow.csv reading and writing).
 3. **Streaming memory**: peak resident memory (``ru_maxrss`` of the child, from ``os.wait4``) of
    ``hrstage classify --chunk-rows N`` on a ``--stream-rows`` Parquet file (default 20 M rows), for
@@ -254,12 +255,18 @@ def med(values) -> float:
 # --------------------------------------------------------------------------------------------
 # the four measurements
 # --------------------------------------------------------------------------------------------
-def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,)) -> dict:
-    """CLI (one run per worker count) and pyarrow, interleaved: cli w1, cli w2, ..., pyarrow, repeat."""
+def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), column_sets=("all",)) -> dict:
+    """CLI (one run per worker count and ``--add-columns`` set) and pyarrow, interleaved:
+    cli w1, cli w2, ..., pyarrow, repeat. Results of the sets other than ``all`` are keyed
+    ``"<workers>:<set>"``."""
     src = write_synthetic(work / f"in_{rows}.{kind}", rows, kind)
     out_pa = work / f"out_pyarrow.{kind}"
-    cmds = [(f"w{w}", cli(src, work / f"out_cli_w{w}.{kind}", "--workers", str(w)), work / f"out_cli_w{w}.{kind}")
-            for w in workers]
+    cmds = []
+    for cs in column_sets:
+        for w in workers:
+            name = f"w{w}" if cs == "all" else f"w{w}:{cs}"
+            out = work / f"out_cli_w{w}_{cs}.{kind}"
+            cmds.append((name, cli(src, out, "--workers", str(w), "--add-columns", cs), out))
     cmds.append(("pyarrow", pyarrow_copy(kind, src, out_pa), out_pa))
     runs: dict = {name: [] for name, _, _ in cmds}
     for _ in range(repeats):
@@ -276,14 +283,17 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,)) -
         "pyarrow_median_s": round(med(t for t, _ in runs["pyarrow"]), 3),
         "workers": {},
     }
-    for w in workers:
-        times = [t for t, _ in runs[f"w{w}"]]
+    for name, _, out in cmds:
+        if name == "pyarrow":
+            continue
+        times = [t for t, _ in runs[name]]
         m = round(med(times), 3)
-        res["workers"][w] = {"cli_s": [round(t, 3) for t in times], "cli_median_s": m,
-                             "ratio_cli_over_pyarrow": round(m / res["pyarrow_median_s"], 2),
-                             "cli_rows_per_s": round(rows / m)}
+        key = int(name[1:]) if ":" not in name else name[1:]
+        res["workers"][key] = {"cli_s": [round(t, 3) for t in times], "cli_median_s": m,
+                               "ratio_cli_over_pyarrow": round(m / res["pyarrow_median_s"], 2),
+                               "cli_rows_per_s": round(rows / m)}
     # the first worker count keeps the flat keys of earlier versions of this script
-    base = res["workers"][workers[0]]
+    base = res["workers"][next(iter(res["workers"]))]
     res.update(cli_s=base["cli_s"], cli_median_s=base["cli_median_s"],
                ratio_cli_over_pyarrow=base["ratio_cli_over_pyarrow"], cli_rows_per_s=base["cli_rows_per_s"])
     src.unlink()
@@ -296,7 +306,8 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,)) -
 def _print_format(title: str, r: dict, bar: str) -> None:
     print(f"\n{title}, {r['rows']:,} rows ({r['input_MiB']} MiB in, {r['output_MiB']} MiB out):")
     for w, x in r["workers"].items():
-        print(f"  hrstage classify --workers {w}  median {x['cli_median_s']:8.2f} s   {x['cli_s']}"
+        label = f"--workers {w}" if not isinstance(w, str) else "--workers {} --add-columns {}".format(*w.split(":"))
+        print(f"  hrstage classify {label:<32} median {x['cli_median_s']:8.2f} s   {x['cli_s']}"
               f"   ratio CLI / pyarrow = {x['ratio_cli_over_pyarrow']:.2f}{bar}")
     print(f"  pyarrow read+write           median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}")
 
@@ -377,6 +388,9 @@ def parse_args(argv=None):
                    help="rows of the Dask dataset (default: --rows)")
     p.add_argument("--workers", type=_int_list, default=[1, 2],
                    help="comma-separated --workers values of the CLI runs (default 1,2)")
+    p.add_argument("--add-columns", type=lambda t: [x.strip() for x in t.split(",") if x.strip()],
+                   default=["all", "brief"],
+                   help="comma-separated --add-columns sets of the CLI runs (default all,brief)")
     p.add_argument("--dask-partitions", type=int, default=16, help="files in the Dask dataset (default 16)")
     p.add_argument("--repeats", type=int, default=3, help="repeats per timing; the median is reported (default 3)")
     p.add_argument("--skip", default="", help="comma-separated parts to skip: parquet,csv,stream,dask")
@@ -411,10 +425,12 @@ def main(argv=None) -> int:
     t_start = time.perf_counter()
     try:
         if "parquet" not in skip:
-            r = results["parquet"] = bench_format(work, args.rows, "parquet", args.repeats, args.workers)
+            r = results["parquet"] = bench_format(work, args.rows, "parquet", args.repeats, args.workers,
+                                                  args.add_columns)
             _print_format("Parquet", r, "   (bar: <= 3)")
         if "csv" not in skip:
-            r = results["csv"] = bench_format(work, args.csv_rows or args.rows, "csv", args.repeats, args.workers)
+            r = results["csv"] = bench_format(work, args.csv_rows or args.rows, "csv", args.repeats, args.workers,
+                                              args.add_columns)
             _print_format("CSV", r, "")
         if "stream" not in skip:
             r = results["stream"] = bench_streaming(work, stream_rows, chunks)
