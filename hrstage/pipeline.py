@@ -328,9 +328,14 @@ def _positions(values, status, mapping, opts, feh, n):
         pos = _run_route(route, idx, values, opts, feh)
         good = np.isfinite(pos.logt) & np.isfinite(pos.logl)
         ok_rows = idx[good]
-        for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
-            getattr(out, name)[ok_rows] = np.asarray(getattr(pos, name), dtype=float)[good]
-        out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
+        if ok_rows.size == n:   # one route placed every row: its arrays are the result
+            for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
+                setattr(out, name, np.asarray(getattr(pos, name), dtype=float))
+            out.flags = np.asarray(pos.flags, dtype=np.int64)
+        else:
+            for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
+                getattr(out, name)[ok_rows] = np.asarray(getattr(pos, name), dtype=float)[good]
+            out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
         if pos.source_codes is not None:
             texts, codes = pos.source_codes
             texts = np.asarray(texts, dtype=object)
