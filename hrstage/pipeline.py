@@ -827,6 +827,18 @@ def _pool_context():
     return mp.get_context("fork" if "fork" in mp.get_all_start_methods() else "spawn")
 
 
+#: Our numeric columns with few distinct values (probabilities are multiples of 1/draws, flags a
+#: few bit patterns, [Fe/H] used a few grid or input values): dictionary-encoded in a Parquet
+#: output, like the texts of :data:`DICTIONARY_COLUMNS`; the other numbers are written plain.
+FEW_VALUED_NUMBERS = ("stage_prob", *(f"prob_{s}" for s in STAGES), "flags", "feh_used")
+
+
+def _writer_columns(prefix):
+    """``ChunkWriter`` keywords naming our columns (``added``) and those worth a dictionary."""
+    return {"added": [prefix + n for n in COLUMNS],
+            "added_dictionary": [prefix + n for n in (*DICTIONARY_COLUMNS, *FEW_VALUED_NUMBERS)]}
+
+
 def _rows_of(chunk) -> int:
     return chunk.num_rows if _is_arrow(chunk) else len(chunk)
 
@@ -896,7 +908,8 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
     used = 1
     pool = spill = None
     try:
-        with ChunkWriter(out, output_format, overwrite=overwrite, inputs=[inp]) as writer:
+        with ChunkWriter(out, output_format, overwrite=overwrite, inputs=[inp],
+                         **_writer_columns(opts.prefix)) as writer:
 
             def count(names, cnt, fl, n):
                 for name, c in zip(names, cnt):

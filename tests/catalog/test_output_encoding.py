@@ -1,0 +1,65 @@
+"""Parquet writer properties of our output: input columns as pyarrow writes them by default, our
+columns with a dictionary only where they have few distinct values; the file reads back the same
+through pyarrow and through astropy's own Parquet reader."""
+
+from __future__ import annotations
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from hrstage.catalog import ChunkWriter
+from hrstage.catalog.streaming import parquet_properties
+from hrstage.pipeline import classify_file
+
+
+def _encodings(path):
+    md = pq.read_metadata(path)
+    rg = md.row_group(0)
+    return {rg.column(i).path_in_schema: (any("DICTIONARY" in e for e in rg.column(i).encodings),
+                                          rg.column(i).is_stats_set) for i in range(rg.num_columns)}
+
+
+def _input(path, n=3000):
+    rng = np.random.default_rng(5)
+    teff = 10 ** rng.uniform(3.5, 4.4, n)
+    pq.write_table(pa.table({"star_id": np.arange(n), "teff": teff, "lum": 10 ** rng.uniform(-2.5, 4.5, n),
+                             "feh": np.round(rng.uniform(-1.0, 0.3, n), 2)}), path)
+
+
+def test_classify_file_parquet_encodings_and_astropy_reads_it(tmp_path):
+    src, dst = tmp_path / "in.parquet", tmp_path / "out.parquet"
+    _input(src)
+    classify_file(src, dst, chunk_rows=1000)
+    enc = _encodings(dst)
+    for name in ("star_id", "teff", "lum", "feh"):            # input: pyarrow's defaults
+        assert enc[name] == (True, True), name
+    for name in ("stage", "mass_method", "hr_source", "prob_giant", "stage_prob", "flags", "feh_used"):
+        assert enc[name] == (True, False), name              # few values: dictionary, no statistics
+    for name in ("mass_est", "teff_used", "logl_used", "flag_text"):
+        assert enc[name] == (False, False), name             # continuous / long texts: plain
+
+
+def test_chunk_writer_default_unchanged_and_nested_inputs(tmp_path):
+    data = pa.table({"x": pa.array([[1.0, 2.0], [1.0]] * 50), "s": pa.array([{"a": 1, "b": "u"}] * 100),
+                     "a.b": np.ones(100), "ours": np.arange(100.0),
+                     "few": pa.array(["p", "q"] * 50).dictionary_encode()})
+    plain = tmp_path / "plain.parquet"
+    with ChunkWriter(plain) as w:                             # other callers: pyarrow's defaults
+        w.write(data)
+    assert all(v == (True, True) for v in _encodings(plain).values())
+    assert pq.read_table(plain).schema.field("few").type == data.schema.field("few").type
+    tagged = tmp_path / "tagged.parquet"
+    with ChunkWriter(tagged, added=["ours", "few", "absent"], added_dictionary=["few"]) as w:
+        w.write(data)
+    enc = _encodings(tagged)
+    # nested input columns are named by their leaf paths, a dotted top-level name is one leaf
+    assert enc["x.list.element"] == enc["s.a"] == enc["s.b"] == enc["a.b"] == (True, True)
+    assert enc["ours"] == (False, False) and enc["few"] == (True, False)
+    assert pq.read_table(tagged).equals(data)
+
+
+def test_parquet_properties_only_input():
+    schema = pa.schema([("a", pa.float64()), ("b", pa.int64())])
+    assert parquet_properties(schema, added=[]) == {"use_dictionary": ["a", "b"], "write_statistics": ["a", "b"]}
+    assert parquet_properties(schema, added=["a", "b"]) == {"use_dictionary": False, "write_statistics": False}
