@@ -278,8 +278,10 @@ class ChunkWriter:
         absent from the chunks are ignored). When given, the other (input) columns are written as
         pyarrow writes them by default (dictionary encoding tried, statistics), the added ones
         without statistics and without a dictionary attempt, except those in
-        ``added_dictionary`` (columns of few distinct values: dictionary-encoded). Without it,
-        every column gets pyarrow's defaults.
+        ``added_dictionary`` (columns of few distinct values: dictionary-encoded). Added columns
+        of Arrow dictionary type are stored with their plain value type (the Parquet file still
+        dictionary-encodes them): astropy's Parquet reader refuses Arrow dictionary columns.
+        Without ``added``, every column gets pyarrow's defaults and its own type.
     added_dictionary : iterable of str
         The added columns worth a dictionary (see ``added``).
     """
@@ -371,6 +373,8 @@ class ChunkWriter:
 
         if isinstance(data, pa.RecordBatch):
             data = pa.Table.from_batches([data])
+        if self._added is not None:
+            data = _plain_added(data, self._added)
         if self._writer is None:
             self._schema = data.schema
             self._writer = self._parquet_writer(self._schema)
@@ -501,6 +505,17 @@ def parquet_properties(schema, added, added_dictionary=()) -> dict:
         elif field.name in added_dictionary:
             dictionary += leaves
     return {"use_dictionary": dictionary or False, "write_statistics": statistics or False}
+
+
+def _plain_added(data, added):
+    """``data`` with its added columns of Arrow dictionary type cast to their value type."""
+    import pyarrow as pa
+
+    for i, field in enumerate(data.schema):
+        if field.name in added and pa.types.is_dictionary(field.type):
+            data = data.set_column(i, field.with_type(field.type.value_type),
+                                   data.column(i).cast(field.type.value_type))
+    return data
 
 
 def _is_arrow(obj) -> bool:
