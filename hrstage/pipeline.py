@@ -819,6 +819,85 @@ class _Received:
             os.unlink(self.path)
 
 
+class _ReadAhead:
+    """Iterate ``items`` with the next item fetched in a background thread while the caller works
+    on the current one (pyarrow's readers release the GIL). One item ahead, in order; an exception
+    of the source is raised, unchanged, where that item would have been handed out."""
+
+    def __init__(self, items, pool):
+        self._items = iter(items)
+        self._pool = pool
+        self._next = None
+        self._started = False
+
+    def _fetch(self):
+        try:
+            return False, next(self._items)
+        except StopIteration:
+            return True, None
+
+    def __iter__(self):
+        return self
+
+    def __next__(self):
+        if not self._started:
+            self._started = True
+            self._next = self._pool.submit(self._fetch)
+        if self._next is None:
+            raise StopIteration
+        future, self._next = self._next, None
+        done, item = future.result()
+        if done:
+            raise StopIteration
+        self._next = self._pool.submit(self._fetch)
+        return item
+
+    def settle(self) -> None:
+        """Wait until the background fetch (if any) has finished; its item is kept."""
+        if self._next is not None:
+            _wait_quietly(self._next)
+
+    def close(self) -> None:
+        """Wait for the fetch in flight, drop its item, close the source."""
+        future, self._next = self._next, None
+        if future is not None:
+            _wait_quietly(future)
+        close = getattr(self._items, "close", None)
+        if close is not None:
+            close()
+
+
+class _WriteBehind:
+    """Run calls one at a time, in order, in a background thread; at most one runs while the caller
+    prepares the next. :meth:`submit` and :meth:`wait` re-raise the exception of an earlier call
+    unchanged (a failed write stops the run; nothing more is written)."""
+
+    def __init__(self, pool):
+        self._pool = pool
+        self._future = None
+
+    def submit(self, fn, *args) -> None:
+        self.wait()
+        self._future = self._pool.submit(fn, *args)
+
+    def wait(self) -> None:
+        future, self._future = self._future, None
+        if future is not None:
+            future.result()
+
+    def drain(self) -> None:
+        """Wait for the call in flight, ignoring its outcome (used when the run already failed)."""
+        future, self._future = self._future, None
+        if future is not None:
+            _wait_quietly(future)
+
+
+def _wait_quietly(future) -> None:
+    from concurrent.futures import wait
+
+    wait([future])
+
+
 def _pool_context():
     """``fork`` where the platform has it (children inherit the stage maps already built, copy on
     write), else ``spawn`` (each worker builds the maps it needs once)."""
@@ -879,6 +958,7 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
     import shutil
     import tempfile
     from collections import deque
+    from concurrent.futures import ThreadPoolExecutor
 
     from .catalog import DEFAULT_CHUNK_ROWS, ChunkWriter, count_rows, format_of, iter_chunks
     from .catalog.atomic import check_output_path
@@ -907,6 +987,9 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
         attrs, chunks = None, iter_chunks(inp, chunk_rows, in_fmt)
     used = 1
     pool = spill = None
+    io = ThreadPoolExecutor(2, thread_name_prefix="hrstage-io")
+    ahead = _ReadAhead(chunks, io)
+    behind = _WriteBehind(io)
     try:
         with ChunkWriter(out, output_format, overwrite=overwrite, inputs=[inp],
                          **_writer_columns(opts.prefix)) as writer:
@@ -920,11 +1003,11 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                 if bar is not None:
                     bar.update(n)
 
-            def take(res):
+            def take(res):          # in the writing thread
                 writer.write(res)
                 count(*_chunk_tally(res, opts.prefix))
 
-            def take_from(async_result):
+            def take_from(async_result):    # in the writing thread: a worker's result, in order
                 got = _Received(async_result.get())
                 try:
                     if got.kind == "csv":
@@ -935,29 +1018,43 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                 finally:
                     got.release()
 
-            offset = 0
-            pending: deque = deque()
-            for chunk in chunks:
-                if opts.mapping is None:
-                    infos = _arrow_infos(chunk, attrs) if attrs is not None else infos_from_table(chunk)
-                    opts = resolve_options(infos, opts)
-                n = _rows_of(chunk)
-                if pool is None and (n_workers == 1 or offset == 0):
-                    take(_classify_one(chunk, opts, offset, attrs))   # here: builds the maps it needs
-                else:
-                    if pool is None:    # second chunk: start the workers, after the maps exist
-                        spill = tempfile.mkdtemp(prefix="hrstage-chunks-")
-                        pool = _pool_context().Pool(n_workers, initializer=_worker_init,
-                                                    initargs=(opts, attrs, spill, writer.format))
-                        used = n_workers
-                    pending.append(pool.apply_async(_worker_task, (chunk, offset)))
-                    while len(pending) >= 2 * n_workers:
-                        take_from(pending.popleft())
-                offset += n
-                del chunk
-            while pending:
-                take_from(pending.popleft())
+            try:
+                offset = 0
+                pending: deque = deque()
+                for chunk in ahead:
+                    if opts.mapping is None:
+                        infos = _arrow_infos(chunk, attrs) if attrs is not None else infos_from_table(chunk)
+                        opts = resolve_options(infos, opts)
+                    n = _rows_of(chunk)
+                    if pool is None and (n_workers == 1 or offset == 0):
+                        res = _classify_one(chunk, opts, offset, attrs)   # here: builds the maps it needs
+                        behind.submit(take, res)     # written while the next chunk is classified
+                        del res
+                    else:
+                        if pool is None:    # second chunk: start the workers, after the maps exist
+                            # no thread of ours may be inside pyarrow while the workers fork
+                            behind.wait()
+                            ahead.settle()
+                            spill = tempfile.mkdtemp(prefix="hrstage-chunks-")
+                            pool = _pool_context().Pool(n_workers, initializer=_worker_init,
+                                                        initargs=(opts, attrs, spill, writer.format))
+                            used = n_workers
+                        pending.append(pool.apply_async(_worker_task, (chunk, offset)))
+                        while len(pending) >= 2 * n_workers:
+                            behind.submit(take_from, pending.popleft())
+                    offset += n
+                    del chunk
+                while pending:
+                    behind.submit(take_from, pending.popleft())
+                behind.wait()
+            except BaseException:
+                # let the thread finish the chunk it is writing before the writer is aborted
+                behind.drain()
+                raise
     finally:
+        behind.drain()
+        ahead.close()
+        io.shutdown(wait=True, cancel_futures=True)
         if pool is not None:
             pool.terminate()
             pool.join()
