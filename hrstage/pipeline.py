@@ -774,8 +774,10 @@ def _worker_task(chunk, offset):
     tally = _chunk_tally(res, opts.prefix)
     if out_format == "csv":
         from .catalog.arrow import arrow_to_table
-        from .catalog.formats import csv_text
+        from .catalog.formats import arrow_csv, csv_supported, csv_text
 
+        if _is_arrow(res) and csv_supported(res.schema):
+            return "csv", (arrow_csv(res, header=False), list(res.schema.names)), tally
         table = arrow_to_table(res) if _is_arrow(res) else res
         return "csv", (csv_text(table, header=False), list(table.colnames)), tally
     if spill is None or not _is_arrow(res):

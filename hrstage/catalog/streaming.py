@@ -18,7 +18,8 @@ Writing (:class:`ChunkWriter`), always into a temporary file in the output's fol
 the last chunk is written (nothing is left behind on failure):
 
 * **Parquet** — ``pyarrow.parquet.ParquetWriter``, one row group per chunk; bounded memory;
-* **CSV** — ``pyarrow.csv.CSVWriter``, header once then rows; bounded memory;
+* **CSV** — header once then rows, formatted in Arrow by :func:`~hrstage.catalog.formats.arrow_csv`
+  (astropy's CSV text, see there); bounded memory;
 * **FITS, ECSV, VOTable** — chunks are kept and written at the end in one go: the output side is
   *not* bounded in memory (FITS needs the final string widths in its header; the text formats
   have no append mode in astropy). Use Parquet or CSV output for catalogues bigger than memory.
@@ -37,8 +38,9 @@ from astropy.table import Table, vstack
 from ..errors import HrstageInputError
 from .arrow import arrow_to_table, header_from_schema, table_to_arrow
 from .atomic import atomic_output
-from .formats import (CSV_MAX_BLOCK, _check_readable, _fits_restore, _one_line, _write_fits, check_unique_names,
-                      csv_read_options, csv_text, fits_table_hdu_index, format_of, is_block_too_small, read_table)
+from .formats import (CSV_MAX_BLOCK, _check_readable, _fits_restore, _one_line, _write_fits, arrow_csv,
+                      check_unique_names, csv_read_options, csv_supported, csv_text, fits_table_hdu_index, format_of,
+                      is_block_too_small, read_table)
 
 DEFAULT_CHUNK_ROWS = 100_000
 
@@ -333,6 +335,9 @@ class ChunkWriter:
         if _is_arrow(chunk):
             if self.format == "parquet":
                 return self._write_arrow(chunk)
+            if self.format == "csv" and csv_supported(chunk.schema):
+                return self._write_csv(arrow_csv(chunk, header=self._writer is None), chunk.schema.names,
+                                       chunk.num_rows)
             chunk = arrow_to_table(chunk)
         if self.format == "parquet":
             data = self._arrow(chunk)
@@ -341,20 +346,25 @@ class ChunkWriter:
                 self._writer = self._parquet_writer(self._schema)
             self._writer.write_table(data)
         elif self.format == "csv":
-            first = self._writer is None
-            if first:
-                self._writer = open(self._tmp, "w", encoding="utf-8", newline="")
-                self._names = list(chunk.colnames)
-            elif list(chunk.colnames) != self._names:
-                raise HrstageInputError(f"chunk at row {self.rows} does not have the columns of the first chunk")
-            self._writer.write(csv_text(chunk, header=first))
+            return self._write_csv(csv_text(chunk, header=self._writer is None), chunk.colnames, len(chunk))
         else:
             self._kept.append(chunk)
         self.rows += len(chunk)
 
-    def write_csv_text(self, text: str, names, rows: int) -> None:
-        """Append a chunk already formatted by :func:`~hrstage.catalog.formats.csv_text` (without
-        its header line), e.g. by a worker process; CSV output only, after a first chunk.
+    def _write_csv(self, text, names, rows: int) -> None:
+        """CSV text (str or UTF-8 bytes) of one chunk, with the header line if it is the first."""
+        if self._writer is None:
+            self._writer = open(self._tmp, "wb")
+            self._names = list(names)
+        elif list(names) != self._names:
+            raise HrstageInputError(f"chunk at row {self.rows} does not have the columns of the first chunk")
+        self._writer.write(text.encode("utf-8") if isinstance(text, str) else text)
+        self.rows += int(rows)
+
+    def write_csv_text(self, text, names, rows: int) -> None:
+        """Append a chunk already formatted by :func:`~hrstage.catalog.formats.csv_text` or
+        :func:`~hrstage.catalog.formats.arrow_csv` (without its header line; str or UTF-8 bytes),
+        e.g. by a worker process; CSV output only, after a first chunk.
 
         ``names`` are the chunk's column names (checked against the first chunk's), ``rows`` its
         number of rows.
@@ -363,10 +373,7 @@ class ChunkWriter:
             raise RuntimeError("writer already closed")
         if self.format != "csv" or self._writer is None:
             raise RuntimeError("write_csv_text needs a CSV output whose first chunk is written")
-        if list(names) != self._names:
-            raise HrstageInputError(f"chunk at row {self.rows} does not have the columns of the first chunk")
-        self._writer.write(text)
-        self.rows += int(rows)
+        self._write_csv(text, names, rows)
 
     def _write_arrow(self, data) -> None:
         import pyarrow as pa
