@@ -935,7 +935,9 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
         Formats from the suffixes unless given. The output may not be the input.
     chunk_rows : int, optional
         Rows per chunk (default :data:`hrstage.catalog.DEFAULT_CHUNK_ROWS`); peak memory follows it
-        for Parquet, CSV and FITS input and Parquet or CSV output (``docs/catalog.md``).
+        for Parquet, CSV and FITS input and Parquet or CSV output (``docs/catalog.md``). The next
+        chunk is read and the previous one written in background threads while one is classified
+        (about three chunks in memory).
     overwrite : bool
         Replace an existing output.
     progress : bool
