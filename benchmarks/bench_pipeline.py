@@ -6,7 +6,9 @@ What is measured, side by side (each pair interleaved, median of ``--repeats`` r
    import, read, classify, write) against a fresh process that only reads the same file with
    pyarrow and writes it back. The ratio CLI / pyarrow is the project's bar (design: <= 3x).
    The CLI runs once per ``--workers`` value (default 1 and 2 worker processes) and per
-   ``--add-columns`` set (default ``all``, every column, and ``brief``), interleaved.
+   ``--add-columns`` set (default ``all``, every column, and ``brief``), interleaved. Then pyarrow
+   reads and writes hrstage's own output of each set: the time just moving the output costs, a
+   floor under the CLI's time whatever the classification costs.
 2. **CSV**: the same with a CSV input and a CSV output (pyarrow.csv reading and writing).
 3. **Streaming memory**: peak resident memory (``ru_maxrss`` of the child, from ``os.wait4``) of
    ``hrstage classify --chunk-rows N`` on a ``--stream-rows`` Parquet file (default 20 M rows), for
@@ -292,6 +294,22 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), c
         res["workers"][key] = {"cli_s": [round(t, 3) for t in times], "cli_median_s": m,
                                "ratio_cli_over_pyarrow": round(m / res["pyarrow_median_s"], 2),
                                "cli_rows_per_s": round(rows / m)}
+    # a floor: pyarrow alone copying (reading and writing) hrstage's output of each column set
+    res["pyarrow_copy_of_output"] = {}
+    for cs in column_sets:
+        out = work / f"out_cli_w{workers[0]}_{cs}.{kind}"
+        if not out.exists():
+            continue
+        copy = work / f"copy_of_output_{cs}.{kind}"
+        times = []
+        for _ in range(repeats):
+            if copy.exists():
+                copy.unlink()
+            times.append(run_child(pyarrow_copy(kind, out, copy))[0])
+        copy.unlink(missing_ok=True)
+        m = round(med(times), 3)
+        res["pyarrow_copy_of_output"][cs] = {"s": [round(t, 3) for t in times], "median_s": m,
+                                             "ratio_over_pyarrow": round(m / res["pyarrow_median_s"], 2)}
     # the first worker count keeps the flat keys of earlier versions of this script
     base = res["workers"][next(iter(res["workers"]))]
     res.update(cli_s=base["cli_s"], cli_median_s=base["cli_median_s"],
@@ -310,6 +328,9 @@ def _print_format(title: str, r: dict, bar: str) -> None:
         print(f"  hrstage classify {label:<32} median {x['cli_median_s']:8.2f} s   {x['cli_s']}"
               f"   ratio CLI / pyarrow = {x['ratio_cli_over_pyarrow']:.2f}{bar}")
     print(f"  pyarrow read+write           median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}")
+    for cs, x in r.get("pyarrow_copy_of_output", {}).items():
+        print(f"  pyarrow read+write of hrstage's output ({cs}): median {x['median_s']:8.2f} s   {x['s']}"
+              f"   ratio to pyarrow read+write of the input = {x['ratio_over_pyarrow']:.2f}  (a floor for the CLI)")
 
 
 def bench_streaming(work: Path, rows: int, chunk_sizes: list[int]) -> dict:
