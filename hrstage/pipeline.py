@@ -430,7 +430,7 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     flags_all = np.asarray(cols.get("flags", np.zeros(n, dtype=np.int64)), dtype=np.int64) | extra_bits
     # readable text: our reasons first, then the classifier's, then the bits nobody described
     own_bits = extra_bits & ~np.asarray(cols.get("flags", 0), dtype=np.int64)
-    notes = [(not_done, reason_text), res.flag_notes, _bits_note(own_bits)]   # the classifier's: lazily
+    own_notes = [_bits_note(own_bits)]   # after the classifier's notes (built only if written)
 
     if opts.check_sptypes and "sptype" in values:
         from .sptype import check_types
@@ -439,12 +439,12 @@ def _compute(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
                           logl_err=_nan_none(pos.logl_err), feh=feh_clf)
         cols.update(chk.to_columns())
         sp_flags = np.asarray(chk.flags, dtype=np.int64)
-        notes.append(_bits_note(sp_flags & ~flags_all))
+        own_notes.append(_bits_note(sp_flags & ~flags_all))
         flags_all |= sp_flags
     cols["flags"] = flags_all
     wanted = _our_columns(opts, sptype="sptype_verdict" in cols)
     if "flag_text" in wanted:   # the reasons are formatted only when they are written
-        notes = [notes[0], *notes[1](), *notes[2:]]
+        notes = [(not_done, reason_text), *res.flag_notes(), *own_notes]
         cols["flag_text"] = CodedText(*join_coded(n, notes))
     out = {}
     for c in wanted:
