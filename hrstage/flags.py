@@ -69,6 +69,13 @@ def or_flag(flags, where, bits) -> None:
 def describe_many(bits) -> np.ndarray:
     """Vectorised :func:`describe` (works on the unique values only, so it is cheap)."""
     bits = np.asarray(bits, dtype=np.int64)
+    texts, codes = describe_codes(bits)
+    return texts[codes.reshape(bits.shape)]
+
+
+def describe_codes(bits):
+    """``(texts, codes)``: the description of each distinct combination of bits (object array)
+    and, per entry, the index of its text; one :func:`describe` call per distinct combination."""
+    bits = np.asarray(bits, dtype=np.int64).reshape(-1)
     uniq, inv = np.unique(bits, return_inverse=True)
-    texts = np.array([describe(b) for b in uniq], dtype=object)
-    return texts[inv.reshape(bits.shape)]
+    return np.array([describe(int(b)) for b in uniq], dtype=object), inv.reshape(-1)

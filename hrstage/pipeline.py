@@ -461,8 +461,7 @@ def _bits_note(bits):
     """The readable description of flag bits as a note ``(rows, (texts, codes))`` over the rows
     where any bit is set (one description per distinct combination of bits)."""
     idx = np.flatnonzero(bits)
-    uniq, inv = np.unique(bits[idx], return_inverse=True)
-    return idx, (np.array([F.describe(int(b)) for b in uniq], dtype=object), inv.reshape(-1))
+    return idx, F.describe_codes(bits[idx])
 
 
 def _nan_none(a):
