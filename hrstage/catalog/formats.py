@@ -110,10 +110,35 @@ def _fits_restore(table: Table, header) -> Table:
         comm = header.get(f"TCOMM{i}")
         if comm and not col.description:
             col.description = comm
+        kept = header.get(f"{FITS_UNIT_KEY}{i}")
+        if kept:
+            try:
+                col.unit = u.Unit(kept)
+            except ValueError:
+                col.unit = u.Unit(kept, parse_strict="silent")
+        table.meta.pop(f"{FITS_UNIT_KEY}{i}", None)
     for key, fkey in FITS_META_KEYS.items():
         if fkey in table.meta:
             table.meta[key] = table.meta.pop(fkey)
     return table
+
+
+#: FITS keyword prefix (``HRSUn``) keeping a unit the FITS standard has no form for (``dex``,
+#: ``dex(solLum)``): such a column gets no ``TUNITn`` (so readers see a plain number, without a
+#: "not supported by the FITS standard" warning), its ``TCOMMn`` says what it is, and hrstage reads
+#: the unit back from ``HRSUn``.
+FITS_UNIT_KEY = "HRSU"
+
+
+def fits_unit(unit):
+    """``(TUNIT text or None, kept text or None)`` of a unit: the FITS form when the standard has
+    one, else ``None`` and astropy's generic text of it (logarithmic units such as dex)."""
+    if unit is None:
+        return None, None
+    try:
+        return unit.to_string("fits"), None
+    except (ValueError, TypeError, AttributeError, u.UnitsError):
+        return None, unit.to_string()
 
 
 def _read_fits(path: Path, hdu=None) -> Table:
@@ -151,13 +176,19 @@ def _write_fits(table: Table, tmp: Path) -> None:
     for key, fkey in FITS_META_KEYS.items():
         if key in out.meta:
             out.meta[fkey] = out.meta.pop(key)
+    kept = {}
+    for i, name in enumerate(out.colnames, start=1):
+        std, other = fits_unit(out[name].unit)
+        if other is not None:       # no FITS form: no TUNIT, the unit kept in HRSUn (see FITS_UNIT_KEY)
+            kept[i] = other
+            out[name].unit = None
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # function units (dex) are written by hand below
+        warnings.simplefilter("ignore")
         hdu = fits.table_to_hdu(out)
     for i, name in enumerate(out.colnames, start=1):
         col = out[name]
-        if col.unit is not None and f"TUNIT{i}" not in hdu.header:
-            hdu.header[f"TUNIT{i}"] = col.unit.to_string()
+        if i in kept:
+            hdu.header[f"{FITS_UNIT_KEY}{i}"] = (kept[i], f"unit of column {i} (no FITS form)")
         if col.description:
             hdu.header[f"TCOMM{i}"] = str(col.description)[:68]
     with warnings.catch_warnings():
@@ -424,9 +455,12 @@ def _read_parquet(path: Path):
 def _write_parquet(table: Table, tmp: Path) -> None:
     import pyarrow.parquet as pq
 
-    from .arrow import table_to_arrow
+    from .arrow import table_to_arrow, text_lengths
 
-    pq.write_table(table_to_arrow(table), tmp)
+    from .arrow import with_text_lengths
+
+    data = table_to_arrow(table)
+    pq.write_table(with_text_lengths(data, text_lengths(data)), tmp)
 
 
 # ------------------------------------------------------------------------------ public API
@@ -478,7 +512,9 @@ def _repair_units(tbl: Table) -> None:
     same text with astropy's generic grammar; leave the unrecognised unit when that fails too."""
     for name in tbl.colnames:
         col = tbl[name]
-        if isinstance(col.unit, u.UnrecognizedUnit):
+        # VOUnit's "dex" is a unit of its own namespace that does not equal astropy's u.dex
+        if isinstance(col.unit, u.UnrecognizedUnit) or (col.unit is not None and col.unit is not u.dex
+                                                        and str(col.unit) == "dex"):
             try:
                 col.unit = u.Unit(str(col.unit))
             except ValueError:
