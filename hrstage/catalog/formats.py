@@ -304,7 +304,10 @@ def _csv_float(arr):
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    arr = arr.cast(pa.float64())          # float32 is written as the double it equals (as before)
+    if not pa.types.is_float32(arr.type):
+        arr = arr.cast(pa.float64())
+    # single precision keeps its own shortest digits (float32 -> string is shortest for float32;
+    # numpy's str of a float32 likewise), not those of the double it equals
     s = pc.cast(arr, pa.string())
     x = np.asarray(pc.fill_null(arr, 0.0).to_numpy(zero_copy_only=False))
     with np.errstate(invalid="ignore"):
@@ -316,9 +319,23 @@ def _csv_float(arr):
     if not positional.all():
         other = ~positional
         mask = pa.array(other & ~np.asarray(arr.is_null().to_numpy(zero_copy_only=False)))
-        s = pc.replace_with_mask(s, mask, pa.array(x[np.asarray(mask.to_numpy(zero_copy_only=False))]
-                                                   .astype(str).astype(object), type=pa.string()))
+        vals = x[np.asarray(mask.to_numpy(zero_copy_only=False))]
+        if x.dtype == np.float32:   # numpy's str of a float32 has rules of its own: Python's style
+            text = np.array([single_text(v) for v in vals], dtype=object)
+        else:
+            text = vals.astype(str).astype(object)
+        s = pc.replace_with_mask(s, mask, pa.array(text, type=pa.string()))
     return s
+
+
+def single_text(v) -> str:
+    """A finite single-precision value with its own shortest digits, laid out as Python writes a
+    double: positional for 1e-4 <= |x| < 1e16 (``5000.0``), exponent form otherwise
+    (``1.9738104e+08``, ``1e-05``). For the values pyarrow writes in exponent form."""
+    v = np.float32(v)
+    if v == 0 or 1e-4 <= abs(v) < 1e16:
+        return np.format_float_positional(v, unique=True, trim="0")
+    return np.format_float_scientific(v, unique=True, trim="-", exp_digits=2)
 
 
 def _csv_cells(arr):
@@ -349,12 +366,13 @@ def arrow_csv(data, header: bool = True) -> bytes:
     """A pyarrow Table / RecordBatch as CSV bytes (UTF-8), formatted column by column in Arrow.
 
     The text is what astropy's CSV writer (``format="ascii.csv"``) gives for the same table, byte
-    for byte, with two deliberate exceptions: text cells keep their leading and trailing blanks
+    for byte, with three deliberate exceptions (single precision, see below, and): text cells keep their leading and trailing blanks
     (astropy strips them) and a text cell holding a carriage return is quoted (astropy leaves it
     bare, and readers then see a line end). Rules: header line of the names; integers in decimal;
     floats as the shortest text that reads back as the same double, always with a decimal point
-    or an exponent (``5000.0``, ``1e-05``, ``nan``, ``inf``; single precision written as the double
-    it equals); booleans ``True``/``False``; text as is, quoted (``"`` doubled) when it holds a
+    or an exponent (``5000.0``, ``1e-05``, ``nan``, ``inf``; single precision as the shortest text
+    that reads back as the same single-precision value, where astropy writes the double it equals:
+    ``1.164375``, not ``1.1643750667572021``); booleans ``True``/``False``; text as is, quoted (``"`` doubled) when it holds a
     comma, a quote or a line end; null cells empty (``""`` in a one-column table, where an empty
     line would be no row). Columns of other types: see :func:`csv_supported`.
     """
