@@ -131,7 +131,7 @@ def test_columns_astropy_must_format_fall_back():
 def test_single_precision_and_exact_inputs_keep_their_digits(tmp_path):
     """Issue 16 item 4: ``mass_est`` (float32) was written 1.1643750667572021 and ``teff_used``
     6023.000000000001 for an input Teff of 6023 (through 10**log10)."""
-    from hrstage.pipeline import classify_file
+    from hrstage.engine import classify_file
 
     t = Table({"teff": [6023.0, 5777.0, 4321.5, 7001.0], "lum": [1.6, 1.0, 0.3, 4.4]})
     t["x32"] = np.array([1.1643750667572021, 0.1, 1e-5, 123456.78], dtype=np.float32)

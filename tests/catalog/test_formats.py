@@ -231,7 +231,7 @@ def test_written_files_read_back_in_astropy_without_warnings(tmp_path, fmt, chun
     per text column). Whole-table and streamed (chunked) outputs of classify_file."""
     import warnings
 
-    from hrstage.pipeline import classify_file
+    from hrstage.engine import classify_file
 
     rng = np.random.default_rng(5)
     n = 30
