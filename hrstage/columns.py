@@ -32,7 +32,15 @@ _COLUMNS = [
         OutputColumn(f"prob_{s}", "f4", None, f"Probability that the star is {s.replace('_', ' ')}", "stat.probability")
         for s in STAGES
     ],
-    OutputColumn("mass_est", "f4", "solMass", "Initial-mass estimate from the stellar relations", "phys.mass"),
+    # giant branch (hrstage.branches); not_giant for the other stages
+    OutputColumn("branch", "U", None, "Giant branch: red giant branch, red clump, horizontal branch, early / thermally pulsing AGB, unresolved (indicative)", "src.class"),
+    OutputColumn("branch_prob", "f4", None, "Probability of the named branch's phase (hypotheses weighed over a Kroupa-IMF, constant-star-formation population)", "stat.probability"),
+    *[
+        OutputColumn(f"prob_{h}", "f4", None, f"Probability that the giant is {w}", "stat.probability")
+        for h, w in (("rgb", "on the first-ascent red giant branch"), ("core_he", "core-helium burning (clump / horizontal branch)"),
+                     ("agb", "on the asymptotic giant branch"))
+    ],
+    OutputColumn("mass_est", "f4", "solMass", "Mass estimate from the stellar relations (initial mass; current mass for core-He burners and from g R^2/G)", "phys.mass"),
     OutputColumn("mass_err", "f4", "solMass", "Uncertainty of mass_est (first-order propagation of the log Teff and log L errors)", "stat.error;phys.mass"),
     OutputColumn("mass_method", "U", None, "How mass_est was obtained", "meta.code"),
     OutputColumn("mass_ms_teff", "f4", "solMass", "Main-sequence mass implied by Teff", "phys.mass"),

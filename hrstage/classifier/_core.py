@@ -25,6 +25,7 @@ from ..stages import (
     UNCLASSIFIED,
 )
 from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, prebuild, stage_map
+from ._branch import BRANCH_MASS_METHODS, attach_branch, branch_columns
 from ._text import CodedText, concat_codes, format_codes, join_notes
 
 N_STAGES = len(STAGES)
@@ -101,7 +102,7 @@ def _as_array(x, name, shape=None):
 
 #: mass-method names: the stage methods (by code), then the special ones
 #: Names of the mass methods, indexed by ``ClassificationResult.mass_code``.
-MASS_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied")
+MASS_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied") + BRANCH_MASS_METHODS
 _M_HB, _M_NONE, _M_SUPPLIED = len(MASS_METHODS), len(MASS_METHODS) + 1, len(MASS_METHODS) + 2
 #: base-reason keys beyond the stage codes
 _B_HB, _B_NOPOS, _B_OFFMAP = N_STAGES, N_STAGES + 1, N_STAGES + 2
@@ -165,6 +166,8 @@ class ClassificationResult:
     _reason: np.ndarray | None = field(default=None, repr=False)
     _flag_text: np.ndarray | None = field(default=None, repr=False)
     _built_notes: list | None = field(default=None, repr=False)
+    #: giant branch of every star (:class:`hrstage.classifier._branch.BranchResult`), None if not asked
+    branch: object = None
 
     def __len__(self):
         return len(self.code)
@@ -248,6 +251,8 @@ class ClassificationResult:
                 "flags": self.flags.astype(np.int64, copy=False),
             }
         )
+        if self.branch is not None:
+            out.update(branch_columns(self.branch, coded))
         if not coded:
             out["flag_text"] = self.flag_text
         return out
@@ -551,6 +556,10 @@ def classify_hr(
     mass=None,
     n_draws: int = 0,
     seed=20240601,
+    logg=None,
+    logg_err=None,
+    branches: bool = True,
+    gravity_mass=True,
     **params,
 ) -> ClassificationResult:
     """Label stars from their position on the HR diagram.
@@ -577,6 +586,15 @@ def classify_hr(
         mass >= the supergiant mass is labelled supergiant.
     n_draws : int
         Monte Carlo draws for the probabilities (0: one-hot probabilities of the point label).
+    logg, logg_err : array_like, optional
+        log10 g (cgs) and its error: the giant branch is then decided on the Kiel position, and
+        where L is known independently the mass is ``g R^2 / G`` (method ``gravity_radius``).
+    branches : bool
+        Decide the giant branch of giant-class stars (``result.branch``, the ``branch`` columns;
+        core-He burners get their mass from the core-He-burning relations).
+    gravity_mass : bool or array_like of bool
+        Whether ``logl`` is independent of ``logg`` (per row or for all): only then is the mass
+        ``g R^2 / G``.
     seed : int
         Seed of the common random numbers (same seed, same probabilities).
     **params
@@ -644,8 +662,12 @@ def classify_hr(
     feh_used, groups, no_feh = _group_feh(feh, n)
     # huge (but finite) inputs and errors are masked deliberately below: no overflow warnings
     with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
-        return _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n_draws, seed,
-                         stage_kw, opts)
+        res = _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n_draws, seed,
+                        stage_kw, opts)
+    if branches:
+        attach_branch(res, logg=logg, logg_err=logg_err, feh=feh, shape=shape,
+                      max_age_myr=stage_kw.get("max_age_myr", 13800.0), gravity=gravity_mass)
+    return res
 
 
 def _build_threads() -> int:

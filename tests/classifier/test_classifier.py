@@ -210,8 +210,12 @@ def test_mass_methods():
     lt = np.log10([5772.0, 4600.0, 12000.0, 3800.0])
     ll = [0.0, 1.8, -2.6, 5.0]
     m, e, meth = estimate_mass(lt, ll, feh=0.0)
-    assert list(meth) == ["ms_tracks", "giant_branch", "wd_radius", "supergiant_lum"]
+    # a 4600 K, log L 1.8 giant at solar [Fe/H] sits in the red clump (HPT2000 ZAHB log L 1.76-1.81
+    # for 1-1.5 Msun): its mass comes from the core-He-burning loci
+    assert list(meth) == ["ms_tracks", "core_he_burning", "wd_radius", "supergiant_lum"]
     assert np.isfinite(m).all()
+    m0, _, meth0 = estimate_mass(lt, ll, feh=0.0, branches=False)
+    assert list(meth0) == ["ms_tracks", "giant_branch", "wd_radius", "supergiant_lum"]
     # eq 91 (formulae.md §2.8 [C]): R_WD(0.6) = 0.01278 Rsun -> at 12000 K log L = -2.48
     m2, _, _ = estimate_mass(np.log10(12000.0), 2 * np.log10(0.01278) + 4 * np.log10(12000 / 5772))
     assert m2[0] == pytest.approx(0.6, abs=0.02)

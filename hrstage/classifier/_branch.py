@@ -1,0 +1,484 @@
+"""Which giant branch a giant is on: red giant branch, core-helium burning, AGB (layer 3).
+
+Three hypotheses are weighed for every giant-class star (stage ``giant`` or ``bright_giant``):
+
+- **rgb** -- first ascent of the giant branch, from the base of the giant branch to the tip
+  (HPT2000 eqs 10, 46, 49): radius ``R_GB(M, L)``;
+- **core_he** -- core-helium burning. Below M_HeF the star starts on the zero-age horizontal
+  branch (HPT2000 eqs 53-54, core mass at the flash from eqs 37-38) and brightens by
+  while burning helium (a band :data:`HE_BELOW_DEX` / :data:`HE_ABOVE_DEX` about it), its radius keeping the ZAHB's mix of helium-star and
+  giant-branch radius, ``R = (1 - f) R_ZHe(Mc) + f R_GB(M, L)`` (eq 54 with L free). From M_HeF up
+  (the secondary clump and above) the band starts at the minimum core-He-burning luminosity
+  (eq 51) with the radius fraction of the ZAHB at M_HeF;
+- **agb** -- above the end of core-helium burning, radius ``R_AGB(M, L)`` (eq 74), split into
+  early and thermally pulsing AGB at the core mass of the second dredge-up (eq 69).
+
+Each hypothesis is a family of loci, one per stellar mass. The weight of a locus point is the
+number of stars expected there in a population with the Kroupa (2001) initial mass function and
+a constant star-formation rate up to ``max_age_myr``: ``xi(M) dM`` times the time spent per dex
+(shell burning, :mod:`hrstage.models.shell_burning`, on the RGB and AGB; :data:`T_HE_YR` spread
+over the core-He band). The probability of a hypothesis is the sum over its loci of weight times
+a Gaussian in log Teff about the locus at the star's log L (HR route) or log g (Kiel route),
+with the star's error plus :data:`SIGMA_INT` for the relations themselves; the normalised sums
+are the probabilities, and the mass posterior of the winning hypothesis gives the core-He mass.
+
+The answer is a probability, not a certainty: in much of the giant region a first-ascent giant
+of one mass sits where a core-He burner of another mass sits; a branch is named only when its
+probability reaches ``min_prob`` (default 0.5: more probable than the other two together), else
+the star is ``unresolved``.
+
+On the Kiel route the red clump must also lie inside the Bovy et al. (2014) clump box in
+(Teff, log g, [Fe/H]) (:mod:`hrstage.models.bovy2014`) where [Fe/H] is inside that selection's
+calibration range: a star the model calls core-He burning outside the published box is left
+``unresolved``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+
+from ..branches import (
+    BRANCHES,
+    HYPOTHESES,
+    EARLY_AGB,
+    HORIZONTAL_BRANCH,
+    NOT_GIANT,
+    RED_CLUMP,
+    RED_GIANT_BRANCH,
+    TP_AGB,
+    UNRESOLVED,
+)
+from ..models import hpt2000 as hpt
+from ..models import bovy2014, kroupa2001, shell_burning
+from ..models.hpt2000.core_mass import luminosity_from_mc, mc_from_luminosity, mc_tpagb
+from ..models.metallicity import clip_z, z_from_feh
+from ..models.stellar import LOGG_SUN, TEFF_SUN
+from ..stages import BRIGHT_GIANT, GIANT, SUBGIANT
+
+LOG_TSUN = float(np.log10(TEFF_SUN))
+#: width (dex) of the model loci in log Teff added to the star's error: the scatter of the
+#: HPT2000 radii about detailed tracks is a few per cent (our choice, ~55 K at 4800 K)
+SIGMA_INT = 0.005
+#: core-helium-burning lifetime of a low-mass star (yr), ~1e8 yr (from memory: Girardi 2016,
+#: ARA&A 54, 95); shorter in proportion to the luminosity above M_HeF
+T_HE_YR = 1.0e8
+#: luminosity band of core-He burning about the eq-53 / eq-51 luminosity (dex): detailed tracks
+#: brighten by ~0.2-0.3 dex while burning helium (from memory, e.g. Girardi 2016); the band is placed
+#: -0.10 / +0.15 dex about the fit's luminosity (the depth below is the stage map's ``hb_depth``),
+#: because at solar metallicity the HPT2000 ZAHB (log L 1.76-1.81 for 1-1.5 Msun) already sits at
+#: the clump luminosity rather than at its faint edge
+HE_BELOW_DEX = 0.10
+HE_ABOVE_DEX = 0.15
+#: stars lighter than the age-limit mass on the horizontal branch (mass lost on the RGB): the prior
+#: density per unit current mass is held flat down to this far below the age-limit mass (Msun,
+#: our assumption; the horizontal-branch morphology of real populations varies)
+HB_MASS_LOSS = 0.3
+#: [Fe/H] at or below which a core-He burner is called horizontal branch rather than red clump,
+#: and the Teff from which it is (common practice: the clump is the metal-rich red end of the HB)
+HB_FEH_MAX = -1.0
+HB_TEFF_MIN = 5500.0
+#: a subgiant-stage star brighter than the base of the giant branch of the oldest stars (the
+#: age-limit mass) and at most this much (dex) hotter than their giant branch is on the lower red
+#: giant branch: the fits' giant branch is up to ~0.02 dex cooler than detailed metal-poor tracks
+#: there (HPT2000 vs MIST at [Fe/H] = -1.35, log L 0.8-1.2), so the stage map calls it subgiant
+LOWER_RGB_DLOGT = 0.03
+#: mass methods added by the branch work (names in ``ClassificationResult.mass_method``): the
+#: posterior mean mass of the most probable hypothesis, and g R^2 / G where log g and L are known
+BRANCH_MASS_METHODS = ("red_giant_branch", "core_he_burning", "agb", "gravity_radius")
+#: default probability needed to name a branch: more probable than the other two together
+MIN_PROB = 0.5
+
+_M_GRID = np.logspace(np.log10(0.45), np.log10(6.0), 140)
+_XL = np.linspace(-0.5, 4.8, 266)     # log L grid (0.02 dex)
+_XG = np.linspace(-0.5, 4.5, 251)     # log g grid (0.02 dex)
+N_HYP = 3
+
+
+@dataclass
+class BranchGrids:
+    """Loci of the three hypotheses for one metallicity, tabulated per mass on log L and log g grids.
+
+    ``logt[route]``, ``weight[route]``, ``slope[route]`` and ``logl[route]`` have shape
+    (3 hypotheses, n_mass, n_x); NaN / 0 outside a locus. ``mass`` is the current mass of each
+    locus, ``logl_tp`` the log L where the thermally pulsing AGB starts (per mass), ``logl_tip``
+    the RGB tip per mass (NaN where the mass has no RGB within the age limit).
+    """
+
+    feh: float
+    z: float
+    mass: np.ndarray
+    logt: dict
+    weight: dict
+    slope: dict
+    logl: dict
+    logl_tp: np.ndarray
+    logl_tip: np.ndarray
+    m_age: float
+    m_hef: float
+    logl_bgb_age: float
+
+
+def _logt_from_lr(logl, r):
+    return LOG_TSUN + 0.25 * logl - 0.5 * np.log10(r)
+
+
+def _on_logg(logl_row, logt_row, w_row, logm):
+    """One locus (on the log L grid) resampled on the log g grid: log T, weight per dex, log L."""
+    ok = np.isfinite(logt_row) & (w_row > 0)
+    out_t = np.full(_XG.size, np.nan)
+    out_w = np.zeros(_XG.size)
+    out_l = np.full(_XG.size, np.nan)
+    if ok.sum() < 2:
+        return out_t, out_w, out_l
+    l, t, w = logl_row[ok], logt_row[ok], w_row[ok]
+    g = LOGG_SUN + logm + 4.0 * (t - LOG_TSUN) - l
+    # along a giant locus log g falls as L rises; keep the monotone part
+    keep = np.r_[True, np.diff(g) < 0]
+    keep &= np.minimum.accumulate(np.where(keep, g, np.inf)) == g
+    l, t, w, g = l[keep], t[keep], w[keep], g[keep]
+    if len(g) < 2:
+        return out_t, out_w, out_l
+    dldg = np.abs(np.gradient(l, g))
+    gi, ti, wi, li = g[::-1], t[::-1], (w * dldg)[::-1], l[::-1]
+    inside = (_XG >= gi[0]) & (_XG <= gi[-1])
+    out_t[inside] = np.interp(_XG[inside], gi, ti)
+    out_w[inside] = np.interp(_XG[inside], gi, wi)
+    out_l[inside] = np.interp(_XG[inside], gi, li)
+    return out_t, out_w, out_l
+
+
+@lru_cache(maxsize=32)
+def branch_grids(feh: float = 0.0, max_age_myr: float = 13800.0) -> BranchGrids:
+    """The tabulated hypotheses at ``feh`` (clipped into the fits' Z range), cached."""
+    z = float(clip_z(z_from_feh(float(feh)))[0])
+    c = hpt.coefficients(z)
+    m_hef, m_fgb = float(c.m_hef), float(c.m_fgb)
+    m = _M_GRID
+    nm, nl = m.size, _XL.size
+    dm = m * np.gradient(np.log(m))                      # dM of each grid mass
+    tb = hpt.t_bgb(m, z)
+    age_ok = tb < max_age_myr
+    m_age = float(10 ** np.interp(np.log10(max_age_myr), np.log10(tb[::-1]), np.log10(m[::-1])))
+    xi = kroupa2001.imf(np.maximum(m, kroupa2001.MASS_RANGE[0]))
+    L = 10.0**_XL
+    LL = np.broadcast_to(L, (nm, nl))
+    MM = np.broadcast_to(m[:, None], (nm, nl))
+    logt = np.full((N_HYP, nm, nl), np.nan)
+    weight = np.zeros((N_HYP, nm, nl))
+    with np.errstate(all="ignore"):
+        # --- first-ascent giant branch: L_BGB .. L_HeI
+        l_bgb = np.log10(hpt.l_bgb(m, z))
+        l_tip = np.log10(hpt.l_hei(m, z))
+        has_rgb = age_ok & (m < m_fgb)
+        inside = has_rgb[:, None] & (_XL >= l_bgb[:, None]) & (_XL <= l_tip[:, None])
+        r = hpt.r_gb(MM, LL, z)
+        logt[0] = np.where(inside, _logt_from_lr(_XL, r), np.nan)
+        mc = mc_from_luminosity(LL, MM, z)
+        weight[0] = np.where(inside, (xi * dm)[:, None] * shell_burning.years_per_dex(LL, mc), 0.0)
+        # --- core-helium burning
+        m_init = np.maximum(m, m_age)
+        low = m_init < m_hef
+        mc_he = np.where(low, hpt.mc_hei(np.where(low, m_init, 1.0), z), np.nan)
+        lz = hpt.l_zahb(m, mc_he, z)
+        rz = hpt.r_zahb(m, mc_he, z)
+        rhe = hpt.r_zhe(mc_he)
+        rgz = hpt.r_gb(m, lz, z)
+        f = (rz - rhe) / (rgz - rhe)
+        # continuation above M_HeF: the ZAHB mix just below M_HeF, the base at L_minHe (eq 51)
+        m_edge = 0.995 * m_hef
+        mc_e = hpt.mc_hei(m_edge, z)
+        lz_e = hpt.l_zahb(m_edge, mc_e, z)
+        f_e = (hpt.r_zahb(m_edge, mc_e, z) - hpt.r_zhe(mc_e)) / (hpt.r_gb(m_edge, lz_e, z) - hpt.r_zhe(mc_e))
+        hi = ~low & (m <= m_fgb)
+        l_base = np.where(low, lz, np.where(hi, hpt.l_minhe(np.where(hi, m, m_hef), z), np.nan))
+        f_all = np.where(low, f, f_e)
+        rhe_all = np.where(low, rhe, 0.0)
+        lb = np.log10(l_base)
+        prior = np.where(m >= m_age, age_ok * xi * dm,
+                         np.where(m >= m_age - HB_MASS_LOSS, kroupa2001.imf(max(m_age, 0.5)) * dm, 0.0))
+        prior = np.where(low & ~(m > mc_he + 0.02), 0.0, prior)
+        t_he = T_HE_YR * np.minimum(1.0, float(lz_e) / l_base)
+        inside = (prior > 0)[:, None] & np.isfinite(lb)[:, None] & (_XL >= lb[:, None] - HE_BELOW_DEX) & (
+            _XL <= lb[:, None] + HE_ABOVE_DEX)
+        r_he = (1.0 - f_all[:, None]) * rhe_all[:, None] + f_all[:, None] * hpt.r_gb(MM, LL, z)
+        logt[1] = np.where(inside, _logt_from_lr(_XL, r_he), np.nan)
+        weight[1] = np.where(inside, (prior * t_he / (HE_BELOW_DEX + HE_ABOVE_DEX))[:, None], 0.0)
+        # --- asymptotic giant branch: from the end of core-He burning up
+        l_tp = np.log10(luminosity_from_mc(mc_tpagb(hpt.mc_bagb(m, z)), m, z))
+        top_he = lb + HE_ABOVE_DEX
+        inside = (age_ok & np.isfinite(top_he))[:, None] & (_XL > top_he[:, None]) & (_XL <= 4.6)
+        r_a = hpt.r_agb(MM, LL, z)
+        logt[2] = np.where(inside, _logt_from_lr(_XL, r_a), np.nan)
+        weight[2] = np.where(inside, (xi * dm)[:, None] * shell_burning.years_per_dex(LL, mc), 0.0)
+    weight[~np.isfinite(weight) | ~np.isfinite(logt)] = 0.0
+    logt[weight <= 0] = np.nan
+    logl_hr = np.broadcast_to(_XL, logt.shape)
+    slope_hr = np.nan_to_num(np.gradient(logt, _XL, axis=2))
+    # Kiel route: the same loci on the log g grid
+    lg_t = np.full((N_HYP, nm, _XG.size), np.nan)
+    lg_w = np.zeros((N_HYP, nm, _XG.size))
+    lg_l = np.full((N_HYP, nm, _XG.size), np.nan)
+    for h in range(N_HYP):
+        for k in range(nm):
+            if weight[h, k].any():
+                lg_t[h, k], lg_w[h, k], lg_l[h, k] = _on_logg(_XL, logt[h, k], weight[h, k], np.log10(m[k]))
+    slope_g = np.nan_to_num(np.gradient(lg_t, _XG, axis=2))
+    return BranchGrids(
+        feh=float(feh), z=z, mass=m.copy(),
+        logt={"hr": logt, "kiel": lg_t}, weight={"hr": weight, "kiel": lg_w},
+        slope={"hr": slope_hr, "kiel": slope_g}, logl={"hr": np.ascontiguousarray(logl_hr), "kiel": lg_l},
+        logl_tp=l_tp, logl_tip=np.where(has_rgb, l_tip, np.nan), m_age=m_age, m_hef=m_hef,
+        logl_bgb_age=float(np.log10(hpt.l_bgb(m_age, z))),
+    )
+
+
+@dataclass
+class BranchResult:
+    """Per-star branch outcome (arrays of length N).
+
+    code : int8 index into :data:`hrstage.branches.BRANCHES`
+    proba : (N, 3) probabilities of the hypotheses (rgb, core_he, agb); NaN for non-giants
+    mass_hyp, mass_hyp_sd : (N, 3) posterior mean mass (Msun, current mass) and its spread under
+        each hypothesis (prior: Kroupa IMF, constant star formation)
+    """
+
+    code: np.ndarray
+    proba: np.ndarray
+    mass_hyp: np.ndarray
+    mass_hyp_sd: np.ndarray
+    route: str
+
+    @property
+    def mass_core_he(self) -> np.ndarray:
+        return self.mass_hyp[:, 1]
+
+    def mixture_mass(self):
+        """Posterior mean mass over the three hypotheses and its spread: ``sum_h p_h E[M | h]``."""
+        p = np.nan_to_num(self.proba)
+        mu = np.nan_to_num(self.mass_hyp)
+        sd = np.nan_to_num(self.mass_hyp_sd)
+        tot = p.sum(axis=1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            mean = (p * mu).sum(axis=1) / tot
+            var = (p * (sd * sd + mu * mu)).sum(axis=1) / tot - mean * mean
+        return np.where(tot > 0, mean, np.nan), np.where(tot > 0, np.sqrt(np.maximum(var, 0.0)), np.nan)
+
+    @property
+    def branch(self) -> np.ndarray:
+        return np.asarray(BRANCHES, dtype=object)[self.code]
+
+    @property
+    def branch_prob(self) -> np.ndarray:
+        """Probability of the named branch's hypothesis (NaN for unresolved / not giant)."""
+        hyp = np.full(len(self.code), -1)
+        hyp[self.code == RED_GIANT_BRANCH] = 0
+        hyp[np.isin(self.code, (RED_CLUMP, HORIZONTAL_BRANCH))] = 1
+        hyp[np.isin(self.code, (EARLY_AGB, TP_AGB))] = 2
+        out = np.full(len(self.code), np.nan)
+        ok = hyp >= 0
+        out[ok] = self.proba[np.nonzero(ok)[0], hyp[ok]]
+        return out
+
+
+def _evaluate(grids, route, x, logt, sx, st, chunk=4096):
+    """Evidence per hypothesis, mass mean / sd per hypothesis, early-AGB share, for positions ``x``."""
+    n = len(x)
+    xg = _XL if route == "hr" else _XG
+    T, W, S, LG = grids.logt[route], grids.weight[route], grids.slope[route], grids.logl[route]
+    ev = np.zeros((n, N_HYP))
+    m1 = np.full((n, N_HYP), np.nan)
+    m2 = np.full((n, N_HYP), np.nan)
+    early = np.zeros(n)
+    mass = grids.mass[:, None]
+    ltp = grids.logl_tp[:, None]
+    for a in range(0, n, chunk):
+        b = min(n, a + chunk)
+        pos = (x[a:b] - xg[0]) / (xg[1] - xg[0])
+        ok = np.isfinite(pos) & (pos >= 0) & (pos < xg.size - 1)
+        i = np.where(ok, np.floor(np.where(ok, pos, 0)), 0).astype(np.intp)
+        fr = np.where(ok, pos - i, 0.0)
+        s2obs = st[a:b] ** 2 + SIGMA_INT**2
+        for h in range(N_HYP):
+            t0, t1 = T[h][:, i], T[h][:, i + 1]
+            w = W[h][:, i] * (1 - fr) + W[h][:, i + 1] * fr
+            # a locus point missing on one side: use the other (edges of a locus)
+            tt = np.where(np.isfinite(t0), np.where(np.isfinite(t1), t0 * (1 - fr) + t1 * fr, t0), t1)
+            sl = S[h][:, i]
+            var = s2obs + (sl * sx[a:b]) ** 2
+            d = logt[a:b] - tt
+            like = np.where(np.isfinite(d) & ok, w * np.exp(-0.5 * d * d / var) / np.sqrt(var), 0.0)
+            tot = like.sum(axis=0)
+            ev[a:b, h] = tot
+            with np.errstate(invalid="ignore", divide="ignore"):
+                mu = (like * mass).sum(axis=0) / tot
+                m1[a:b, h] = mu
+                m2[a:b, h] = np.sqrt(np.maximum((like * (mass - mu) ** 2).sum(axis=0) / tot, 0.0))
+                if h == 2:
+                    ll = LG[h][:, i] * (1 - fr) + LG[h][:, i + 1] * fr
+                    early[a:b] = np.where(tot > 0, (like * (ll < ltp)).sum(axis=0) / tot, 0.0)
+    return ev, m1, m2, early
+
+
+def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, logg=None, logg_err=None,
+                    feh=None, min_prob: float = MIN_PROB, max_age_myr: float = 13800.0,
+                    giant_codes=None) -> BranchResult:
+    """Branch of every giant-class star from its HR position (or its Kiel position when ``logg`` is given).
+
+    Parameters
+    ----------
+    logt, logl : array_like
+        log10 Teff (K) and log10 L (Lsun).
+    stage_code : array_like of int
+        ``hrstage.stages`` codes; only giant-class stars (``giant_codes``, default giant and bright
+        giant) get a branch, the others ``not_giant``.
+    logt_err, logl_err, logg_err : array_like, optional
+        1-sigma errors (dex); missing errors count as zero.
+    logg : array_like, optional
+        log10 g (cgs). Where finite, the Kiel route is used for that star (log g is what
+        separates the branches best); elsewhere the HR route.
+    feh : float or array_like, optional
+        [Fe/H]; per-star values use the nearest 0.25-dex grid point; None = solar.
+    min_prob : float
+        Probability a hypothesis needs for its branch to be named (else ``unresolved``).
+
+    Returns
+    -------
+    BranchResult
+    """
+    from ._core import _group_feh
+
+    logt = np.asarray(logt, float).ravel()
+    logl = np.asarray(logl, float).ravel()
+    n = logt.size
+    code_in = np.broadcast_to(np.asarray(stage_code), (n,))
+
+    def arr(v):
+        return np.zeros(n) if v is None else np.nan_to_num(np.broadcast_to(np.asarray(v, float), (n,)), nan=0.0)
+
+    st, sl = arr(logt_err), arr(logl_err)
+    sg = arr(logg_err)
+    g = np.full(n, np.nan) if logg is None else np.broadcast_to(np.asarray(logg, float), (n,)).astype(float)
+    giant_codes = (GIANT, BRIGHT_GIANT) if giant_codes is None else giant_codes
+    eligible = np.isin(code_in, giant_codes) & np.isfinite(logt)
+    sub = (code_in == SUBGIANT) & np.isfinite(logt) & np.isfinite(logl)
+    ev = np.zeros((n, N_HYP))
+    m1 = np.full((n, N_HYP), np.nan)
+    m2 = np.full((n, N_HYP), np.nan)
+    early = np.zeros(n)
+    feh_used, groups, _ = _group_feh(feh, n)
+    grid_of = {}
+    for fg, idx in groups.items():
+        grids = grid_of[fg] = branch_grids(round(float(fg), 4), float(max_age_myr))
+        si = idx[sub[idx]]
+        if len(si):   # subgiants on the lower red giant branch (see LOWER_RGB_DLOGT)
+            with np.errstate(all="ignore"):
+                t_rgb = _logt_from_lr(logl[si], hpt.r_gb(grids.m_age, 10.0 ** logl[si], grids.z))
+            eligible[si] = (logl[si] >= grids.logl_bgb_age) & (logt[si] <= t_rgb + LOWER_RGB_DLOGT)
+    kiel = eligible & np.isfinite(g)
+    hr = eligible & ~kiel & np.isfinite(logl)
+    for fg, idx in groups.items():
+        grids = grid_of[fg]
+        for route, sel, x, sx in (("kiel", kiel, g, sg), ("hr", hr, logl, sl)):
+            ii = idx[sel[idx]]
+            if len(ii):
+                e, a, b, ea = _evaluate(grids, route, x[ii], logt[ii], sx[ii], st[ii])
+                ev[ii], m1[ii], m2[ii], early[ii] = e, a, b, ea
+    tot = ev.sum(axis=1)
+    proba = np.full((n, N_HYP), np.nan)
+    has = eligible & (tot > 0)
+    proba[has] = ev[has] / tot[has, None]
+    code = np.full(n, NOT_GIANT, dtype=np.int8)
+    code[eligible] = UNRESOLVED
+    best = np.argmax(np.nan_to_num(proba, nan=-1.0), axis=1)
+    pbest = np.nan_to_num(proba[np.arange(n), best], nan=0.0)
+    named = has & (pbest >= min_prob)
+    teff = 10.0**logt
+    fehv = np.broadcast_to(np.asarray(feh_used, float), (n,))
+    hb = (fehv <= HB_FEH_MAX) | (teff >= HB_TEFF_MIN)
+    code[named & (best == 0)] = RED_GIANT_BRANCH
+    # Kiel route: a red clump must also be inside the Bovy et al. 2014 box (within its [Fe/H] range)
+    in_cal = (fehv >= bovy2014.FEH_RANGE[0]) & (fehv <= bovy2014.FEH_RANGE[1])
+    outside_box = kiel & in_cal & ~hb & ~bovy2014.in_clump_box(teff, g, fehv)
+    named &= ~((best == 1) & outside_box)
+    code[named & (best == 1)] = np.where(hb[named & (best == 1)], HORIZONTAL_BRANCH, RED_CLUMP)
+    code[named & (best == 2)] = np.where(early[named & (best == 2)] >= 0.5, EARLY_AGB, TP_AGB)
+    m1[~has] = np.nan
+    m2[~has] = np.nan
+    return BranchResult(code=code, proba=proba, mass_hyp=m1, mass_hyp_sd=m2,
+                        route="kiel" if kiel.any() and not hr.any() else ("hr" if hr.any() and not kiel.any() else "mixed"))
+
+
+def branch_columns(b: BranchResult, coded: bool = False) -> dict:
+    """The branch columns (names of ``hrstage.columns``) of a :class:`BranchResult`."""
+    from ._text import CodedText
+
+    out = {"branch": CodedText(BRANCHES, b.code) if coded else b.branch, "branch_prob": b.branch_prob}
+    for k, h in enumerate(HYPOTHESES):
+        out[f"prob_{h}"] = b.proba[:, k]
+    return out
+
+
+def gravity_mass(logt, logl, logg, logt_err=0.0, logl_err=0.0, logg_err=0.0, corr=0.0):
+    """``M = g R^2 / G`` with ``R^2 = L / (4 pi sigma Teff^4)``: mass (Msun) and its 1-sigma error.
+
+    ``log M = log g - log g_sun + log L - 4 (log Teff - log Teff_sun)`` (IAU 2015 nominal solar
+    values); the error propagates the three log errors to first order with the correlation of the
+    log Teff and log L errors: ``var(log M) = s_g^2 + s_L^2 + 16 s_T^2 - 8 rho s_L s_T``.
+    """
+    logm = logg - LOGG_SUN + logl - 4.0 * (logt - LOG_TSUN)
+    var = logg_err**2 + logl_err**2 + 16.0 * logt_err**2 - 8.0 * corr * logl_err * logt_err
+    m = 10.0**logm
+    return m, m * np.log(10.0) * np.sqrt(np.maximum(var, 0.0))
+
+
+def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_age_myr=13800.0,
+                  gravity=True):
+    """Decide the branch of the giants of a ``ClassificationResult`` and make their masses branch-aware.
+
+    Sets ``res.branch``; for giant-class stars with a branch evaluation (and no supplied mass) the
+    mass becomes the posterior mean mass of the most probable hypothesis (methods
+    ``red_giant_branch``, ``core_he_burning``, ``agb``); where log g and an independent L are both
+    known (``gravity`` True, or True for the row) the mass is ``g R^2 / G`` (``gravity_radius``),
+    for every stage.
+    """
+    from ._core import MASS_METHOD_NAMES
+
+    n = len(res.code)
+
+    def flat(v):
+        if v is None:
+            return None
+        a = np.asarray(v, dtype=float)
+        if shape is not None and a.shape != (n,):
+            a = np.broadcast_to(a, shape)
+        return np.broadcast_to(a.ravel() if a.size == n else a, (n,)).astype(float)
+
+    g, ge = flat(logg), flat(logg_err)
+    b = classify_branch(res.logt, res.logl, res.code, logt_err=res.logt_err, logl_err=res.logl_err,
+                        logg=g, logg_err=ge, feh=res.feh_used if feh is not None and np.ndim(feh) else feh,
+                        max_age_myr=max_age_myr)
+    res.branch = b
+    supplied = MASS_METHOD_NAMES.index("supplied")
+    first = MASS_METHOD_NAMES.index(BRANCH_MASS_METHODS[0])
+    best = np.argmax(np.nan_to_num(b.proba, nan=-1.0), axis=1)
+    mb = b.mass_hyp[np.arange(n), best]
+    eb = b.mass_hyp_sd[np.arange(n), best]
+    use = np.isfinite(b.proba[:, 0]) & np.isfinite(mb) & (res.mass_code != supplied)
+    res.mass[use] = mb[use]
+    res.mass_err[use] = eb[use]
+    res.mass_code[use] = first + best[use]
+    if g is not None:
+        rows = np.broadcast_to(np.asarray(gravity, dtype=bool), (n,))
+        ge0 = np.zeros(n) if ge is None else np.nan_to_num(ge)
+        m, me = gravity_mass(res.logt, res.logl, g, res.logt_err, res.logl_err, ge0, res.corr)
+        ok = rows & np.isfinite(m) & (res.mass_code != supplied)
+        res.mass[ok] = m[ok]
+        res.mass_err[ok] = me[ok]
+        res.mass_code[ok] = MASS_METHOD_NAMES.index("gravity_radius")
+    return b
+
+
+__all__ = ["classify_branch", "attach_branch", "branch_columns", "gravity_mass", "BRANCH_MASS_METHODS", "branch_grids", "BranchGrids", "BranchResult", "MIN_PROB", "SIGMA_INT"]

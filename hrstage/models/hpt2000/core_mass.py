@@ -1,0 +1,70 @@
+"""Core mass of a shell-burning giant from its luminosity (Hurley, Pols & Tout 2000 eqs 37-38).
+
+Citation: Hurley J. R., Pols O. R., Tout C. A., 2000, MNRAS 315, 543, section 5.2: the giant-branch
+core-mass--luminosity relation ``L = min(B Mc^q, D Mc^p)``, low-mass branch p = 6, q = 3, with
+``B = max(3e4, 500 + 1.75e4 M^0.6)`` and ``log10 D = 5.37 + 0.135 zeta`` (zeta = log10(Z/0.02)),
+the same form and constants as :func:`hrstage.models.hpt2000.mc_hei` (equation numbers as quoted in
+public implementations). HPT2000 use the same relation on the early AGB with the CO-core mass.
+
+Validity: degenerate-core giants, M < M_HeF (the low-mass exponents are used for all masses here:
+an approximation above M_HeF, where HPT2000 switch to p = 5, q = 2); L > 0; 1e-4 <= Z <= 0.03.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .._common import as_float, masked
+from .coefficients import coefficients
+
+P_LOW, Q_LOW = 6.0, 3.0
+
+
+def _bd(m, zeta):
+    big_b = np.maximum(3.0e4, 500.0 + 1.75e4 * m**0.6)
+    big_d = 10.0 ** (5.37 + 0.135 * zeta)
+    return big_b, big_d
+
+
+def mc_from_luminosity(l, m, z=0.02) -> np.ndarray:
+    """Core mass (Msun) of a giant of mass ``m`` (Msun) at luminosity ``l`` (Lsun): eq (37) inverted.
+
+    NaN where ``l`` or ``m`` is not positive.
+    """
+    l = as_float(l, "Lsun")
+    m = as_float(m, "Msun")
+    c = coefficients(z)
+    l, m, zeta = np.broadcast_arrays(l, m, c.zeta)
+    ok = (l > 0) & (m > 0)
+    lx_, mx_ = np.where(ok, l, 1.0), np.where(ok, m, 1.0)
+    big_b, big_d = _bd(mx_, zeta)
+    mc_x = (big_b / big_d) ** (1.0 / (P_LOW - Q_LOW))   # where the two branches meet
+    l_x = big_d * mc_x**P_LOW
+    mc = np.where(lx_ <= l_x, (lx_ / big_d) ** (1.0 / P_LOW), (lx_ / big_b) ** (1.0 / Q_LOW))
+    return masked(mc, ok)
+
+
+def luminosity_from_mc(mc, m, z=0.02) -> np.ndarray:
+    """Luminosity (Lsun) of a giant of mass ``m`` with core mass ``mc``, eq (37). NaN for non-positive input."""
+    mc = as_float(mc, "Msun")
+    m = as_float(m, "Msun")
+    c = coefficients(z)
+    mc, m, zeta = np.broadcast_arrays(mc, m, c.zeta)
+    ok = (mc > 0) & (m > 0)
+    x, mx_ = np.where(ok, mc, 1.0), np.where(ok, m, 1.0)
+    big_b, big_d = _bd(mx_, zeta)
+    return masked(np.minimum(big_b * x**Q_LOW, big_d * x**P_LOW), ok)
+
+
+def mc_tpagb(mc_bagb) -> np.ndarray:
+    """Core mass (Msun) at the start of the thermally pulsing AGB (HPT2000 section 5.4, eq 69).
+
+    Above Mc,BAGB = 0.8 Msun the second dredge-up sets it, ``Mc,DU = 0.44 Mc,BAGB + 0.448``; below,
+    the early AGB ends when the CO core has grown to the helium-core mass, ``Mc,BAGB`` itself.
+    Typed in from memory of the paper; NaN for non-positive input.
+    """
+    x = as_float(mc_bagb, "Msun")
+    return np.where(x > 0, np.where(x > 0.8, 0.44 * x + 0.448, x), np.nan)
+
+
+__all__ = ["mc_from_luminosity", "luminosity_from_mc", "mc_tpagb", "P_LOW", "Q_LOW"]
