@@ -75,9 +75,16 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     # NO_METALLICITY, missing errors give a point classification, a missing MK type is not checked.
 
     mass = values.get("mass")
+    # log g decides the giant branch on the Kiel position; where L did not come from log g, the
+    # mass is g R^2 / G (the teff_logg route derives L from log g through the mass: not independent)
+    logg = values.get("logg")
+    if logg is not None and "logg" in status:
+        logg = np.where(status["logg"] == OK, logg, np.nan)
+    kiel_route = np.asarray([r == "teff_logg" for r in mapping.routes] + [False], dtype=bool)
     res = classify_hr(pos.logt, pos.logl, logt_err=_nan_none(pos.logt_err), logl_err=_nan_none(pos.logl_err),
                       corr=pos.corr, feh=feh_clf, mass=mass, n_draws=opts.n_draws,
-                      seed=chunk_seed(opts.seed, offset), **opts.params)
+                      seed=chunk_seed(opts.seed, offset), logg=logg, logg_err=values.get("logg_err"),
+                      gravity_mass=~kiel_route[route_of], **opts.params)
     cols = dict(res.to_columns(coded=True))
     # the Teff as given (or derived), not 10**log10(Teff), which adds float noise (6023.000000000001)
     cols["teff_used"] = np.where(np.isfinite(pos.teff), pos.teff, cols["teff_used"])
