@@ -1,0 +1,73 @@
+"""Giant-branch labels, probabilities and branch-aware masses (hrstage.classifier._branch)."""
+
+import numpy as np
+import pytest
+
+from hrstage.branches import BRANCHES
+from hrstage.classifier import classify_hr
+from hrstage.classifier._branch import branch_grids, classify_branch, gravity_mass
+from hrstage.columns import CLASSIFY_COLUMNS
+from hrstage.models.stellar import LOGG_SUN
+
+
+def test_sun_gravity_mass():
+    # IAU 2015 B3 nominal Sun: log g = LOGG_SUN, L = 1, Teff = 5772 K -> 1 Msun
+    m, e = gravity_mass(np.log10(5772.0), 0.0, LOGG_SUN, 0.0, 0.0, 0.01)
+    assert m == pytest.approx(1.0, rel=1e-9)
+    # 0.01 dex in log g -> ln(10) * 0.01 = 2.3 % in mass
+    assert e == pytest.approx(np.log(10) * 0.01, rel=1e-6)
+
+
+def test_labels_on_the_solar_giant_region():
+    # clump: HPT2000 ZAHB at solar Z is log L 1.76-1.81, ~4600-4700 K (1-1.5 Msun); the first-ascent
+    # giant branch at log L 1.0 and 4800 K has no core-He burner (below the ZAHB band)
+    lt = np.log10([4650.0, 4800.0, 5772.0, 3600.0])
+    ll = [1.78, 1.0, 0.0, 3.6]
+    r = classify_hr(lt, ll, feh=0.0, logt_err=0.005, logl_err=0.03)
+    br = r.branch.branch.tolist()
+    assert br[0] == "red_clump" and br[1] == "red_giant_branch" and br[2] == "not_giant"
+    assert br[3] in ("early_agb", "thermally_pulsing_agb")   # brighter than every RGB tip (3.44)
+    p = r.branch.proba
+    assert np.allclose(p[[0, 1, 3]].sum(axis=1), 1.0)
+    assert np.isnan(p[2]).all()
+    assert r.mass_method.tolist()[:2] == ["core_he_burning", "red_giant_branch"]
+
+
+def test_unresolved_when_hypotheses_split():
+    # raising the bar above every probability leaves the giants unresolved, never relabelled
+    lt, ll = np.log10([4650.0, 4800.0]), [1.78, 1.0]
+    b = classify_branch(lt, ll, [2, 2], feh=0.0, min_prob=1.01)
+    assert b.branch.tolist() == ["unresolved", "unresolved"]
+    assert np.isfinite(b.proba).all()
+
+
+def test_rows_are_independent():
+    rng = np.random.default_rng(3)
+    lt = np.log10(rng.uniform(4000, 5200, 200))
+    ll = rng.uniform(0.8, 3.0, 200)
+    feh = rng.uniform(-1.5, 0.3, 200)
+    full = classify_hr(lt, ll, feh=feh).branch
+    part = classify_hr(lt[50:60], ll[50:60], feh=feh[50:60]).branch
+    assert (full.code[50:60] == part.code).all()
+    np.testing.assert_allclose(full.proba[50:60], part.proba, rtol=1e-12)
+
+
+def test_columns_and_names():
+    r = classify_hr(np.log10([4650.0]), [1.78], feh=0.0)
+    cols = r.to_columns()
+    for c in ("branch", "branch_prob", "prob_rgb", "prob_core_he", "prob_agb"):
+        assert c in CLASSIFY_COLUMNS and c in cols
+    assert cols["branch"][0] in BRANCHES
+    coded = r.to_columns(coded=True)["branch"]
+    assert coded.texts[coded.codes[0]] == cols["branch"][0]
+    off = classify_hr(np.log10([4650.0]), [1.78], feh=0.0, branches=False)
+    assert off.branch is None and "branch" not in off.to_columns()
+
+
+def test_grid_is_physical():
+    g = branch_grids(0.0)
+    # the age-limit mass (13.8 Gyr to the base of the giant branch) is ~0.9-1.0 Msun at solar Z
+    assert 0.85 < g.m_age < 1.05
+    # RGB tips (HPT2000 eq 49) of low-mass stars at log L ~3.4
+    tips = g.logl_tip[(g.mass > 1.0) & (g.mass < 1.5)]
+    assert np.all((tips > 3.3) & (tips < 3.5))
