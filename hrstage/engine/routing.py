@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..catalog.sanity import MISSING, NOT_A_NUMBER, OK, STATUS_TEXT
+from .readings import carry_other
 
 #: Roles whose absence makes a row's route impossible, per route (first alternative is the one read).
 ROUTE_NEEDS = {
@@ -165,6 +166,7 @@ def positions(values, status, mapping, opts, feh, n):
             for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
                 getattr(out, name)[ok_rows] = np.asarray(getattr(pos, name), dtype=float)[good]
             out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
+        carry_other(out, pos, ok_rows, good)      # a second photometric reading (engine/readings.py)
         if pos.source_codes is not None:
             texts, codes = pos.source_codes
             texts = np.asarray(texts, dtype=object)
