@@ -250,6 +250,8 @@ class BranchResult:
     mass_hyp: np.ndarray
     mass_hyp_sd: np.ndarray
     route: str
+    #: per star: True where the Kiel position (log g) was used
+    kiel: np.ndarray | None = None
 
     @property
     def mass_core_he(self) -> np.ndarray:
@@ -408,7 +410,60 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
     m1[~has] = np.nan
     m2[~has] = np.nan
     return BranchResult(code=code, proba=proba, mass_hyp=m1, mass_hyp_sd=m2,
-                        route="kiel" if kiel.any() and not hr.any() else ("hr" if hr.any() and not kiel.any() else "mixed"))
+                        route="kiel" if kiel.any() and not hr.any() else ("hr" if hr.any() and not kiel.any() else "mixed"),
+                        kiel=kiel)
+
+
+_HYP_WORDS = ("first-ascent red giant branch", "core-helium burning", "asymptotic giant branch")
+
+
+def branch_text(b: BranchResult, i: int) -> str:
+    """One line saying which branch star ``i`` is on, with the three probabilities and the route."""
+    code = int(b.code[i])
+    if code == NOT_GIANT:
+        return "Branch: not_giant (only giant-class stars get a branch)"
+    p = b.proba[i]
+    if not np.isfinite(p).all():
+        return "Branch: unresolved -- no branch locus (RGB, core-He band, AGB) passes near this position"
+    route = "Kiel position (Teff, log g)" if b.kiel is not None and b.kiel[i] else "HR position (Teff, L)"
+    probs = ", ".join(f"{w} {q:.2f}" for w, q in zip(_HYP_WORDS, p))
+    return (f"Branch: {BRANCHES[code]} -- from the {route}: {probs} (HPT2000 loci weighed over a Kroupa-IMF, "
+            "constant-star-formation population; the branch is named at >= 0.5)")
+
+
+def branch_curves(feh: float = 0.0, max_age_myr: float = 13800.0) -> dict:
+    """The branch loci at ``feh`` as curves ``name -> (label, mass, logt, logl)`` (plain arrays).
+
+    ``branch_rgb_oldest`` / ``branch_rgb_2msun``: first-ascent giant branch of the lightest evolved
+    mass and of 2 Msun (HPT2000 eqs 10, 46, 49); ``branch_core_he_lower`` / ``_upper``: faint and
+    bright edges of the core-He band per mass (eqs 51, 53-54, -HE_BELOW_DEX / +HE_ABOVE_DEX);
+    ``branch_rgb_tip``: the tip luminosity of the oldest stars (eq 49) across the cool giants.
+    """
+    g = branch_grids(round(float(feh), 4), float(max_age_myr))
+    lgrid = g.logl["hr"][0, 0]
+    out = {}
+    k_old = int(np.searchsorted(g.mass, g.m_age))
+    for name, k in (("branch_rgb_oldest", k_old), ("branch_rgb_2msun", int(np.argmin(np.abs(g.mass - 2.0))))):
+        t = g.logt["hr"][0, k]
+        ok = np.isfinite(t)
+        out[name] = (f"First-ascent giant branch of {g.mass[k]:.2f} Msun (HPT2000 eqs 10, 46, 49)",
+                     np.full(ok.sum(), g.mass[k]), t[ok], lgrid[ok])
+    t_he = g.logt["hr"][1]
+    lo, hi = [], []
+    for k in range(len(g.mass)):
+        ok = np.flatnonzero(np.isfinite(t_he[k]))
+        if len(ok) >= 2:
+            lo.append((g.mass[k], t_he[k, ok[0]], lgrid[ok[0]]))
+            hi.append((g.mass[k], t_he[k, ok[-1]], lgrid[ok[-1]]))
+    for name, pts, what in (("branch_core_he_lower", lo, f"-{HE_BELOW_DEX:g}"), ("branch_core_he_upper", hi, f"+{HE_ABOVE_DEX:g}")):
+        a = np.array(pts, dtype=float).reshape(-1, 3)
+        out[name] = (f"Core-He-burning band edge (ZAHB / minimum core-He luminosity {what} dex; HPT2000 eqs 51, 53-54)",
+                     a[:, 0], a[:, 1], a[:, 2])
+    tip = g.logl_tip[k_old]
+    tt = np.linspace(3.45, 3.75, 31)
+    out["branch_rgb_tip"] = (f"RGB tip of {g.mass[k_old]:.2f} Msun (HPT2000 eq 49): cool giants above are AGB",
+                             np.full(tt.size, g.mass[k_old]), tt, np.full(tt.size, tip))
+    return out
 
 
 def branch_columns(b: BranchResult, coded: bool = False) -> dict:
@@ -481,4 +536,4 @@ def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_ag
     return b
 
 
-__all__ = ["classify_branch", "attach_branch", "branch_columns", "gravity_mass", "BRANCH_MASS_METHODS", "branch_grids", "BranchGrids", "BranchResult", "MIN_PROB", "SIGMA_INT"]
+__all__ = ["classify_branch", "attach_branch", "branch_curves", "branch_text", "branch_columns", "gravity_mass", "BRANCH_MASS_METHODS", "branch_grids", "BranchGrids", "BranchResult", "MIN_PROB", "SIGMA_INT"]

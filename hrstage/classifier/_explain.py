@@ -8,6 +8,7 @@ from ..errors import HrstageInputError
 from ..flags import describe
 from ..stages import STAGES
 from ..stagemap import stage_map
+from ._branch import branch_text
 from ._core import FEH_GRID, _split_params, classify_hr
 from ._logg import logl_from_logg
 
@@ -56,7 +57,8 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
     teff_err, lum_err : float, optional
         1-sigma errors in K and Lsun (turned into dex).
     logg : float, optional
-        log10(g / cm s^-2), used when ``lum`` is not given.
+        log10(g / cm s^-2): gives L when ``lum`` is not given; decides the giant branch on the
+        Kiel position, and with ``lum`` gives the mass g R^2 / G.
     feh, mass : float, optional
         [Fe/H] (dex) and a supplied mass (Msun).
     n_draws, seed : int
@@ -91,7 +93,8 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
     sl = None if (lum_err is None or lum is None) else float(lum_err) / (lum * np.log(10))
     has_err = bool((st or 0) > 0 or (sl or 0) > 0)
     res = classify_hr(logt, logl, logt_err=st, logl_err=sl, corr=corr, feh=feh, mass=mass,
-                      n_draws=n_draws if has_err else 0, seed=seed, **params)
+                      n_draws=n_draws if has_err else 0, seed=seed, logg=logg,
+                      gravity_mass=lum is not None, **params)
     stage_kw, _ = _split_params(params)
     fu = float(res.feh_used[0])
     sm = stage_map(fu, **stage_kw)
@@ -109,6 +112,8 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
     mtxt = "no mass estimate" if not np.isfinite(me) else f"{me:.3g} Msun" + (f" +- {mr:.2g}" if np.isfinite(mr) else "")
     lines.append(f"Mass: {mtxt} (method {mm}); ZAMS mass of this Teff {res.mass_ms_teff[0]:.3g} Msun, "
                  f"of this L {res.mass_ms_lum[0]:.3g} Msun")
+    if res.branch is not None:
+        lines.append(branch_text(res.branch, 0))
     # the boundaries around the star, along the vertical line through it
     dist = sm.distance_to_boundaries(logt, logl, names=_RELEVANT.get(STAGES[code], list(_NAMED)))
     above, below = [], []

@@ -234,11 +234,35 @@ def cmd_explain(args) -> int:
     return EXIT_OK
 
 
+def _add_branch_curves(table, feh):
+    """Append the giant-branch loci (hrstage.classifier._branch.branch_curves) to the boundaries table."""
+    import numpy as np
+    from astropy.table import Table, vstack
+
+    from ..classifier._branch import branch_curves
+
+    labels = dict(table.meta.get("curve_labels", {}))
+    curves = branch_curves(feh)
+    extra = Table({
+        "curve": np.concatenate([np.full(len(c[1]), n) for n, c in curves.items()]).astype(str),
+        "mass": np.concatenate([c[1] for c in curves.values()]),
+        "logt": np.concatenate([c[2] for c in curves.values()]),
+        "logl": np.concatenate([c[3] for c in curves.values()]),
+    })
+    labels.update({n: c[0] for n, c in curves.items()})
+    joined = vstack([table, extra], metadata_conflicts="silent")
+    for col in ("mass", "logt", "logl"):
+        joined[col].unit, joined[col].description = table[col].unit, table[col].description
+    joined.meta = dict(table.meta)
+    joined.meta["curve_labels"] = labels
+    return joined
+
+
 def cmd_boundaries(args) -> int:
     from ..catalog import write_table
     from ..stagemap import stage_map
 
-    table = stage_map(args.feh).to_table()
+    table = _add_branch_curves(stage_map(args.feh).to_table(), args.feh)
     table.meta["hrstage_caution"] = CAUTION_LINE
     write_table(table, args.output, format=args.out_format, overwrite=args.overwrite)
     _say(args, f"stage boundaries at [Fe/H] = {args.feh:+.2f} ({len(table)} rows) written to {args.output}")

@@ -8,6 +8,7 @@ Stage labels and regions are indicative: they come from analytic stellar relatio
 replace a spectroscopic analysis.
 """
 
+from .branches import BRANCH_COLOURS, branch_diagram, draw_branches
 from .colour import blackbody_colour, cie1931_cmf
 from .hrd import DEFAULT_RADII, FLAG_GROUPS, colour_magnitude_diagram, hr_diagram, kiel_diagram
 from .output import write_figure
@@ -17,6 +18,9 @@ __all__ = [
     "hr_diagram",
     "kiel_diagram",
     "colour_magnitude_diagram",
+    "branch_diagram",
+    "draw_branches",
+    "BRANCH_COLOURS",
     "write_figure",
     "blackbody_colour",
     "cie1931_cmf",

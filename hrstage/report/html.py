@@ -204,6 +204,31 @@ def _figure_html(table, stage_map, feh, figure, figure_format):
     return body, fig
 
 
+def _branch_section(table, n):
+    """Giants per branch (``branch`` column of hrstage.branches), with the median branch probability."""
+    from ..branches import BRANCHES, LABELS as BLABELS, NOT_GIANT
+
+    br = _text_column(table, "branch")
+    bp = _float_column(table, "branch_prob") if "branch_prob" in table.colnames else None
+    giants = br[(br != "") & (br != BRANCHES[NOT_GIANT])]
+    rows = []
+    for b in BRANCHES[:NOT_GIANT]:
+        m = br == b
+        k = int(m.sum())
+        if k == 0:
+            continue
+        med = _fmt(np.nanmedian(bp[m]), 2) if bp is not None and np.isfinite(bp[m]).any() else ""
+        rows.append([esc(BLABELS[b]), f"<code>{esc(b)}</code>", str(k),
+                     f"{100.0 * k / max(len(giants), 1):.1f} %", med])
+    return ('<section id="branches"><h2>Giants per branch</h2>'
+            + _table(["Branch", "Value", "Stars", "Share of giants", "Median P(branch)"], rows,
+                     table_id="branch-counts", num_cols=(2, 3, 4), total=["Total", "", str(len(giants)), "100.0 %" if len(giants) else "", ""])
+            + "<p>From the HR position alone the first-ascent giant branch and the red clump overlap; a "
+              "branch is named when its phase is more probable than the other two together, else "
+              "<code>unresolved</code>. Indicative, not a spectroscopic or asteroseismic classification.</p>"
+            + "</section>")
+
+
 def render_report(table, *, title="hrstage stage report", settings=None, stage_map=None, feh=0.0,
                   id_column=None, sptype_column=None, max_rows=DEFAULT_MAX_ROWS, figure=None,
                   figure_format="png", generated_at=None) -> str:
@@ -316,6 +341,8 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
     parts.append(_table(["Stage", "Value", "Stars", "Share", "Median P(stage)"], rows, table_id="stage-counts",
                         num_cols=(2, 3, 4), total=["Total", "", str(n), "100.0 %" if n else "", ""]))
     parts.append("</section>")
+    if "branch" in table.colnames:
+        parts.append(_branch_section(table, n))
 
     # ---- figure -----------------------------------------------------------------------------
     fig_html, _ = _figure_html(table, stage_map, feh, figure, figure_format)
