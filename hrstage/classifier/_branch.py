@@ -285,8 +285,12 @@ class BranchResult:
         return out
 
 
-def _evaluate(grids, route, x, logt, sx, st, chunk=4096):
-    """Evidence per hypothesis, mass mean / sd per hypothesis, early-AGB share, for positions ``x``."""
+def _evaluate(grids, route, x, logt, sx, st, chunk=8192):
+    """Evidence per hypothesis, mass mean / sd per hypothesis, early-AGB share, for positions ``x``.
+
+    Stars are taken in order of ``x`` so that each block touches few grid cells, and only the loci
+    with weight in those cells are evaluated (the result of a star never depends on the others).
+    """
     n = len(x)
     xg = _XL if route == "hr" else _XG
     T, W, S, LG = grids.logt[route], grids.weight[route], grids.slope[route], grids.logl[route]
@@ -294,33 +298,44 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=4096):
     m1 = np.full((n, N_HYP), np.nan)
     m2 = np.full((n, N_HYP), np.nan)
     early = np.zeros(n)
-    mass = grids.mass[:, None]
-    ltp = grids.logl_tp[:, None]
+    pos_all = (x - xg[0]) / (xg[1] - xg[0])
+    order = np.argsort(np.where(np.isfinite(pos_all), pos_all, np.inf), kind="stable")
     for a in range(0, n, chunk):
-        b = min(n, a + chunk)
-        pos = (x[a:b] - xg[0]) / (xg[1] - xg[0])
+        rows = order[a:a + chunk]
+        pos = pos_all[rows]
         ok = np.isfinite(pos) & (pos >= 0) & (pos < xg.size - 1)
+        if not ok.any():
+            continue
         i = np.where(ok, np.floor(np.where(ok, pos, 0)), 0).astype(np.intp)
         fr = np.where(ok, pos - i, 0.0)
-        s2obs = st[a:b] ** 2 + SIGMA_INT**2
+        lo_c, hi_c = int(i[ok].min()), int(i[ok].max()) + 2
+        s2obs = st[rows] ** 2 + SIGMA_INT**2
+        sxr, ltr = sx[rows], logt[rows]
         for h in range(N_HYP):
-            t0, t1 = T[h][:, i], T[h][:, i + 1]
-            w = W[h][:, i] * (1 - fr) + W[h][:, i + 1] * fr
+            ks = np.flatnonzero(W[h][:, lo_c:hi_c].any(axis=1))
+            if not len(ks):
+                continue
+            Th, Wh = T[h][ks], W[h][ks]
+            t0, t1 = Th[:, i], Th[:, i + 1]
+            w = Wh[:, i] * (1 - fr) + Wh[:, i + 1] * fr
             # a locus point missing on one side: use the other (edges of a locus)
             tt = np.where(np.isfinite(t0), np.where(np.isfinite(t1), t0 * (1 - fr) + t1 * fr, t0), t1)
-            sl = S[h][:, i]
-            var = s2obs + (sl * sx[a:b]) ** 2
-            d = logt[a:b] - tt
+            sl = S[h][ks][:, i]
+            var = s2obs + (sl * sxr) ** 2
+            d = ltr - tt
             like = np.where(np.isfinite(d) & ok, w * np.exp(-0.5 * d * d / var) / np.sqrt(var), 0.0)
             tot = like.sum(axis=0)
-            ev[a:b, h] = tot
+            ev[rows, h] = tot
+            mass = grids.mass[ks][:, None]
             with np.errstate(invalid="ignore", divide="ignore"):
                 mu = (like * mass).sum(axis=0) / tot
-                m1[a:b, h] = mu
-                m2[a:b, h] = np.sqrt(np.maximum((like * (mass - mu) ** 2).sum(axis=0) / tot, 0.0))
+                m1[rows, h] = mu
+                m2[rows, h] = np.sqrt(np.maximum((like * (mass - mu) ** 2).sum(axis=0) / tot, 0.0))
                 if h == 2:
-                    ll = LG[h][:, i] * (1 - fr) + LG[h][:, i + 1] * fr
-                    early[a:b] = np.where(tot > 0, (like * (ll < ltp)).sum(axis=0) / tot, 0.0)
+                    lg = LG[h][ks]
+                    ll = lg[:, i] * (1 - fr) + lg[:, i + 1] * fr
+                    ltp = grids.logl_tp[ks][:, None]
+                    early[rows] = np.where(tot > 0, (like * (ll < ltp)).sum(axis=0) / tot, 0.0)
     return ev, m1, m2, early
 
 
