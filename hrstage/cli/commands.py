@@ -122,7 +122,7 @@ def _summary_lines(summary: dict) -> list:
 
 # ----------------------------------------------------------------------------- commands
 def cmd_classify(args) -> int:
-    from ..pipeline import classify_file
+    from ..engine import classify_file
 
     opts = _options(args)
     summary = classify_file(args.input, args.output, chunk_rows=args.chunk_rows, overwrite=args.overwrite,
@@ -138,7 +138,7 @@ def cmd_classify(args) -> int:
 def _tagged_table(args):
     """Read INPUT; classify it in memory when it has no stage column yet."""
     from ..catalog import read_table
-    from ..pipeline import classify_table
+    from ..engine import classify_table
 
     table = read_table(args.input, args.in_format)
     if "stage" in table.colnames and not args.col and args.profile is None:
@@ -245,16 +245,26 @@ def cmd_boundaries(args) -> int:
     return EXIT_OK
 
 
+DEMO_NAME = "kestrel_targets.ecsv"
+
+
 def demo_catalogue_path() -> Path:
-    """The bundled invented demo catalogue (``data/demo/`` of the source tree)."""
-    return Path(__file__).resolve().parents[2] / "data" / "demo" / "kestrel_targets.ecsv"
+    """The bundled invented demo catalogue.
+
+    An installed wheel carries it as package data (``hrstage/data/demo/``, copied there at build
+    time by ``setup.py``); a source checkout reads it from ``data/demo/``, its one copy in git.
+    """
+    packaged = Path(__file__).resolve().parents[1] / "data" / "demo" / DEMO_NAME
+    if packaged.is_file():
+        return packaged
+    return Path(__file__).resolve().parents[2] / "data" / "demo" / DEMO_NAME
 
 
 def cmd_demo(args) -> int:
     import matplotlib
 
     matplotlib.use("Agg")
-    from ..pipeline import classify_file
+    from ..engine import classify_file
 
     src = Path(args.catalogue) if args.catalogue else demo_catalogue_path()
     if not src.is_file():
