@@ -109,12 +109,12 @@ def _as_array(x, name, shape=None):
 MASS_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied")
 _M_HB, _M_NONE, _M_SUPPLIED = len(MASS_METHODS), len(MASS_METHODS) + 1, len(MASS_METHODS) + 2
 #: base-reason keys beyond the stage codes
-_B_HB, _B_NOPOS, _B_OFFMAP = N_STAGES, N_STAGES + 1, N_STAGES + 2
+_B_HB, _B_NOPOS, _B_OFFMAP, _B_HAYASHI, _B_YOUNGZONE = (N_STAGES + k for k in range(5))
 
 
 def _base_table(maps) -> np.ndarray:
-    """Object table (n_maps, N_STAGES + 3) of the base reason of every stage / special key per map."""
-    tab = np.empty((len(maps), N_STAGES + 3), dtype=object)
+    """Object table (n_maps, N_STAGES + 5) of the base reason of every stage / special key per map."""
+    tab = np.empty((len(maps), N_STAGES + 5), dtype=object)
     for g, sm in enumerate(maps):
         p = sm.params
         for k, s in enumerate(STAGES):
@@ -124,6 +124,11 @@ def _base_table(maps) -> np.ndarray:
         tab[g, _B_HB] = _HB_REASON.format(dep=p.hb_depth, hgt=p.hb_height)
         tab[g, _B_NOPOS] = "Unclassified: no position"
         tab[g, _B_OFFMAP] = "Unclassified: outside the map (log Teff 3.30-5.30, log L -6..7)"
+        tab[g, _B_YOUNGZONE] = (f"Pre-main sequence: more than {p.binary_offset:g} dex above the main-sequence upper "
+                                f"edge, where young and evolved stars overlap, labelled young because "
+                                f"young_prior={p.young_prior:g} > 0.5 (a young target list)")
+        tab[g, _B_HAYASHI] = ("Unclassified: cooler than the Hayashi line of the lowest-mass stars (no star in "
+                              "hydrostatic equilibrium lies there: a brown dwarf, or Teff too low / L too high)")
     return tab
 
 
@@ -882,7 +887,8 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     too_bright = np.isfinite(logl) & ~np.isfinite(m_lum) & (logl > 5.0)
     cand = np.fmax(m_lum, msup)
     ratio = cand / m_teff
-    cbm = finite & (teff < opts["cool_teff"]) & np.isfinite(m_teff) & (
+    # (not for young stars: they are too luminous for the main sequence because they are still contracting)
+    cbm = finite & (code != PRE_MAIN_SEQUENCE) & (teff < opts["cool_teff"]) & np.isfinite(m_teff) & (
         (np.isfinite(ratio) & (ratio > opts["cool_massive_ratio"])) | too_bright
     )
     F.or_flag(flags, cbm, F.COOL_BUT_MASSIVE)
@@ -974,6 +980,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     F.or_flag(flags, badi, F.BAD_INPUT)
     base_key = code.astype(np.int8)
     base_key[hb] = _B_HB
+    base_key[young_or_ev & (code == PRE_MAIN_SEQUENCE)] = _B_YOUNGZONE
     for mask, what, key in ((badi, "not finite (inf)", "8bad"), (miss, "missing (NaN)", "8miss")):
         ii = np.nonzero(mask)[0]
         note(key, ii, f"log Teff or log L {what}: not classified")
@@ -987,6 +994,13 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     lk = maps[0].grid if maps else stage_map(0.0, **stage_kw).grid
     out = finite & (code == UNCLASSIFIED) & ((logt < lk.t0) | (logt > lk.t1) | (logl < lk.l0) | (logl > lk.l1))
     base_key[out] = _B_OFFMAP
+    rest = np.nonzero(finite & (code == UNCLASSIFIED) & ~out)[0]
+    if len(rest):
+        for g, sm in enumerate(maps):
+            r_ = rest if len(maps) == 1 else rest[group[rest] == g]
+            ht, hl = sm._hayashi
+            cold = (logl[r_] <= hl[-1]) & (logt[r_] < np.interp(logl[r_], hl, ht))
+            base_key[r_[cold]] = _B_HAYASHI
 
     return ClassificationResult(
         logt=logt, logl=logl, logt_err=st, logl_err=sl, corr=rho, feh_used=feh_used, code=code, proba=proba,

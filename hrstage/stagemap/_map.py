@@ -280,10 +280,13 @@ class StageMap:
         slope_u = np.polyfit(ut[:k], ul[:k], 1)[0]
         ext_t = np.linspace(LOGT_MS_EXTENSION, lower_t[0], 8)[:-1]
         ext_tu = np.linspace(LOGT_MS_EXTENSION - max(p.ms_cool_logt, p.ms_cool_logt_lowest), ut[0], 8)[:-1]
-        # above 100 Msun (the fits' top mass) both edges go straight up, at the Teff of 100 Msun, to the
-        # top of the raster: very massive main-sequence stars (extrapolated, flagged)
+        # above 100 Msun (the fits' top mass) the lower edge goes on straight, along the ZAMS slope of
+        # the last masses, and the upper edge straight up at the Teff of 100 Msun, to the top of the
+        # raster: very massive main-sequence stars (extrapolated, flagged)
         up = g.l1 + 0.1
-        self._ms_lower = (np.r_[ext_t, lower_t, lower_t[-1]], np.r_[lower_l[0] + slope_z * (ext_t - lower_t[0]), lower_l, up])
+        slope_top = np.polyfit(lower_l[-k:], lower_t[-k:], 1)[0]  # dlogT/dlogL of the ZAMS at 70-100 Msun
+        t_up = lower_t[-1] + max(slope_top, 0.0) * (up - lower_l[-1])
+        self._ms_lower = (np.r_[ext_t, lower_t, t_up], np.r_[lower_l[0] + slope_z * (ext_t - lower_t[0]), lower_l, up])
         self._ms_top = (np.r_[ext_tu, ut, ut[-1]], np.r_[ul[0] + slope_u * (ext_tu - ut[0]), ul, max(up, ul[-1])])
         self._logl_valid_max = float(zl[-1])
         self._logt_valid_min = float(zt[0])
@@ -399,7 +402,7 @@ class StageMap:
             return 2 * self._wd_logr[0] + 4 * (logt - LOG_TSUN) - p.wd_tolerance
         a, b = LOGT_WD_HOT
         hot = p.wd_hot_tolerance * np.clip((logt - a) / (b - a), 0.0, 1.0)
-        return 2 * self._wd_logr[1] + 4 * (logt - LOG_TSUN) + p.wd_tolerance + hot
+        return 2 * self._wd_logr[1] + 4 * (logt - LOG_TSUN) + p.wd_tolerance + p.wd_envelope_tolerance + hot
 
     def ms_lower_at(self, logt):
         """log L of the lower edge of the main-sequence band (ZAMS - ms_below_zams) at logt."""
@@ -717,7 +720,7 @@ class StageMap:
         add("wd_min", f"White-dwarf band lower edge ({p.wd_mass_max:g} Msun, -{p.wd_tolerance:g} dex)",
             tw, self.wd_edge(tw, "lower"), np.full_like(tw, p.wd_mass_max))
         tw = np.unique(np.r_[tw, LOGT_WD_HOT])
-        add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance:g} dex, "
+        add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance + p.wd_envelope_tolerance:g} dex, "
             f"+{p.wd_hot_tolerance:g} dex more from 30 kK to 100 kK)",
             tw, self.wd_edge(tw, "upper"), np.full_like(tw, p.wd_mass_min))
         ot, ol = self._old_branch

@@ -64,6 +64,11 @@ class StageParams:
     wd_tolerance : float, default 0.25
         Widening (dex in log L) of the white-dwarf band on both sides: eq. 91 is a zero-temperature
         relation, hot and low-mass white dwarfs with hydrogen envelopes are larger.
+    wd_envelope_tolerance : float, default 0.15
+        Extra widening (dex in log L) of the upper (low-mass) edge of the white-dwarf band only:
+        low-mass (0.2-0.4 Msun) white dwarfs with thick hydrogen envelopes are larger than the
+        zero-temperature eq. 91 radius. 30 of the 50 Gentile Fusillo et al. (2021) Gaia EDR3 white
+        dwarfs (L from their TeffH, loggH, MassH) outside the band lay within 0.15 dex above it.
     wd_teff_min : float, default 4000
         Coolest Teff (K) of the white-dwarf band (design: "Teff > ~4000 K").
     subdwarf_depth : float, default 1.2
@@ -135,6 +140,7 @@ class StageParams:
     wd_mass_min: float = 0.2
     wd_mass_max: float = 1.35
     wd_tolerance: float = 0.25
+    wd_envelope_tolerance: float = 0.15
     wd_teff_min: float = 4000.0
     subdwarf_depth: float = 1.2
     hot_subdwarf_teff: tuple = (20000.0, 45000.0)
@@ -161,6 +167,7 @@ class StageParams:
             ("wd_mass_min", 0.1 <= self.wd_mass_min < self.wd_mass_max, "0.1 <= wd_mass_min < wd_mass_max"),
             ("wd_mass_max", self.wd_mass_max <= 1.43, "at most 1.43 Msun (below the Chandrasekhar mass 1.44)"),
             ("wd_tolerance", 0.0 <= self.wd_tolerance <= 1.0, "between 0 and 1 dex"),
+            ("wd_envelope_tolerance", 0.0 <= self.wd_envelope_tolerance <= 1.0, "between 0 and 1 dex"),
             ("wd_teff_min", 2000.0 <= self.wd_teff_min <= 20000.0, "between 2000 and 20000 K"),
             ("subdwarf_depth", 0.0 <= self.subdwarf_depth <= 5.0, "between 0 and 5 dex"),
             ("hb_height", 0.0 <= self.hb_height <= 1.5, "between 0 and 1.5 dex"),
