@@ -253,7 +253,8 @@ def _as_float(x, n: int, name: str) -> np.ndarray:
     return a
 
 
-def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, threshold: float = 3.0) -> TypeCheck:
+def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, threshold: float = 3.0,
+                logg=None, logg_err=None) -> TypeCheck:
     """Check catalogued MK types against HR positions.
 
     Parameters
@@ -269,6 +270,12 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
         calibrations are solar-neighbourhood means and are not shifted with metallicity.
     threshold : float, default 3.0
         Number of sigma beyond which a check fails.
+    logg, logg_err : array-like of float, optional
+        log10 g (cgs) and its error. Where given, the luminosity class is checked on the Kiel
+        position: the class sequence's L at the measured Teff with the stage map's mass there gives
+        the class's log g (``log g_sun + log M + 4 log(Teff/Teff_sun) - log L``), compared with the
+        measured log g (calibration L scatter and the log g error). Gravity is what separates
+        O-F dwarfs from giants, which the HR position cannot.
 
     Returns
     -------
@@ -295,6 +302,10 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
     tt = _type_table([parsed[i] for i in first])
 
     cal = calibration()
+    g_in = _as_float(logg, n, "logg") if logg is not None else np.full(n, np.nan)
+    ge = np.abs(_as_float(logg_err, n, "logg_err")) if logg_err is not None else np.zeros(n)
+    ge = np.where(np.isfinite(ge), ge, 0.0)
+    kiel = np.flatnonzero(np.isfinite(g_in) & np.isfinite(logt)) if logg is not None else None
     calibrated = tt["calibrated"][inverse]
     num_lo = tt["num_lo"][inverse]
     num_hi = tt["num_hi"][inverse]
@@ -329,9 +340,21 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
         resid = logl - locus
         if cls == "V":
             resid = np.where(resid > 0, np.maximum(0.0, resid - BINARY_ALLOWANCE_DEX), resid)
+        if cls == "III":
+            # class III spans the first-ascent giant branch up to its tip: a giant brighter than
+            # the class's mean sequence but on the giant branch below the tip is not a conflict
+            up = np.flatnonzero(np.isfinite(resid) & (resid > 0))
+            resid[up[_on_giant_branch(logt, logl, feh, up)]] = 0.0
         sl = sigma_logl(cls, num_mid) * l_fac
         nsig_l[:, k] = resid / np.sqrt(sl**2 + el**2 + (slope * et) ** 2)
         exp_l[:, k] = locus
+        if kiel is not None and len(kiel):
+            # Kiel position: log g of the class sequence at the measured Teff (+ brighter = lower g)
+            g_cls = _class_logg(logt[kiel], locus[kiel], feh, kiel)
+            resid_g = g_cls - g_in[kiel]
+            if cls == "V":
+                resid_g = np.where(resid_g > 0, np.maximum(0.0, resid_g - BINARY_ALLOWANCE_DEX), resid_g)
+            nsig_l[kiel, k] = resid_g / np.sqrt(sl[kiel] ** 2 + ge[kiel] ** 2 + (4.0 * et[kiel]) ** 2)
 
     with np.errstate(invalid="ignore"):
         # one-sided classes
@@ -375,6 +398,11 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
 
     reason = np.where(calibrated & hr_ok & np.char.startswith(verdict.astype(str), "not_checkable") == False,  # noqa: E712
                       "MK calibration: Teff of the type and L of the class sequence at the measured Teff", "")
+    if kiel is not None and len(kiel):
+        on_k = np.zeros(n, dtype=bool)
+        on_k[kiel] = True
+        reason = np.where(on_k & (reason != ""), "MK calibration: Teff of the type and log g of the class "
+                          "sequence at the measured Teff (Kiel position)", reason)
     reason = reason.astype(object)
     hr_stage = _stage_check(verdict, reason, tt, inverse, logt, logl, et, el, feh, hr_ok)
 
@@ -411,6 +439,51 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
     )
 
 
+def _class_logg(logt, logl, feh, idx) -> np.ndarray:
+    """log g (cgs) of positions (log Teff, log L) with the stage map's mass there (IAU 2015 Sun)."""
+    from ..classifier import estimate_mass
+    from ..models.stellar import LOGG_SUN, TEFF_SUN
+
+    if feh is None:
+        f = None
+    else:
+        fa = np.asarray(getattr(feh, "value", feh), dtype=float)
+        f = float(fa) if fa.ndim == 0 else fa[idx]
+    m, _, _ = estimate_mass(logt, logl, feh=f, branches=False)
+    with np.errstate(all="ignore"):
+        return LOGG_SUN + np.log10(m) + 4.0 * (logt - np.log10(TEFF_SUN)) - logl
+
+
+def _on_giant_branch(logt, logl, feh, idx) -> np.ndarray:
+    """True where the positions ``idx`` are giants or bright giants (stage map) no brighter than the RGB tip.
+
+    The tip is the helium-ignition luminosity of the oldest stars (age-limit mass, HPT2000 eq 49)
+    at the star's [Fe/H] (0.25-dex steps): luminosity class III covers normal giants along the
+    whole first-ascent giant branch, of which the class's mean sequence (mostly clump stars) is
+    only the middle.
+    """
+    from ..classifier._branch import branch_grids
+    from ..stages import BRIGHT_GIANT, GIANT
+
+    out = np.zeros(len(idx), dtype=bool)
+    if not len(idx):
+        return out
+    if feh is None:
+        fv = np.zeros(len(idx))
+    else:
+        fa = np.asarray(getattr(feh, "value", feh), dtype=float)
+        fv = np.full(len(idx), float(fa)) if fa.ndim == 0 else fa[idx]
+    fv = np.round(np.nan_to_num(fv) * 4) / 4
+    tip = np.empty(len(idx))
+    for f in np.unique(fv):
+        g = branch_grids(float(f))
+        tip[fv == f] = g.logl_tip[int(np.searchsorted(g.mass, g.m_age))]
+    from ..classifier import classify_hr
+
+    res = classify_hr(logt[idx], logl[idx], feh=None if feh is None else fv, n_draws=0, branches=False)
+    return np.isin(np.asarray(res.code), (GIANT, BRIGHT_GIANT)) & (logl[idx] <= tip)
+
+
 def _hr_stages(logt, logl, feh, idx) -> np.ndarray:
     """Stage names of the HR positions ``idx`` on the stage map (classifier point labels)."""
     from ..classifier import classify_hr
@@ -421,7 +494,7 @@ def _hr_stages(logt, logl, feh, idx) -> np.ndarray:
     else:
         fa = np.asarray(getattr(feh, "value", feh), dtype=float)
         f = float(fa) if fa.ndim == 0 else fa[idx]
-    res = classify_hr(logt[idx], logl[idx], feh=f, n_draws=0)
+    res = classify_hr(logt[idx], logl[idx], feh=f, n_draws=0, branches=False)
     return np.asarray(STAGES, dtype=object)[np.asarray(res.code, dtype=int)]
 
 

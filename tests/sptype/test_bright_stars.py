@@ -115,8 +115,10 @@ def test_injected_v_iii_swap(stars):
     print(f"\nswapped {len(sw)}, resolvable {sep_ok[sw].sum()}: caught {caught:.3f}, "
           f"false alarms (any conflict) {false_alarm:.3f}; all swapped: caught {overall:.3f}, "
           f"lum. false alarms {lum[un].mean():.3f}")
-    assert caught >= 0.90
-    assert false_alarm <= 0.05
+    assert caught >= 0.90   # measured 0.987
+    # measured 0.032 (0.040 before class III was allowed along the giant branch below the RGB tip;
+    # the issue-14 bar of 0.03 is not met: 18 of the 34 are M5-M6 III with saturated B-V Teff)
+    assert false_alarm <= 0.035
     assert lum[un].mean() <= 0.05
     # B-F stars: V and III overlap on the HR diagram (Jaschek & Gomez 1998); swaps there are
     # mostly missed, which is why the overall rate is far below 90 % - documented, not hidden
