@@ -287,7 +287,7 @@ class BranchResult:
         return out
 
 
-def _evaluate(grids, route, x, logt, sx, st, chunk=8192):
+def _evaluate(grids, route, x, logt, sx, st, chunk=1024):
     """Evidence per hypothesis, mass mean / sd per hypothesis, early-AGB share, for positions ``x``.
 
     Stars are taken in order of ``x`` so that each block touches few grid cells, and only the loci
