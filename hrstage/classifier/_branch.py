@@ -406,7 +406,9 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
         for route, sel, x, sx in (("kiel", kiel, g, sg), ("hr", hr, logl, sl)):
             ii = idx[sel[idx]]
             if len(ii):
-                e, a, b, ea = _evaluate(grids, route, x[ii], logt[ii], sx[ii], st[ii])
+                # huge (finite) errors: the variance overflows to inf and the star gets no evidence
+                with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+                    e, a, b, ea = _evaluate(grids, route, x[ii], logt[ii], sx[ii], st[ii])
                 ev[ii], m1[ii], m2[ii], early[ii] = e, a, b, ea
     tot = ev.sum(axis=1)
     proba = np.full((n, N_HYP), np.nan)
