@@ -24,6 +24,7 @@ probabilities of both (see ``docs/derive.md``).
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 
@@ -53,11 +54,23 @@ except ImportError:  # pragma: no cover - scipy is a dependency
         return 0.5 * (1.0 + np.vectorize(erf)(np.asarray(x) / _SQRT2))
 
 
-def edge_screen(colour, abs_mag, sig_m):
-    """Cheap pre-selection of the rows that may have a white-dwarf reading (a linear bound under
-    the bright edge, 1 mag or 3 sigma of margin): only these are read through the grid."""
-    bound = 9.6 + 3.0 * colour - np.maximum(1.0, 3.0 * sig_m)
-    return (abs_mag > bound) & (colour < 1.7) & (colour > -0.8)
+@lru_cache(maxsize=None)
+def _edge_nodes(system):
+    """The bright edge of the white-dwarf reading (log g 6.5, brighter of DA and DB) on a colour grid."""
+    c = np.linspace(-0.7, 1.8, 101)
+    m = np.fmin(montreal_wd.sequence_mag(c, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere="H", system=system),
+                montreal_wd.sequence_mag(c, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere="He", system=system))
+    ok = np.isfinite(m)
+    return c[ok], m[ok]
+
+
+def edge_screen(colour, abs_mag, sig_m, system="gaia"):
+    """Cheap pre-selection of the rows that may have a white-dwarf reading: fainter than the bright
+    edge of the reading minus 1 mag or 3 sigma, inside its colour span. Only these rows are read
+    through the grid (one interpolation per row)."""
+    c, m = _edge_nodes(system)
+    edge = np.interp(colour, c, m)
+    return (abs_mag > edge - np.maximum(1.0, 3.0 * sig_m)) & (colour >= c[0] - 0.1) & (colour <= c[-1])
 
 
 def _position(logt_fn, bc_fn, c, m, sig_c, sig_m, sig_lt_sys, sig_bc_sys, mbol_sun):
