@@ -232,7 +232,8 @@ def test_white_dwarf_reading_on_both_paths():
     g = from_gaia(t["m_g"][s] + mu, (t["m_bp"] - t["m_rp"])[s], 50.0, gaia_release="dr2")
     for r in (j, g):
         assert r.teff[0] == pytest.approx(10000.0, rel=1e-6)
-        assert r.extra["wd_mass"][0] == pytest.approx(0.600, abs=1e-6)
+        assert r.extra["white_dwarf"]["mass"][0] == pytest.approx(0.600, abs=1e-6)
+        assert list(r.extra["white_dwarf"]["rows"]) == [0]
         assert "white dwarf" in r.source[0]
         assert not r.flags[0] & (F.OUTSIDE_VALIDITY | F.COLOUR_OUT_OF_RANGE)
     # L = -0.4 (M_bol - 4.74) with the grid's M_bol
