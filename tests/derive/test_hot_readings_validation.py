@@ -17,7 +17,7 @@ def test_gaia_white_dwarfs_from_photometry(gaia_white_dwarfs):
     w = gaia_white_dwarfs
     pos = from_gaia(w["Gmag"], w["BPmag"] - w["RPmag"], w["Plx"])
     r = classify_hr(pos.logt, pos.logl, logt_err=pos.logt_err, logl_err=pos.logl_err, corr=pos.corr)
-    # issue 13 bar >= 97 % white_dwarf (Gentile Fusillo et al. 2021, 7077 stars); measured 0.990 (before: 0.247)
+    # issue 13 bar >= 97 % white_dwarf (Gentile Fusillo et al. 2021, 7077 stars); measured 0.996 (before: 0.247)
     assert np.mean(r.stage == "white_dwarf") >= 0.97
     da = (w["spectype"] == "DA") & (w["TeffH"] < 40000)
     rel = np.abs(pos.teff[da] / w["TeffH"][da] - 1)
@@ -88,7 +88,7 @@ def test_hipparcos_bright_stars_still_classified(bright_stars):
 def test_gaia_white_dwarfs_through_the_engine(validation_file, cols):
     # the catalogue as a user has it (Gentile Fusillo et al. 2021 columns), parallax or the
     # Bailer-Jones et al. 2021 geometric distance with its 16th/84th percentiles: issue 13 bar >= 97 %
-    # white_dwarf; measured 0.991 (parallax) and 0.988 (rgeo)
+    # white_dwarf; measured 0.996 (parallax) and 0.995 (rgeo)
     import hrstage
 
     t = Table.read(validation_file("gaia_white_dwarfs.csv"), format="ascii.csv")
