@@ -110,9 +110,10 @@ def _summary_lines(summary: dict) -> list:
     rows = summary["rows"]
     lines = [f"{rows} rows classified into {summary['output']}", f"columns: {summary['mapping']}"]
     lines += [f"note: {n}" for n in summary.get("notes", [])]
+    width = max(len(v) for v in LABELS.values())
     for stage, count in summary["stages"].items():
         if count:
-            lines.append(f"  {LABELS[stage]:<15} {count:>9}  ({100.0 * count / max(rows, 1):5.1f} %)")
+            lines.append(f"  {LABELS[stage]:<{width}} {count:>9}  ({100.0 * count / max(rows, 1):5.1f} %)")
     lines.append(f"flagged stars: {summary['flagged']}")
     if summary.get("sptype_conflicts"):
         lines.append(f"MK types in conflict with the HR position: {summary['sptype_conflicts']}")
