@@ -370,10 +370,9 @@ def detect_profile(infos, *, profile: str | None = None, explicit: dict | None =
         found_text = ", ".join(f"{r}={c}" for r, c in seen.items()) or "no column we know"
         names = [i.name for i in infos]
         shown = ", ".join(names[:20]) + (" ..." if len(names) > 20 else "")
-        raise HrstageInputError(
-            f"no column profile fits {source} (columns: {shown}): found {found_text}; " + "; ".join(report)
-            + "; name the columns with --col ROLE=NAME (Python: ROLE='NAME')"
-        )
+        start = f"no column profile fits {source} (columns: {shown}): found {found_text}; " + "; ".join(report)
+        raise HrstageInputError(start + "; name the columns with keywords ROLE='NAME' (e.g. teff='T_EFF')",
+                                cli=start + "; name the columns with --col ROLE=NAME (e.g. --col teff=T_EFF)")
     _, prof, roles, routes = best
     ordered = {r: roles[r] for r in ROLES if r in roles}
     notes = []

@@ -63,7 +63,7 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
 
     inp, out = Path(input_path), Path(output_path)
     in_fmt = format_of(inp, input_format)
-    format_of(out, output_format)
+    format_of(out, output_format, option="--out-format")
     check_output_path(out, overwrite=overwrite, inputs=[inp])
     chunk_rows = DEFAULT_CHUNK_ROWS if chunk_rows is None else int(chunk_rows)
     n_workers = resolve_workers(workers)
