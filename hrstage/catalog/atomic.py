@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Iterable, Iterator
 
 from ..errors import HrstageInputError
+from ..interrupts import commit_section as _commit_section
 
 #: Marker in the names of our temporary files (tests look for leftovers with it).
 TEMP_MARK = ".hrstage-partial-"
@@ -122,23 +123,28 @@ def atomic_output(path, *, overwrite: bool = False, inputs: Iterable = ()) -> It
     try:
         yield tmp
         os.chmod(tmp, output_mode(out))
-        if overwrite:
-            os.replace(tmp, out)
-        else:
-            # link + unlink refuses to replace a file that appeared while we were writing
-            try:
-                os.link(tmp, out)
-            except FileExistsError:
-                raise HrstageInputError(
-                    f"output {out} appeared while writing; pass overwrite=True to replace it",
-                    cli=f"output {out} appeared while writing; pass --overwrite to replace it") from None
-            except OSError:
-                if out.exists():
-                    raise HrstageInputError(f"output {out} already exists") from None
-                os.replace(tmp, out)
-            else:
-                tmp.unlink()
+        with _commit_section():
+            _put_in_place(tmp, out, overwrite)
     finally:
         if tmp.exists():
             with contextlib.suppress(OSError):
                 tmp.unlink()
+
+
+def _put_in_place(tmp: Path, out: Path, overwrite: bool) -> None:
+    if overwrite:
+        os.replace(tmp, out)
+        return
+    # link + unlink refuses to replace a file that appeared while we were writing
+    try:
+        os.link(tmp, out)
+    except FileExistsError:
+        raise HrstageInputError(
+            f"output {out} appeared while writing; pass overwrite=True to replace it",
+            cli=f"output {out} appeared while writing; pass --overwrite to replace it") from None
+    except OSError:
+        if out.exists():
+            raise HrstageInputError(f"output {out} already exists") from None
+        os.replace(tmp, out)
+    else:
+        tmp.unlink()

@@ -10,6 +10,7 @@ from pathlib import Path
 from .._version import __version__
 from ..defaults import DEFAULT_DRAWS, DEFAULT_SEED, FEH_RANGE, check_feh
 from ..errors import HrstageInputError
+from ..interrupts import catch_interrupts, interrupt_requested
 
 #: Exit status: success, failure of the run, user mistake, interrupted (128 + SIGINT, as shells
 #: report a command ended by Ctrl-C).
@@ -589,6 +590,19 @@ def _quiet_broken_pipe() -> None:
 
 
 def run(argv) -> int:
+    with catch_interrupts():
+        try:
+            return _run(argv)
+        except KeyboardInterrupt:       # e.g. while the modules of the command are imported
+            return _interrupted()
+
+
+def _interrupted() -> int:
+    print("hrstage: interrupted; nothing written (an earlier output is left as it was)", file=sys.stderr)
+    return EXIT_INTERRUPTED
+
+
+def _run(argv) -> int:
     parser = build_parser()
     want_tb = "--traceback" in argv
     argv = [a for a in argv if a != "--traceback"]   # accepted anywhere on the line
@@ -608,18 +622,25 @@ def run(argv) -> int:
             sys.stdout.flush()
             return code
         except HrstageInputError as exc:
+            if interrupt_requested():
+                return _interrupted()
             _error(exc.cli_message())
             return EXIT_USAGE
         except PermissionError as exc:      # an input we may not read, a folder we may not write in
+            if interrupt_requested():
+                return _interrupted()
             _error(f"permission denied: {exc.filename or exc}")
             return EXIT_USAGE
     except BrokenPipeError:
         _quiet_broken_pipe()
         return EXIT_BROKEN_PIPE
     except KeyboardInterrupt:
-        print("hrstage: interrupted; nothing written (an earlier output is left as it was)", file=sys.stderr)
-        return EXIT_INTERRUPTED
+        return _interrupted()
     except Exception as exc:  # a bug or a system problem: one line unless --traceback
+        if interrupt_requested():
+            # what a Ctrl-C breaks on its way (a half-imported module, a generator left
+            # running) is the interrupt, not a failure; no output was put in place after it
+            return _interrupted()
         if want_tb:
             traceback.print_exc()
         text = str(exc).strip().splitlines()
