@@ -292,6 +292,9 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
         f"metallicity boundaries; {count(F.NO_EXTINCTION)} had no extinction applied.",
         f"Uncertain labels: {count(F.LOW_PROBABILITY)} star(s) have a best-stage probability below 0.6 "
         f"and {count(F.NEAR_BOUNDARY)} lie within their errors of a boundary; {n_unc} could not be classified.",
+        f"Young or evolved: {count(F.YOUNG_OR_EVOLVED)} star(s) lie where young (pre-main-sequence) and "
+        "evolved stars share the HR diagram (YOUNG_OR_EVOLVED); their label follows the assumed share of "
+        "young stars (a field population unless the run said otherwise) and both probabilities are given.",
     ]
     parts.append('<section id="cautions" class="cautions"><h2>Cautions</h2><ul>'
                  + "".join(f"<li>{c}</li>" for c in cautions) + "</ul></section>")
