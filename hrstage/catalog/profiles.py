@@ -413,4 +413,24 @@ def detect_profile(infos, *, profile: str | None = None, explicit: dict | None =
     for lin, log in (("teff", "logt"), ("lum", "logl")):
         if log in ordered and log not in explicit and lin not in ordered:
             notes.append(f"column {ordered[log]} has a log unit: used as {log}")
+    notes += _same_name_notes(ordered, explicit, infos)
     return ColumnMapping(prof.name, ordered, routes, tuple(explicit), notes)
+
+
+def _same_name_notes(roles: dict, explicit: dict, infos) -> list:
+    """Where two columns differ only in case or punctuation (``Teff`` and ``teff``) and detection
+    took one for a role, say which, and how to choose the other."""
+    used = set(roles.values())
+    groups = {}
+    for info in infos:
+        groups.setdefault(normalise(info.name), []).append(info.name)
+    notes = []
+    for role, col in roles.items():
+        if role in explicit:
+            continue
+        others = [n for n in groups.get(normalise(col), []) if n != col and n not in used]
+        if others:
+            alike = ", ".join([col, *others])
+            notes.append(f"columns {alike} all fit role {role}: {col} used "
+                         f"(choose another with --col {role}=NAME, in Python {role}='NAME')")
+    return notes

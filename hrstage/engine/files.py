@@ -144,6 +144,13 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                 while pending:
                     behind.submit(take_from, pending.popleft())
                 behind.wait()
+                if offset == 0:     # no data rows (a header-only file): an empty tagged table
+                    from ..catalog import read_table
+
+                    empty = read_table(inp, in_fmt)
+                    if opts.mapping is None:
+                        opts = resolve_options(infos_from_table(empty), opts)
+                    take(classify_one(empty, opts, 0, None))
             except BaseException:
                 # let the thread finish the chunk it is writing before the writer is aborted
                 behind.drain()

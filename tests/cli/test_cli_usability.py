@@ -231,3 +231,36 @@ def test_output_folder_we_cannot_write_in_is_a_user_error(tmp_path, capsys):
     code, _, err = run(capsys, "classify", src, "-o", "/proc/hrstage_out.ecsv")
     line = one_line_error(code, err)
     assert "PermissionError" not in line and "failed" not in line
+
+
+@pytest.mark.parametrize("suffix", [".ecsv", ".csv", ".parquet", ".fits"])
+def test_header_only_csv_gives_an_empty_tagged_table(tmp_path, capsys, suffix):
+    src = tmp_path / "empty.csv"
+    src.write_text("star,teff,lum\n")
+    out = tmp_path / f"o{suffix}"
+    code, text, err = run(capsys, "classify", src, "-o", out)
+    assert code == 0, err                     # was: exit 2 "nothing to write"
+    back = read_table(out)
+    assert len(back) == 0 and back.colnames[:3] == ["star", "teff", "lum"]
+    assert {"stage", "stage_prob", "flags", "flag_text", "teff_used"} <= set(back.colnames)
+    assert "0 rows classified" in text
+
+
+def test_columns_alike_but_for_case_are_named(tmp_path, capsys):
+    src = tmp_path / "two.csv"
+    src.write_text("star,Teff,teff,lum\nA,5000,5100,3\n")
+    code, text, err = run(capsys, "classify", src, "-o", tmp_path / "o.ecsv")
+    assert code == 0, err
+    assert "columns Teff, teff all fit role teff: Teff used" in text and "--col teff=NAME" in text
+
+
+def test_bidi_controls_never_reach_the_report(tmp_path, capsys):
+    src = catalogue(tmp_path)
+    t = read_table(src)
+    t["star"] = [f"ZZ\u202e{i}-evil" for i in range(len(t))]
+    write_table(t, src, overwrite=True)
+    rep = tmp_path / "r.html"
+    code, _, err = run(capsys, "report", src, "-o", rep, "--draws", "0")
+    assert code == 0, err
+    html = rep.read_text(encoding="utf-8")
+    assert "\u202e" not in html and "[U+202E]" in html
