@@ -167,6 +167,32 @@ def white_dwarf(c, m, sig_c, sig_m, *, system, release, atmosphere):
     p = _ndtr(z)
     out["p"] = np.where(np.isfinite(edge), p, np.where(np.isfinite(out["logt"]), 1.0, 0.0))
     out.update(mass=base["mass"], logg=base["logg"], extrapolated=base["extrapolated"])
+    # brighter than the edge, yet within the errors of it: the white-dwarf share of the probability
+    # lies on the white-dwarf side, near the edge; its position is read at the edge ("clamped"), to
+    # serve only as the other reading
+    out["clamped"] = np.zeros(c.size, dtype=bool)
+    missing = ~np.isfinite(out["logt"]) & np.isfinite(edge)
+    near = np.flatnonzero(missing & (mg < edge) & (out["p"] >= P_AMBIGUOUS))
+    # fainter than the log g 9.5 sequence (beyond the grid's extrapolation): read at that faint edge,
+    # flagged as extrapolated -- still a white dwarf, not a reason to try a main-sequence relation
+    faint_edge = montreal_wd.sequence_mag(cg, montreal_wd.LOGG_EXTRAPOLATE[1], atmosphere=atmosphere, system=system)
+    faint = np.flatnonzero(missing & np.isfinite(faint_edge) & (mg > faint_edge))
+    for rows, at, clamp in ((near, edge, True), (faint, faint_edge, False)):
+        if not rows.size:
+            continue
+        shift = 1e-6 if clamp else -1e-6
+        r = dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
+                     _position(fn, cg[rows], at[rows] + shift, sig_c[rows], sig_m[rows],
+                               montreal_wd.SIGMA_TEFF_FRAC / LN10, montreal_wd.SIGMA_BC, bolometric.IAU_MBOL_SUN)))
+        if not clamp:   # L from the star's own magnitude, with the BC at the faint edge
+            r["logl"] = r["logl"] - 0.4 * (mg[rows] - at[rows] - shift)
+            out["mass"][rows] = base["mass"]
+            out["logg"][rows] = base["logg"]
+            out["extrapolated"][rows] = True
+        for key, val in r.items():
+            out[key][rows] = val
+        if clamp:
+            out["clamped"][rows] = np.isfinite(r["logt"])
     return out
 
 
