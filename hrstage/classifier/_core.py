@@ -284,24 +284,33 @@ def _draws(n_draws: int, seed):
     return z[0].astype(np.float32), z[1].astype(np.float32)
 
 
-#: stage codes counted in the packed one-hot table (all but unclassified, which is the remainder)
+#: stage codes counted in the packed one-hot tables (all but unclassified, which is the remainder)
 _PACKED = np.array([c for c in range(N_STAGES) if c != UNCLASSIFIED], dtype=np.intp)
 #: bits per packed stage and the most draws one pass may count (the counters must not overflow)
-_PACK_BITS = 64 // len(_PACKED)
+_PACK_BITS = 8
 _PACK_MAX = (1 << _PACK_BITS) - 1
+_PER_WORD = 64 // _PACK_BITS
 
 
-def _pack_lut():
-    slot = np.full(128, -1)
-    slot[_PACKED] = np.arange(len(_PACKED))
+def _pack_luts():
+    """One-hot tables, one per 64-bit word of 8 stage counters (9 counted stages: two words, the
+    second holding what does not fit in the first), with the stage slots of each word."""
     stage = np.arange(128) & RAW_STAGE
-    s = slot[stage]
-    lut = np.where(s >= 0, np.left_shift(np.uint64(1), (_PACK_BITS * np.maximum(s, 0)).astype(np.uint64)), np.uint64(0))
-    return lut.astype(np.uint64)
+    luts, slots = [], []
+    for w in range(0, len(_PACKED), _PER_WORD):
+        codes = _PACKED[w : w + _PER_WORD]
+        slot = np.full(16, -1)
+        slot[codes] = np.arange(len(codes))
+        s = slot[stage]
+        lut = np.where(s >= 0, np.left_shift(np.uint64(1), (_PACK_BITS * np.maximum(s, 0)).astype(np.uint64)),
+                       np.uint64(0))
+        luts.append(lut.astype(np.uint64))
+        slots.append(np.arange(w, w + len(codes)))
+    return luts, slots
 
 
-_PACK = _pack_lut()
-_SHIFTS = (_PACK_BITS * np.arange(len(_PACKED))).astype(np.uint64)
+_PACKS, _PACK_SLOTS = _pack_luts()
+_SHIFTS = (_PACK_BITS * np.arange(_PER_WORD)).astype(np.uint64)
 
 #: side (cells) of the blocks of the region-uniform raster used to skip draws
 UNIFORM_BLOCK = 16
@@ -438,8 +447,8 @@ def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 14):
     stage without drawing (exact). The others are drawn, in the order of their raster cell (so
     that neighbouring stars read neighbouring memory; the counts do not depend on the order), in
     chunks of about ``chunk`` star-draws in float32 index arithmetic on the flattened stage
-    raster; the stages are counted with a packed one-hot table (``_PACK_BITS`` bits per stage, at
-    most ``_PACK_MAX`` draws per pass) summed over the draws of each star.
+    raster; the stages are counted with packed one-hot tables (8 bits per stage in 64-bit words,
+    at most 255 draws per pass) summed over the draws of each star.
     """
     lk = sm.codes
     n, d = len(logt), len(z1)
@@ -521,9 +530,10 @@ def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
             np.copyto(j, x, casting="unsafe")
             i += j
             flat.take(i, out=c, mode="clip")  # indices are inside (clip: no buffered bounds check)
-            _PACK.take(c, out=pk, mode="clip")
-            pk.sum(axis=1, dtype=np.uint64, out=a)
-            sub_total += ((a[:, None] >> _SHIFTS[None, :]) & field).astype(np.int64)
+            for lut, sl in zip(_PACKS, _PACK_SLOTS):
+                lut.take(c, out=pk, mode="clip")
+                pk.sum(axis=1, dtype=np.uint64, out=a)
+                sub_total[:, sl] += ((a[:, None] >> _SHIFTS[None, : len(sl)]) & field).astype(np.int64)
         rr = todo[s:e]
         counts[np.ix_(rr, _PACKED)] = sub_total
         counts[rr, UNCLASSIFIED] = d - sub_total.sum(axis=1)
@@ -580,6 +590,16 @@ def _gather(lk, x, y, dx=0.0, dy=0.0):
 
 # post-main-sequence stages that a supplied mass >= M_sg turns into supergiant
 _POST_MS_PROMOTABLE = np.array([SUBGIANT, GIANT, BRIGHT_GIANT, SUPERGIANT], dtype=np.int8)
+
+def distinct_texts(a: float, b: float, spec: str = "+.{}f", digits=(2, 3, 4)):
+    """``a`` and ``b`` formatted with the fewest decimals (of ``digits``) that tell them apart, so
+    that a clipped value and its limit never print alike ("+0.18 ... +0.18")."""
+    for d in digits:
+        ta, tb = format(a, spec.format(d)), format(b, spec.format(d))
+        if ta != tb:
+            return ta, tb
+    return ta, tb
+
 
 def classify_hr(
     logt,
@@ -983,9 +1003,9 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
                              "extrapolated beyond the fits"),
         len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f"), (teff[ii] > 10000.0, None)))
     note("3zclip", zc, lambda ii: format_codes(
-        lambda fg, fu: f"[Fe/H]={fg:+.2f} outside the supported -2.30..+{FEH_HELD_MAX:.2f}: boundaries of "
-                       f"[Fe/H]={fu:+.2f} used",
-        len(ii), (feh_given[ii], "+.2f"), (feh_used[ii], "+.2f")))
+        lambda fg, fu: "[Fe/H]={} outside the supported -2.30..+{:.2f}: boundaries of [Fe/H]={} used".format(
+            distinct_texts(fg, fu)[0], FEH_HELD_MAX, distinct_texts(fg, fu)[1]),
+        len(ii), (feh_given[ii], "+.4f"), (feh_used[ii], "+.4f")))
     # near boundary
     near = (near_to >= 0) & finite
     F.or_flag(flags, near, F.NEAR_BOUNDARY)

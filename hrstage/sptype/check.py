@@ -405,6 +405,7 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
                           "sequence at the measured Teff (Kiel position)", reason)
     reason = reason.astype(object)
     hr_stage = _stage_check(verdict, reason, tt, inverse, logt, logl, et, el, feh, hr_ok)
+    _young_check(verdict, reason, tt, inverse, logt, logl, feh, hr_ok, hr_stage)
 
     checked = calibrated & hr_ok
     nsigma = np.where(checked, np.fmax(nt, nl), np.nan)
@@ -496,6 +497,26 @@ def _hr_stages(logt, logl, feh, idx) -> np.ndarray:
         f = float(fa) if fa.ndim == 0 else fa[idx]
     res = classify_hr(logt[idx], logl[idx], feh=f, n_draws=0, branches=False)
     return np.asarray(STAGES, dtype=object)[np.asarray(res.code, dtype=int)]
+
+
+#: luminosity classes young (contracting) stars are given while above the main sequence
+_YOUNG_CLASSES = ("V", "IV", "IV-V")
+
+
+def _young_check(verdict, reason, tt, inverse, logt, logl, feh, hr_ok, hr_stage) -> None:
+    """Young stars (in place): a class V or IV type in conflict with the class sequences, on a
+    ``pre_main_sequence`` position, is what a contracting star is given -- the class sequences are
+    those of old stars -- so it is ``consistent``, with the reason (common practice: T Tauri stars
+    are typed K-M V-IV, e.g. "K7Ve")."""
+    lc = tt["lumclass"][inverse].astype(str)
+    cand = np.flatnonzero(hr_ok & (verdict.astype(str) == "lumclass_conflict") & np.isin(lc, _YOUNG_CLASSES))
+    if not cand.size:
+        return
+    idx = cand[_hr_stages(logt, logl, feh, cand) == "pre_main_sequence"]
+    verdict[idx] = "consistent"
+    reason[idx] = ("young star: the HR position is pre_main_sequence, where contracting stars typed V-IV lie "
+                   "(the class sequences are those of old stars)")
+    hr_stage[idx] = "pre_main_sequence"
 
 
 def _stage_check(verdict, reason, tt, inverse, logt, logl, et, el, feh, hr_ok) -> np.ndarray:

@@ -220,3 +220,16 @@ def test_white_dwarfs_through_teff_and_luminosity(validation_file):
     ok = np.isfinite(logl) & (teff > 0)
     r = classify_hr(np.log10(teff[ok]), logl[ok])
     assert np.mean(r.stage == "white_dwarf") >= 0.995  # measured 0.997
+
+
+def test_mk_check_accepts_dwarf_types_of_young_stars():
+    # T Tauri stars are typed K-M V-IV while still above the main sequence (common practice, e.g.
+    # "K7Ve"): on a pre-main-sequence position that is no luminosity-class conflict; a giant type
+    # there, or a V type on a giant position, still is
+    from hrstage.sptype import check_types, parse_many
+
+    c = check_types(parse_many(["K7Ve", "K7III", "K0V"]), np.log10([3900.0, 3900.0, 4700.0]),
+                    np.array([-0.2, -0.2, 1.6]))
+    assert c.verdict[0] == "consistent" and c.hr_stage[0] == "pre_main_sequence" and "young" in c.reason[0]
+    assert c.verdict[1].endswith("conflict")
+    assert c.verdict[2].endswith("conflict")
