@@ -59,6 +59,14 @@ DESCRIPTIONS = {
 ALL_BITS = tuple(DESCRIPTIONS)
 
 
+def names(bits: int) -> list:
+    """Names of the set bits of one flag value (``["COOL_BUT_MASSIVE", "NO_METALLICITY"]``), in
+    bit order: the constants of this module."""
+    bits = int(bits)
+    table = {v: k for k, v in globals().items() if k.isupper() and isinstance(v, int) and v in DESCRIPTIONS}
+    return [table[b] for b in sorted(DESCRIPTIONS) if bits & b and b in table]
+
+
 def describe(bits: int) -> str:
     """Readable text for one flag value: the descriptions of its set bits, joined by '; '."""
     bits = int(bits)

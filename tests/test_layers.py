@@ -14,7 +14,7 @@ ROOT = Path(hrstage.__file__).parent
 
 #: module or package (dotted, under hrstage) -> layer, as in DEVELOPERS.md
 LAYERS = {
-    "_version": 0, "stages": 0, "flags": 0, "columns": 0, "errors": 0,
+    "_version": 0, "defaults": 0, "interrupts": 0, "stages": 0, "flags": 0, "columns": 0, "errors": 0,
     "models": 1, "stagemap": 2, "classifier": 3, "sptype": 4, "derive": 5, "catalog": 6,
     "engine": 7, "plot": 8, "report": 8, "cli": 8, "distributed": 8, "": 8,
 }

@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Iterable, Iterator
 
 from ..errors import HrstageInputError
+from ..interrupts import commit_section as _commit_section
 
 #: Marker in the names of our temporary files (tests look for leftovers with it).
 TEMP_MARK = ".hrstage-partial-"
@@ -75,7 +76,7 @@ def check_output_path(path, *, overwrite: bool = False, inputs: Iterable = ()) -
     ------
     HrstageInputError
         If the output is an input, exists without ``overwrite``, is a folder, or its folder is
-        missing.
+        missing or not writable.
     """
     out = Path(path)
     for inp in inputs:
@@ -88,7 +89,11 @@ def check_output_path(path, *, overwrite: bool = False, inputs: Iterable = ()) -
     if not out.parent.exists() and str(out.parent) not in ("", "."):
         raise HrstageInputError(f"folder of output {out} does not exist")
     if out.exists() and not overwrite:
-        raise HrstageInputError(f"output {out} already exists; pass overwrite=True (--overwrite) to replace it")
+        raise HrstageInputError(f"output {out} already exists; pass overwrite=True to replace it",
+                                cli=f"output {out} already exists; pass --overwrite to replace it")
+    folder = out.parent if str(out.parent) else Path(".")
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise HrstageInputError(f"cannot write {out}: no permission to create files in folder {folder}")
     return out
 
 
@@ -108,29 +113,38 @@ def atomic_output(path, *, overwrite: bool = False, inputs: Iterable = ()) -> It
     out = check_output_path(path, overwrite=overwrite, inputs=inputs)
     folder = out.parent if str(out.parent) else Path(".")
     suffix = "".join(out.suffixes) or ""
-    fd, tmp_name = tempfile.mkstemp(prefix="." + out.name + TEMP_MARK, suffix=suffix, dir=folder)
+    try:
+        fd, tmp_name = tempfile.mkstemp(prefix="." + out.name + TEMP_MARK, suffix=suffix, dir=folder)
+    except OSError as exc:      # read-only or special file system, no permission: the user's choice
+        raise HrstageInputError(f"cannot write {out}: cannot create a file in folder {folder} "
+                                f"({exc.strerror or exc})") from None
     os.close(fd)
     tmp = Path(tmp_name)
     try:
         yield tmp
         os.chmod(tmp, output_mode(out))
-        if overwrite:
-            os.replace(tmp, out)
-        else:
-            # link + unlink refuses to replace a file that appeared while we were writing
-            try:
-                os.link(tmp, out)
-            except FileExistsError:
-                raise HrstageInputError(
-                    f"output {out} appeared while writing; pass overwrite=True (--overwrite) to replace it"
-                ) from None
-            except OSError:
-                if out.exists():
-                    raise HrstageInputError(f"output {out} already exists") from None
-                os.replace(tmp, out)
-            else:
-                tmp.unlink()
+        with _commit_section():
+            _put_in_place(tmp, out, overwrite)
     finally:
         if tmp.exists():
             with contextlib.suppress(OSError):
                 tmp.unlink()
+
+
+def _put_in_place(tmp: Path, out: Path, overwrite: bool) -> None:
+    if overwrite:
+        os.replace(tmp, out)
+        return
+    # link + unlink refuses to replace a file that appeared while we were writing
+    try:
+        os.link(tmp, out)
+    except FileExistsError:
+        raise HrstageInputError(
+            f"output {out} appeared while writing; pass overwrite=True to replace it",
+            cli=f"output {out} appeared while writing; pass --overwrite to replace it") from None
+    except OSError:
+        if out.exists():
+            raise HrstageInputError(f"output {out} already exists") from None
+        os.replace(tmp, out)
+    else:
+        tmp.unlink()

@@ -46,8 +46,11 @@ FITS_META_KEYS = {
 }
 
 
-def format_of(path, fmt: str | None = None) -> str:
+def format_of(path, fmt: str | None = None, *, option: str = "--in-format") -> str:
     """Our format name for ``path`` (from ``fmt`` if given, else from the suffix).
+
+    ``option`` is the command-line option that names the format of this file (``--in-format``
+    or ``--out-format``), for the message when the suffix says nothing.
 
     Raises
     ------
@@ -67,8 +70,9 @@ def format_of(path, fmt: str | None = None) -> str:
     if suffixes and suffixes[-1] in SUFFIXES:
         return SUFFIXES[suffixes[-1]]
     known = ", ".join(sorted(SUFFIXES))
-    raise HrstageInputError(f"cannot tell the format of {p.name!r} from its suffix (known: {known}); "
-                            "pass the format explicitly")
+    start = f"cannot tell the format of {p.name!r} from its suffix (known: {known}); "
+    raise HrstageInputError(start + f"pass format= one of {', '.join(FORMATS)}",
+                            cli=start + f"name it with {option} ({'|'.join(FORMATS)})")
 
 
 def _check_readable(path: Path) -> None:
@@ -591,7 +595,7 @@ def write_table(table: Table, path, format: str | None = None, *, overwrite: boo
     pathlib.Path
         The written file.
     """
-    fmt = format_of(path, format)
+    fmt = format_of(path, format, option="--out-format")
     with atomic_output(path, overwrite=overwrite, inputs=inputs) as tmp:
         if fmt == "fits":
             _write_fits(table, tmp)

@@ -145,8 +145,11 @@ PROFILES = {
              "logl": ("logl", "log_l", "loglum", "log_lum", "logl_lsun", "log_lbol", "logl_bol"),
              "logl_err": ("logl_err", "e_logl", "e_log_l", "logl_error", "e_loglum"),
              "radius": ("radius", "rad", "r_rsun", "radius_rsun", "rstar", "r_star"),
-             "radius_err": ("radius_err", "e_radius", "e_rad", "radius_error", "e_rstar", "s_radius")},
-            ("teff_lum", "teff_radius", "teff_logg"),
+             "radius_err": ("radius_err", "e_radius", "e_rad", "radius_error", "e_rstar", "s_radius"),
+             # rows without parameters may carry Gaia photometry (archive names only): the last route
+             "g": ("phot_g_mean_mag",), "bp_rp": ("bp_rp",), "parallax": ("parallax",),
+             "parallax_err": ("parallax_error",)},
+            ("teff_lum", "teff_radius", "teff_logg", "gaia"),
         ),
         Profile(
             "gaia", "Gaia-like photometry G, BP-RP and parallax, optionally astrophysical parameters",
@@ -404,14 +407,33 @@ def detect_profile(infos, *, profile: str | None = None, explicit: dict | None =
         found_text = ", ".join(f"{r}={c}" for r, c in seen.items()) or "no column we know"
         names = [i.name for i in infos]
         shown = ", ".join(names[:20]) + (" ..." if len(names) > 20 else "")
-        raise HrstageInputError(
-            f"no column profile fits {source} (columns: {shown}): found {found_text}; " + "; ".join(report)
-            + "; name the columns with --col ROLE=NAME (Python: ROLE='NAME')"
-        )
+        start = f"no column profile fits {source} (columns: {shown}): found {found_text}; " + "; ".join(report)
+        raise HrstageInputError(start + "; name the columns with keywords ROLE='NAME' (e.g. teff='T_EFF')",
+                                cli=start + "; name the columns with --col ROLE=NAME (e.g. --col teff=T_EFF)")
     _, prof, roles, routes = best
     ordered = {r: roles[r] for r in ROLES if r in roles}
     notes = []
     for lin, log in (("teff", "logt"), ("lum", "logl")):
         if log in ordered and log not in explicit and lin not in ordered:
             notes.append(f"column {ordered[log]} has a log unit: used as {log}")
+    notes += _same_name_notes(ordered, explicit, infos)
     return ColumnMapping(prof.name, ordered, routes, tuple(explicit), notes)
+
+
+def _same_name_notes(roles: dict, explicit: dict, infos) -> list:
+    """Where two columns differ only in case or punctuation (``Teff`` and ``teff``) and detection
+    took one for a role, say which, and how to choose the other."""
+    used = set(roles.values())
+    groups = {}
+    for info in infos:
+        groups.setdefault(normalise(info.name), []).append(info.name)
+    notes = []
+    for role, col in roles.items():
+        if role in explicit:
+            continue
+        others = [n for n in groups.get(normalise(col), []) if n != col and n not in used]
+        if others:
+            alike = ", ".join([col, *others])
+            notes.append(f"columns {alike} all fit role {role}: {col} used "
+                         f"(choose another with --col {role}=NAME, in Python {role}='NAME')")
+    return notes

@@ -177,6 +177,11 @@ def column_values(col, role: str, words: dict | None = None) -> tuple[np.ndarray
     return vals, status
 
 
+def _remap_error(text: str, role: str, colname: str) -> HrstageInputError:
+    return HrstageInputError(f"{text}; map it to role {role} ({role}={colname!r})",
+                             cli=f"{text}; map it to role {role} (--col {role}={colname})")
+
+
 def check_scale(role: str, vals: np.ndarray, colname: str) -> None:
     """Whole-column checks: log given for linear and the reverse (raises with the fix)."""
     good = vals[np.isfinite(vals)]
@@ -186,17 +191,17 @@ def check_scale(role: str, vals: np.ndarray, colname: str) -> None:
     sample = good[:: -(-good.size // 16384)]
     med = float(np.median(sample))
     if role == "teff" and 2.5 < med < 5.5 and good.max() < 7.0:
-        raise HrstageInputError(f"column {colname} given as teff looks like log10 Teff (median {med:.3g}); "
-                                f"map it to role logt (--col logt={colname})")
+        raise _remap_error(f"column {colname} given as teff looks like log10 Teff (median {med:.3g})", "logt",
+                           colname)
     if role == "logt" and med > 100:
-        raise HrstageInputError(f"column {colname} given as logt looks like Teff in K (median {med:.4g}); "
-                                f"map it to role teff (--col teff={colname})")
+        raise _remap_error(f"column {colname} given as logt looks like Teff in K (median {med:.4g})", "teff",
+                           colname)
     if role == "lum" and np.mean(good < 0) > 0.10:
-        raise HrstageInputError(f"column {colname} given as lum has {np.mean(good < 0):.0%} negative values: "
-                                f"it looks like log10 L; map it to role logl (--col logl={colname})")
+        raise _remap_error(f"column {colname} given as lum has {np.mean(good < 0):.0%} negative values: "
+                           "it looks like log10 L", "logl", colname)
     if role == "logl" and good.max() > 8.0 and med > 3.0:
-        raise HrstageInputError(f"column {colname} given as logl reaches {good.max():.4g}: it looks like "
-                                f"L in Lsun; map it to role lum (--col lum={colname})")
+        raise _remap_error(f"column {colname} given as logl reaches {good.max():.4g}: it looks like "
+                           "L in Lsun", "lum", colname)
 
 
 def text_values(col) -> np.ndarray:

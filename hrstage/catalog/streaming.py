@@ -292,7 +292,7 @@ class ChunkWriter:
     def __init__(self, path, format: str | None = None, *, overwrite: bool = False, inputs=(), added=None,
                  added_dictionary=()):
         self.path = Path(path)
-        self.format = format_of(self.path, format)
+        self.format = format_of(self.path, format, option="--out-format")
         self._stack = contextlib.ExitStack()
         self._tmp = self._stack.enter_context(atomic_output(self.path, overwrite=overwrite, inputs=inputs))
         self._writer = None

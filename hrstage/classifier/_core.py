@@ -576,6 +576,16 @@ def _gather(lk, x, y, dx=0.0, dy=0.0):
 # post-main-sequence stages that a supplied mass >= M_sg turns into supergiant
 _POST_MS_PROMOTABLE = np.array([SUBGIANT, GIANT, BRIGHT_GIANT, SUPERGIANT], dtype=np.int8)
 
+def distinct_texts(a: float, b: float, spec: str = "+.{}f", digits=(2, 3, 4)):
+    """``a`` and ``b`` formatted with the fewest decimals (of ``digits``) that tell them apart, so
+    that a clipped value and its limit never print alike ("+0.18 ... +0.18")."""
+    for d in digits:
+        ta, tb = format(a, spec.format(d)), format(b, spec.format(d))
+        if ta != tb:
+            return ta, tb
+    return ta, tb
+
+
 def classify_hr(
     logt,
     logl,
@@ -961,9 +971,9 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
                              "extrapolated beyond the fits"),
         len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f"), (teff[ii] > 10000.0, None)))
     note("3zclip", zc, lambda ii: format_codes(
-        lambda fg, fu: f"[Fe/H]={fg:+.2f} outside the supported -2.30..+{FEH_HELD_MAX:.2f}: boundaries of "
-                       f"[Fe/H]={fu:+.2f} used",
-        len(ii), (feh_given[ii], "+.2f"), (feh_used[ii], "+.2f")))
+        lambda fg, fu: "[Fe/H]={} outside the supported -2.30..+{:.2f}: boundaries of [Fe/H]={} used".format(
+            distinct_texts(fg, fu)[0], FEH_HELD_MAX, distinct_texts(fg, fu)[1]),
+        len(ii), (feh_given[ii], "+.4f"), (feh_used[ii], "+.4f")))
     # near boundary
     near = (near_to >= 0) & finite
     F.or_flag(flags, near, F.NEAR_BOUNDARY)

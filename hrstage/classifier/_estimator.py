@@ -6,6 +6,7 @@ import numpy as np
 from sklearn.base import BaseEstimator, ClassifierMixin
 from sklearn.utils.validation import check_is_fitted, validate_data
 
+from ..defaults import DEFAULT_DRAWS, DEFAULT_SEED
 from ..stages import STAGES
 from ._core import classify_hr
 
@@ -25,7 +26,7 @@ class StageClassifier(ClassifierMixin, BaseEstimator):
     ----------
     feh : float or None, default 0.0
         [Fe/H] when X has no metallicity column (None: solar, flagged as assumed).
-    n_draws : int, default 0
+    n_draws : int, default :data:`hrstage.defaults.DEFAULT_DRAWS` (128)
         Monte Carlo draws for ``predict_proba`` (0: one-hot probabilities of the label).
     seed : int, default 20240601
         Seed of the common random numbers.
@@ -34,7 +35,7 @@ class StageClassifier(ClassifierMixin, BaseEstimator):
         classifier options.
     """
 
-    def __init__(self, feh=0.0, n_draws=0, seed=20240601, stage_params=None):
+    def __init__(self, feh=0.0, n_draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, stage_params=None):
         self.feh = feh
         self.n_draws = n_draws
         self.seed = seed

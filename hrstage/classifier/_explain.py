@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..defaults import DEFAULT_DRAWS, DEFAULT_SEED
 from ..errors import HrstageInputError
-from ..flags import describe
+from ..flags import DESCRIPTIONS, names as flag_names
 from ..stages import STAGES
 from ..stagemap import stage_map
 from ._core import FEH_GRID, _split_params, classify_hr
@@ -45,8 +46,17 @@ _RELEVANT = {
 }
 
 
+def _map_words(sm) -> str:
+    """The stage map in words and numbers (its metallicity and the masses that bound the stages)."""
+    z = f"Z = {sm.z:.4g}" + (" (clipped to the fits' range)" if sm.z_clipped else "")
+    used = "" if abs(sm.feh_used - sm.feh) < 5e-4 else f", boundaries of [Fe/H] = {sm.feh_used:+.3f}"
+    return (f"Stage map at [Fe/H] = {sm.feh:+.2f} ({z}{used}): supergiants from {sm.m_sg:.2f} Msun up; "
+            f"helium ignites at the giant-branch tip below {sm.m_fgb:.2f} Msun; stars below "
+            f"{sm.m_age:.3f} Msun have not left the main sequence within the age limit")
+
+
 def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=None, mass=None,
-                 n_draws: int = 256, seed=20240601, corr=None, **params) -> str:
+                 n_draws: int = DEFAULT_DRAWS, seed=DEFAULT_SEED, corr=None, **params) -> str:
     """Explain the label of one star: stage, probabilities, masses, flags and the boundaries.
 
     Parameters
@@ -63,7 +73,8 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
     feh, mass : float, optional
         [Fe/H] (dex) and a supplied mass (Msun).
     n_draws, seed : int
-        Monte Carlo draws and seed for the probabilities (when errors are given).
+        Monte Carlo draws and seed for the probabilities (when errors are given); default
+        :data:`hrstage.defaults.DEFAULT_DRAWS` (128).
 
     Returns
     -------
@@ -101,7 +112,7 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
     code = int(res.code[0])
     lines.insert(0, f"Star: Teff = {teff:.0f} K (log Teff {logt:.4f}), log L = {logl:.3f}"
                  + (f", [Fe/H] = {float(feh):+.2f}" if feh is not None else ", [Fe/H] not given (solar assumed)"))
-    lines.append(f"Stage map: {sm!r}")
+    lines.append(_map_words(sm))
     lines.append(f"Label: {STAGES[code]} -- {res.base_reason[0]}")
     pr = res.proba[0]
     order = np.argsort(pr)[::-1]
@@ -132,7 +143,9 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
                      + ("cooler" if sgn > 0 else "hotter") + " than the star")
     f = int(res.flags[0])
     if f:
-        lines.append(f"Flags {f}: {describe(f)}")
+        lines.append(f"Flags (value {f}):")
+        bit_of = {name: bit for bit, name in ((b, flag_names(b)[0]) for b in DESCRIPTIONS)}
+        lines += [f"  {name}: {DESCRIPTIONS[bit_of[name]]}" for name in flag_names(f)]
         if res.flag_text[0]:
             lines.append(f"Reasons: {res.flag_text[0]}")
     else:

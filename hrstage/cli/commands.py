@@ -7,10 +7,17 @@ import sys
 import traceback
 from pathlib import Path
 
-from .. import __version__
+from .._version import __version__
+from ..defaults import DEFAULT_DRAWS, DEFAULT_SEED, FEH_RANGE, check_feh
 from ..errors import HrstageInputError
+from ..interrupts import catch_interrupts, interrupt_requested
 
-EXIT_OK, EXIT_FAILURE, EXIT_USAGE = 0, 1, 2
+#: Exit status: success, failure of the run, user mistake, interrupted (128 + SIGINT, as shells
+#: report a command ended by Ctrl-C).
+EXIT_OK, EXIT_FAILURE, EXIT_USAGE, EXIT_INTERRUPTED = 0, 1, 2, 130
+#: The reader of standard output went away (``| head``): 128 + SIGPIPE, what a shell reports for a
+#: Unix tool stopped by it; no message.
+EXIT_BROKEN_PIPE = 141
 
 CAUTION_LINE = ("Labels are indicative: they come from the HR position and analytic stellar relations "
                 "and do not replace a spectroscopic analysis.")
@@ -58,6 +65,13 @@ def _nonneg_int(text: str) -> int:
     return n
 
 
+def _feh_value(text: str) -> float:
+    try:
+        return check_feh(text, "--feh")
+    except HrstageInputError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
+
+
 def _workers(text: str):
     if text.strip().lower() == "auto":
         return "auto"
@@ -75,13 +89,18 @@ def _add_column_options(p):
                    help="input format (default: from the suffix)")
 
 
-def _add_model_options(p, draws_default=0):
+FEH_HELP = (f"[Fe/H] in dex ({FEH_RANGE[0]:+g} .. {FEH_RANGE[1]:+g}) for stars without one "
+            "(default: solar, flagged)")
+DRAWS_HELP = (f"Monte Carlo draws per star over the errors for the stage probabilities (default {DEFAULT_DRAWS}; "
+              "0: point labels)")
+SEED_HELP = f"seed of the draws (default {DEFAULT_SEED})"
+
+
+def _add_model_options(p):
     g = p.add_argument_group("classification")
-    g.add_argument("--feh", type=float, default=None,
-                   help="[Fe/H] for stars without one (default: solar, flagged)")
-    g.add_argument("--draws", type=_nonneg_int, default=draws_default,
-                   help=f"Monte Carlo draws per star for stage probabilities (default {draws_default})")
-    g.add_argument("--seed", type=int, default=20240601, help="seed of the draws (default 20240601)")
+    g.add_argument("--feh", type=_feh_value, default=None, help=FEH_HELP)
+    g.add_argument("--draws", type=_nonneg_int, default=DEFAULT_DRAWS, help=DRAWS_HELP)
+    g.add_argument("--seed", type=int, default=DEFAULT_SEED, help=SEED_HELP)
     g.add_argument("--min-parallax-snr", type=float, default=5.0,
                    help="parallax/error below which luminosities are flagged unreliable (default 5)")
     g.add_argument("--parallax-zp", type=float, default=0.0,
@@ -186,7 +205,22 @@ def cmd_plot(args) -> int:
     return EXIT_OK
 
 
+def _verdict_lines(verdicts) -> list:
+    """Counts per MK-type verdict, most frequent first, in aligned columns."""
+    import numpy as np
+
+    names, counts = np.unique(np.asarray(verdicts, dtype=str), return_counts=True)
+    order = np.argsort(-counts, kind="stable")
+    labels = [str(names[i]).replace("_", " ") or "(no type)" for i in order]
+    width = max(len(t) for t in labels) if labels else 0
+    digits = max(len(str(int(counts[i]))) for i in order) if labels else 1
+    return [f"  {lab:<{width}}  {int(counts[i]):>{digits}}" for lab, i in zip(labels, order)]
+
+
 def cmd_check_types(args) -> int:
+    import numpy as np
+
+    from .. import flags as F
     from ..catalog import write_table
     from ..catalog.atomic import check_output_path
     from ..catalog.formats import describe_columns
@@ -197,22 +231,18 @@ def cmd_check_types(args) -> int:
     if "sptype_verdict" not in table.colnames:
         raise HrstageInputError(f"{Path(args.input).name} has no MK spectral-type column we recognise; "
                                 "name it with --col sptype=COLUMN")
-    verdict = [str(v) for v in table["sptype_verdict"]]
-    counts = {}
-    for v in verdict:
-        counts[v] = counts.get(v, 0) + 1
     _say(args, f"MK types of {len(table)} stars checked against their HR positions:")
-    for v, c in sorted(counts.items(), key=lambda kv: -kv[1]):
-        _say(args, f"  {v or '(no type)':<16} {c:>8}")
+    for line in _verdict_lines(table["sptype_verdict"]):
+        _say(args, line)
     if args.list_conflicts:
-        from .. import flags as F
-
         idcol = next((c for c in ("id", "name", "star", "target_id") if c in table.colnames), None)
-        bad = [i for i, f in enumerate(table["flags"]) if int(f) & F.SPTYPE_CONFLICT]
+        bad = np.flatnonzero(np.asarray(table["flags"], dtype=np.int64) & F.SPTYPE_CONFLICT)
         for i in bad[: args.list_conflicts]:
             who = table[idcol][i] if idcol else f"row {i}"
             _say(args, f"  {who}: catalogued {table['sptype_parsed'][i]} -> HR position suggests "
                        f"{table['sptype_suggested'][i]} ({table['sptype_nsigma'][i]:.1f} sigma)")
+        if bad.size > args.list_conflicts:
+            _say(args, f"  ... {bad.size - args.list_conflicts} more (--list-conflicts N shows more)")
     if args.output:
         describe_columns(table)
         write_table(table, args.output, overwrite=args.overwrite, inputs=[args.input])
@@ -234,15 +264,114 @@ def cmd_explain(args) -> int:
     return EXIT_OK
 
 
-def cmd_boundaries(args) -> int:
-    from ..catalog import write_table
+#: What each curve code of ``hrstage boundaries`` is (the ``curve_description`` column), for the
+#: codes the stage map's own labels describe too briefly; the others take the map's label.
+CURVE_WORDS = {
+    "zams": "zero-age main sequence: where stars of each mass start core hydrogen burning",
+    "ms_lower": "lower edge of the main-sequence region",
+    "ms_upper": "upper edge of the main-sequence region (end of core hydrogen burning, or the age limit)",
+    "binary_upper": "top of the band above the main sequence where unresolved binaries lie",
+    "tams": "terminal-age main sequence: end of core hydrogen burning",
+    "bgb": "base of the giant branch: where the Hertzsprung-gap crossing ends",
+    "ehg": "end of the Hertzsprung gap: subgiant / giant boundary",
+    "hei": "helium ignition: the tip of the giant branch (with a gap where the tracks change kind)",
+    "giant_tip": "giant-branch tip for stars that ignite helium at its top",
+    "agb": "asymptotic-giant-branch radius at the helium-ignition luminosity",
+    "sg_lower": "lower edge of the supergiant region (the track of the lowest supergiant mass)",
+    "bg_lower": "lower edge of the bright-giant region, below the supergiant edge",
+    "wd_min": "lower edge of the white-dwarf band (most massive white dwarfs)",
+    "wd_max": "upper edge of the white-dwarf band (least massive white dwarfs)",
+    "zahb": "zero-age horizontal branch: start of core helium burning of low-mass stars",
+    "hb_lower": "lower edge of the core-helium-burning band",
+    "hb_upper": "upper edge of the core-helium-burning band",
+}
+
+
+def boundaries_table(feh: float):
+    """The stage map's curves at ``feh`` with a ``curve_description`` column (words and source)."""
+    import numpy as np
+
     from ..stagemap import stage_map
 
-    table = stage_map(args.feh).to_table()
+    table = stage_map(feh).to_table()
+    labels = table.meta.get("curve_labels", {})
+    codes, inverse = np.unique(np.asarray(table["curve"], dtype=str), return_inverse=True)
+    words = []
+    for code in codes:
+        label = labels.get(str(code), "")
+        text = CURVE_WORDS.get(str(code))
+        words.append(f"{text} [{label}]" if text and label else (text or label or str(code)))
+    table.add_column(np.asarray(words, dtype=object)[inverse.reshape(-1)].astype(str), name="curve_description",
+                     index=1)
+    table["curve"].description = "Curve code (see curve_description and the curve_descriptions metadata)"
+    table["curve_description"].description = "What the curve is, and the relation it comes from"
+    table.meta["curve_descriptions"] = dict(zip((str(c) for c in codes), words))
+    return table
+
+
+def cmd_boundaries(args) -> int:
+    from ..catalog import write_table
+
+    table = boundaries_table(args.feh)
     table.meta["hrstage_caution"] = CAUTION_LINE
     write_table(table, args.output, format=args.out_format, overwrite=args.overwrite)
     _say(args, f"stage boundaries at [Fe/H] = {args.feh:+.2f} ({len(table)} rows) written to {args.output}")
     return EXIT_OK
+
+
+def _settings_of(table, extra: dict) -> dict:
+    """Settings shown in a report: ours plus what the tagged table's metadata says of its run."""
+    out = dict(extra)
+    for key in ("hrstage_profile", "hrstage_roles", "hrstage_options"):
+        if key in table.meta and key.removeprefix("hrstage_") not in out:
+            out[key.removeprefix("hrstage_")] = table.meta[key]
+    return out
+
+
+def _figure_and_report(table, *, title: str, figure_path, report_path, settings: dict, feh: float,
+                       overwrite: bool):
+    """Draw the HR diagram of a tagged table, write it to ``figure_path`` (if given) and the HTML
+    report (the same figure embedded) to ``report_path`` (if given)."""
+    from ..plot import hr_diagram, write_figure
+    from ..report import write_report
+
+    ax = hr_diagram(feh=feh, title=title, **_plot_arrays(table))
+    if figure_path is not None:
+        write_figure(ax, figure_path, overwrite=overwrite)
+    if report_path is not None:
+        write_report(table, report_path, title=title, settings=settings, overwrite=overwrite, figure=ax)
+
+
+def _title_of(path) -> str:
+    return f"Stage report: {Path(path).name}"
+
+
+def cmd_report(args) -> int:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from ..catalog.atomic import check_output_path
+
+    report = Path(args.output)
+    if report.suffix.lower() not in (".html", ".htm"):
+        raise HrstageInputError(f"{report.name}: the report is an HTML file; give -o a .html name")
+    figure = Path(args.figure) if args.figure else report.with_name(report.stem + "_hr.png")
+    if figure.suffix.lower() not in (".png", ".pdf", ".svg"):
+        raise HrstageInputError(f"--figure {figure.name}: expected a .png, .pdf or .svg name")
+    if figure.resolve() == report.resolve():
+        raise HrstageInputError("--figure and -o name the same file")
+    for target in (report, figure):     # before any work: nothing is written if one cannot be
+        check_output_path(target, overwrite=args.overwrite, inputs=[args.input])
+    table = _tagged_table(args)
+    title = args.title or _title_of(args.input)
+    settings = _settings_of(table, {"catalogue": Path(args.input).name, "draws": args.draws, "seed": args.seed})
+    _figure_and_report(table, title=title, figure_path=figure, report_path=report, settings=settings,
+                       feh=args.feh if args.feh is not None else 0.0, overwrite=args.overwrite)
+    _say(args, f"report on {len(table)} stars written to {report}")
+    _say(args, f"HR diagram: {figure}")
+    _say(args, CAUTION_LINE)
+    return EXIT_OK
+
 
 
 DEMO_NAME = "kestrel_targets.ecsv"
@@ -282,16 +411,14 @@ def cmd_demo(args) -> int:
     summary = classify_file(src, targets["table"], overwrite=args.overwrite, n_draws=args.draws,
                             seed=args.seed, progress=_progress_wanted(args))
     from ..catalog import read_table
-    from ..plot import hr_diagram, write_figure
-    from ..report import write_report
 
     tagged = read_table(targets["table"])
-    ax = hr_diagram(feh=0.0, title="Kestrel Deep Field targets (invented demo)", **_plot_arrays(tagged))
-    write_figure(ax, targets["figure"], overwrite=args.overwrite)
+    own = args.catalogue is None
+    title = "hrstage demo: Kestrel Deep Field target list (invented)" if own else f"hrstage demo: {src.name}"
     settings = {"catalogue": src.name, "draws": args.draws, "seed": args.seed, "columns": summary["mapping"]}
-    write_report(tagged, targets["report"], title="hrstage demo: Kestrel Deep Field target list (invented)",
-                 settings=settings, overwrite=args.overwrite)
-    print(f"demo catalogue: {src.name} (an invented target list; no real stars)")
+    _figure_and_report(tagged, title=title, figure_path=targets["figure"], report_path=targets["report"],
+                       settings=settings, feh=0.0, overwrite=args.overwrite)
+    print(f"demo catalogue: {src.name}" + (" (an invented target list; no real stars)" if own else ""))
     for line in _summary_lines(summary)[:-1]:
         print(line)
     print(f"HR diagram: {targets['figure']}")
@@ -301,11 +428,17 @@ def cmd_demo(args) -> int:
 
 
 # ------------------------------------------------------------------------------- parser
+FORMAT_NAMES = ["fits", "votable", "ecsv", "csv", "parquet"]
+INPUT_HELP = "catalogue (.fits, .vot/.xml, .ecsv, .csv, .parquet), tagged by 'hrstage classify' or not"
+QUIET_HELP = "print nothing but errors"
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="hrstage",
                 description="Evolutionary-stage labels for catalogue stars from their HR-diagram position. "
                             + CAUTION_LINE,
-                epilog="Exit status: 0 success, 1 failure of the run, 2 user mistake (one-line message).")
+                epilog="Exit status: 0 success, 1 failure of the run, 2 user mistake (one-line message), "
+                       "130 interrupted (Ctrl-C; nothing written, an earlier output left as it was).")
     p.add_argument("--version", action="version", version=f"hrstage {__version__}")
     p.add_argument("--traceback", action="store_true", help="show the full traceback of a failure")
     sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
@@ -317,8 +450,7 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("input", help="catalogue (.fits, .vot/.xml, .ecsv, .csv, .parquet)")
     c.add_argument("-o", "--output", required=True, help="tagged catalogue to write")
     c.add_argument("--overwrite", action="store_true", help="replace OUTPUT if it exists (never the input)")
-    c.add_argument("--out-format", choices=["fits", "votable", "ecsv", "csv", "parquet"],
-                   help="output format (default: from the suffix)")
+    c.add_argument("--out-format", choices=FORMAT_NAMES, help="output format (default: from the suffix)")
     c.add_argument("--chunk-rows", type=_positive_int, default=None,
                    help="rows per chunk; peak memory follows it (default 100000)")
     c.add_argument("--workers", type=_workers, default=1, metavar="N|auto",
@@ -332,31 +464,48 @@ def build_parser() -> argparse.ArgumentParser:
                         "comma-separated names (stage and flags always come)")
     c.add_argument("-q", "--quiet", action="store_true", help="no summary, no progress bar")
     _add_column_options(c)
-    _add_model_options(c, draws_default=128)
+    _add_model_options(c)
     c.set_defaults(func=cmd_classify)
 
     pl = sub.add_parser("plot", help="draw the HR diagram of a catalogue",
                         description="Draw an annotated HR diagram (stage regions, boundaries, flagged stars). "
                                     "An untagged INPUT is classified first, in memory.")
-    pl.add_argument("input")
+    pl.add_argument("input", help=INPUT_HELP)
     pl.add_argument("-o", "--output", required=True, help="figure file (.png, .pdf, .svg)")
-    pl.add_argument("--overwrite", action="store_true")
+    pl.add_argument("--overwrite", action="store_true", help="replace the figure if it exists")
     pl.add_argument("--color-by", default="stage", help="column that sets the colours (default stage)")
-    pl.add_argument("--title", default=None)
-    pl.add_argument("-q", "--quiet", action="store_true")
+    pl.add_argument("--title", default=None, help="title of the figure (default: the input's file name)")
+    pl.add_argument("-q", "--quiet", action="store_true", help=QUIET_HELP)
     _add_column_options(pl)
     _add_model_options(pl)
     pl.set_defaults(func=cmd_plot)
 
+    r = sub.add_parser("report", help="write the HTML report and the HR diagram of a catalogue",
+                       description="Write an HTML report (stage counts, cautions, flagged stars, settings, "
+                                   "the HR diagram) and the HR diagram as a figure file, for a catalogue "
+                                   "tagged by 'hrstage classify' or not (an untagged INPUT is classified "
+                                   "first, in memory). Titled from INPUT unless --title is given. "
+                                   + CAUTION_LINE)
+    r.add_argument("input", help=INPUT_HELP)
+    r.add_argument("-o", "--output", required=True, metavar="REPORT.html", help="HTML report to write")
+    r.add_argument("--figure", default=None, metavar="FILE",
+                   help="HR diagram to write as well (.png, .pdf, .svg; default: REPORT_hr.png beside the report)")
+    r.add_argument("--title", default=None, help="title of the report and figure (default: from INPUT's file name)")
+    r.add_argument("--overwrite", action="store_true", help="replace the report and figure if they exist")
+    r.add_argument("-q", "--quiet", action="store_true", help=QUIET_HELP)
+    _add_column_options(r)
+    _add_model_options(r)
+    r.set_defaults(func=cmd_report)
+
     k = sub.add_parser("check-types", help="check catalogued MK spectral types against HR positions",
                        description="Compare each catalogued MK type (its luminosity class) with the stage "
                                    "of the star's HR position; print the verdict counts.")
-    k.add_argument("input")
+    k.add_argument("input", help=INPUT_HELP)
     k.add_argument("-o", "--output", default=None, help="also write the checked catalogue")
-    k.add_argument("--overwrite", action="store_true")
+    k.add_argument("--overwrite", action="store_true", help="replace OUTPUT if it exists (never the input)")
     k.add_argument("--list-conflicts", type=_nonneg_int, default=10, metavar="N",
                    help="print the first N conflicting stars (default 10, 0 for none)")
-    k.add_argument("-q", "--quiet", action="store_true")
+    k.add_argument("-q", "--quiet", action="store_true", help=QUIET_HELP)
     _add_column_options(k)
     _add_model_options(k)
     k.set_defaults(func=cmd_check_types)
@@ -366,63 +515,135 @@ def build_parser() -> argparse.ArgumentParser:
                                    "stage, with the numbers behind each flag.")
     e.add_argument("--teff", type=float, required=True, help="effective temperature (K)")
     e.add_argument("--lum", type=float, default=None, help="luminosity (Lsun)")
-    e.add_argument("--teff-err", type=float, default=None)
-    e.add_argument("--lum-err", type=float, default=None)
+    e.add_argument("--teff-err", type=float, default=None, help="1-sigma error of Teff (K)")
+    e.add_argument("--lum-err", type=float, default=None, help="1-sigma error of the luminosity (Lsun)")
     e.add_argument("--logg", type=float, default=None, help="log g (cgs), used when --lum is not given")
     e.add_argument("--mass", type=float, default=None, help="known mass (Msun)")
-    e.add_argument("--feh", type=float, default=None, help="[Fe/H] (default solar)")
-    e.add_argument("--draws", type=_nonneg_int, default=1000, help="Monte Carlo draws (default 1000)")
-    e.add_argument("--seed", type=int, default=20240601)
+    e.add_argument("--feh", type=_feh_value, default=None,
+                   help=f"[Fe/H] in dex ({FEH_RANGE[0]:+g} .. {FEH_RANGE[1]:+g}; default: solar, flagged)")
+    e.add_argument("--draws", type=_nonneg_int, default=DEFAULT_DRAWS, help=DRAWS_HELP)
+    e.add_argument("--seed", type=int, default=DEFAULT_SEED, help=SEED_HELP)
     e.set_defaults(func=cmd_explain)
 
     b = sub.add_parser("boundaries", help="export the stage boundaries",
-                       description="Write the stage-boundary curves at one metallicity as a table.")
+                       description="Write the stage-boundary curves at one metallicity as a table: one row "
+                                   "per curve point (curve code, what the curve is, initial mass, log Teff, "
+                                   "log L).")
     b.add_argument("-o", "--output", required=True, help="table file (.ecsv, .csv, .fits, .vot, .parquet)")
-    b.add_argument("--feh", type=float, default=0.0, help="[Fe/H] (default 0)")
-    b.add_argument("--out-format", choices=["fits", "votable", "ecsv", "csv", "parquet"])
-    b.add_argument("--overwrite", action="store_true")
-    b.add_argument("-q", "--quiet", action="store_true")
+    b.add_argument("--feh", type=_feh_value, default=0.0,
+                   help=f"[Fe/H] in dex ({FEH_RANGE[0]:+g} .. {FEH_RANGE[1]:+g}; default 0)")
+    b.add_argument("--out-format", choices=FORMAT_NAMES, help="output format (default: from the suffix)")
+    b.add_argument("--overwrite", action="store_true", help="replace OUTPUT if it exists")
+    b.add_argument("-q", "--quiet", action="store_true", help=QUIET_HELP)
     b.set_defaults(func=cmd_boundaries)
 
     d = sub.add_parser("demo", help="run the bundled invented demo catalogue",
                        description="Classify the bundled demo catalogue (an invented planet-search target "
-                                   "list, no real stars) and write DIR/demo_tagged.ecsv, DIR/hr_diagram.png "
-                                   "and DIR/report.html.")
+                                   "list, no real stars), or the one given with --catalogue, and write "
+                                   "DIR/demo_tagged.ecsv, DIR/hr_diagram.png and DIR/report.html.")
     d.add_argument("--out", required=True, metavar="DIR", help="folder for the results (created)")
     d.add_argument("--overwrite", action="store_true", help="replace earlier demo results in DIR")
-    d.add_argument("--draws", type=_nonneg_int, default=200, help="Monte Carlo draws per star (default 200)")
-    d.add_argument("--seed", type=int, default=20240601)
-    d.add_argument("--catalogue", default=None, help="use this catalogue instead of the bundled one")
+    d.add_argument("--draws", type=_nonneg_int, default=DEFAULT_DRAWS, help=DRAWS_HELP)
+    d.add_argument("--seed", type=int, default=DEFAULT_SEED, help=SEED_HELP)
+    d.add_argument("--catalogue", default=None, metavar="PATH",
+                   help="use this catalogue instead of the bundled one (the report is titled from it)")
     d.set_defaults(func=cmd_demo)
     return p
 
 
+#: Characters that are not shown as themselves in a message: control characters (raw bytes of a
+#: binary file, terminal escapes) and the bidirectional-text controls (U+202A..U+202E,
+#: U+2066..U+2069, U+200E/U+200F, U+061C), which can reorder what a terminal shows.
+_BIDI = set("\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069\u200e\u200f\u061c")
+
+
+def printable(text: str) -> str:
+    """``text`` with every non-printable or bidirectional-control character written as an escape
+    (``\\x00``, ``\\u202e``), so a message shows what the file holds, safely, on one line."""
+    if text.isprintable() and not (_BIDI & set(text)):
+        return text
+    out = []
+    for ch in text:
+        if ch.isprintable() and ch not in _BIDI:
+            out.append(ch)
+        else:
+            code = ord(ch)
+            out.append(f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}" if code < 0x10000 else f"\\U{code:08x}")
+    return "".join(out)
+
+
+def _error(text: str) -> None:
+    print(f"hrstage: error: {printable(text)}", file=sys.stderr)
+
+
+def _quiet_broken_pipe() -> None:
+    """The reader of our standard output went away (``hrstage explain ... | head``): stop quietly,
+    as Unix tools do; what is left in Python's buffer goes nowhere instead of raising at exit."""
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
 def run(argv) -> int:
+    with catch_interrupts():
+        try:
+            return _run(argv)
+        except KeyboardInterrupt:       # e.g. while the modules of the command are imported
+            return _interrupted()
+
+
+def _interrupted() -> int:
+    print("hrstage: interrupted; nothing written (an earlier output is left as it was)", file=sys.stderr)
+    return EXIT_INTERRUPTED
+
+
+def _run(argv) -> int:
     parser = build_parser()
     want_tb = "--traceback" in argv
     argv = [a for a in argv if a != "--traceback"]   # accepted anywhere on the line
     try:
-        args = parser.parse_args(argv)
-    except _UsageError as exc:
-        print(f"hrstage: error: {exc}", file=sys.stderr)
-        return EXIT_USAGE
-    except SystemExit as exc:          # --help / --version
-        return int(exc.code or 0)
-    if not getattr(args, "command", None):
-        parser.print_help()
-        return EXIT_USAGE
-    try:
-        return args.func(args)
-    except HrstageInputError as exc:
-        print(f"hrstage: error: {exc}", file=sys.stderr)
-        return EXIT_USAGE
+        try:
+            args = parser.parse_args(argv)
+        except _UsageError as exc:
+            _error(str(exc))
+            return EXIT_USAGE
+        except SystemExit as exc:          # --help / --version
+            return int(exc.code or 0)
+        if not getattr(args, "command", None):
+            parser.print_help()
+            return EXIT_USAGE
+        try:
+            code = args.func(args)
+            sys.stdout.flush()
+            return code
+        except HrstageInputError as exc:
+            if interrupt_requested():
+                return _interrupted()
+            _error(exc.cli_message())
+            return EXIT_USAGE
+        except PermissionError as exc:      # an input we may not read, a folder we may not write in
+            if interrupt_requested():
+                return _interrupted()
+            _error(f"permission denied: {exc.filename or exc}")
+            return EXIT_USAGE
+    except BrokenPipeError:
+        _quiet_broken_pipe()
+        return EXIT_BROKEN_PIPE
     except KeyboardInterrupt:
-        print("hrstage: interrupted; no output written", file=sys.stderr)
-        return EXIT_FAILURE
+        return _interrupted()
     except Exception as exc:  # a bug or a system problem: one line unless --traceback
+        if interrupt_requested():
+            # what a Ctrl-C breaks on its way (a half-imported module, a generator left
+            # running) is the interrupt, not a failure; no output was put in place after it
+            return _interrupted()
         if want_tb:
             traceback.print_exc()
         text = str(exc).strip().splitlines()
-        print(f"hrstage: failed: {type(exc).__name__}: {text[0] if text else ''} "
+        print(f"hrstage: failed: {type(exc).__name__}: {printable(text[0]) if text else ''} "
               "(run again with --traceback for details)", file=sys.stderr)
         return EXIT_FAILURE

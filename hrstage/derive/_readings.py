@@ -24,12 +24,13 @@ probabilities of both (see ``docs/derive.md``).
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 
 from ..models import bolometric, montreal_wd, pecaut_mamajek2013
 from ._constants import LN10
-from ._errors import Propagator, derivative
+from ._errors import Propagator
 
 #: minimum probability of the other reading for it to be reported (and TWO_READINGS flagged)
 P_AMBIGUOUS = 0.05
@@ -56,26 +57,85 @@ def _ndtr(x):
     return ndtr(x)
 
 
-def edge_screen(colour, abs_mag, sig_m):
-    """Cheap pre-selection of the rows that may have a white-dwarf reading (a linear bound under
-    the bright edge, 1 mag or 3 sigma of margin): only these are read through the grid."""
-    bound = 9.6 + 3.0 * colour - np.maximum(1.0, 3.0 * sig_m)
-    return (abs_mag > bound) & (colour < 1.7) & (colour > -0.8)
+@lru_cache(maxsize=None)
+def _edge_nodes(system):
+    """The bright edge of the white-dwarf reading (log g 6.5, brighter of DA and DB) on a colour grid."""
+    c = np.linspace(-0.7, 1.8, 101)
+    m = np.fmin(montreal_wd.sequence_mag(c, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere="H", system=system),
+                montreal_wd.sequence_mag(c, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere="He", system=system))
+    ok = np.isfinite(m)
+    return c[ok], m[ok]
 
 
-def _position(logt_fn, bc_fn, c, m, sig_c, sig_m, sig_lt_sys, sig_bc_sys, mbol_sun):
-    """(logt, logl, logt_err, logl_err, corr) of a reading given as functions of (colour, M)."""
-    logt = logt_fn(c, m)
-    bc = bc_fn(c, m)
+def quick_screen(colour, abs_mag, p_sig, plx, sig_m_dist=None, system="gaia"):
+    """Rows that may need another reading, from a bound that costs a few passes over the arrays:
+    Gaia (BP-RP)_0 < 0.20 (the hot-star and hot-subdwarf readings), or fainter than a line under
+    the white-dwarf edge (Gaia: M_G > 9.8 + 2.7 (BP-RP)_0, below the log g 6.5 sequences of both
+    grids for 0.2 <= BP-RP <= 1.8; Johnson: M_V > 8.0 + 4.0 (B-V)_0, and > 4.5 bluer than -0.25, under
+    the edge at every B-V of the grids) minus a margin
+    of max(1 mag, 3 sigma of the distance term). ``sig_m_dist``: that sigma if known on every row,
+    else it follows from the parallax error ``p_sig`` and parallax ``plx`` (mas). NaN rows are never
+    selected."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        if system == "gaia":
+            gap = 2.7 * colour
+            gap += 9.8
+        else:
+            gap = 4.0 * colour
+            gap += 8.0
+            np.copyto(gap, 4.5, where=colour < -0.25)
+        gap -= abs_mag                       # > 0: brighter than the line by that much
+        near = gap < 1.0
+        if sig_m_dist is not None:
+            near |= gap < 3.0 * sig_m_dist
+        else:                                # gap < 3 (5 / ln 10) p_sig / plx, without dividing
+            gap *= plx
+            near |= gap < (3.0 * 5.0 / math.log(10.0)) * p_sig
+        if system == "gaia":
+            near |= colour < HOT_GAIA_LIMIT
+        return near
+
+
+def edge_screen(colour, abs_mag, sig_m, system="gaia"):
+    """Cheap pre-selection of the rows that may have a white-dwarf reading: fainter than the bright
+    edge of the reading minus 1 mag or 3 sigma, inside its colour span. Only these rows are read
+    through the grid (one interpolation per row)."""
+    c, m = _edge_nodes(system)
+    edge = np.interp(colour, c, m)
+    return (abs_mag > edge - np.maximum(1.0, 3.0 * sig_m)) & (colour >= c[0] - 0.1) & (colour <= c[-1])
+
+
+def _slopes(fn, c, m, h=1e-3):
+    """``fn(c, m) -> (logt, bc)`` and its partial derivatives, in one batched evaluation of 3 n
+    points (forward differences: exact inside a segment of the interpolated tables); where the
+    forward point falls off a table, the backward difference on those rows; 0 where neither exists."""
+    n = c.size
+    vals = fn(np.concatenate([c, c + h, c]), np.concatenate([m, m, m + h]))
+    outs = []
+    for v in vals:
+        v0, vc, vm = v[:n], v[n:2 * n], v[2 * n:]
+        outs.append([v0, (vc - v0) / h, (vm - v0) / h])
+    fin0 = np.isfinite(outs[0][0])
+    redo_c = np.flatnonzero(fin0 & ~(np.isfinite(outs[0][1]) & np.isfinite(outs[1][1])))
+    redo_m = np.flatnonzero(fin0 & ~(np.isfinite(outs[0][2]) & np.isfinite(outs[1][2])))
+    if redo_c.size or redo_m.size:
+        back = fn(np.concatenate([c[redo_c] - h, c[redo_m]]), np.concatenate([m[redo_c], m[redo_m] - h]))
+        for o, v in zip(outs, back):
+            o[1][redo_c] = (o[0][redo_c] - v[:redo_c.size]) / h
+            o[2][redo_m] = (o[0][redo_m] - v[redo_c.size:]) / h
+    for o in outs:
+        o[1] = np.where(np.isfinite(o[1]), o[1], 0.0)
+        o[2] = np.where(np.isfinite(o[2]), o[2], 0.0)
+    return [tuple(o) for o in outs]
+
+
+def _position(fn, c, m, sig_c, sig_m, sig_lt_sys, sig_bc_sys, mbol_sun):
+    """(logt, logl, logt_err, logl_err, corr) of a reading given as ``fn(colour, M) -> (logt, bc)``."""
+    (logt, dlt_dc, dlt_dm), (bc, dbc_dc, dbc_dm) = _slopes(fn, c, m)
     logl = bolometric.logl_from_mbol(m + bc, mbol_sun)
-    dlt_dc = derivative(lambda x: logt_fn(x, m), c, 1e-3, f0=logt)
-    dlt_dm = derivative(lambda x: logt_fn(c, x), m, 1e-3, f0=logt)
-    dbc_dc = derivative(lambda x: bc_fn(x, m), c, 1e-3, f0=bc)
-    dbc_dm = derivative(lambda x: bc_fn(c, x), m, 1e-3, f0=bc)
-    fix = lambda a: np.where(np.isfinite(a), a, 0.0)  # noqa: E731 - edge of a table: no slope known
     prop = Propagator(c.size)
-    prop.add(sig_c, fix(dlt_dc), -0.4 * fix(dbc_dc))
-    prop.add(sig_m, fix(dlt_dm), -0.4 * (1.0 + fix(dbc_dm)))
+    prop.add(sig_c, dlt_dc, -0.4 * dbc_dc)
+    prop.add(sig_m, dlt_dm, -0.4 * (1.0 + dbc_dm))
     prop.add(sig_lt_sys, 1.0, 0.0)
     prop.add(sig_bc_sys, 0.0, -0.4)
     elt, ell, corr = prop.result()
@@ -92,15 +152,16 @@ def white_dwarf(c, m, sig_c, sig_m, *, system, release, atmosphere):
     else:
         cg, mg = c, m
 
-    def logt_fn(x, y):
-        return np.log10(montreal_wd.read(x, y, atmosphere=atmosphere, system=system)["teff"])
+    def fn(x, y):
+        r = montreal_wd.read(x, y, atmosphere=atmosphere, system=system)
+        return np.log10(r["teff"]), r["bc"]
 
-    def bc_fn(x, y):
-        return montreal_wd.read(x, y, atmosphere=atmosphere, system=system)["bc"]
+    def grid_values(x, y):
+        r = montreal_wd.read(x, y, atmosphere=atmosphere, system=system)
+        return r["mass"], r["logg"], r["extrapolated"]
 
-    base = montreal_wd.read(cg, mg, atmosphere=atmosphere, system=system)
     out = dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
-                   _position(logt_fn, bc_fn, cg, mg, sig_c, sig_m, montreal_wd.SIGMA_TEFF_FRAC / LN10,
+                   _position(fn, cg, mg, sig_c, sig_m, montreal_wd.SIGMA_TEFF_FRAC / LN10,
                              montreal_wd.SIGMA_BC, bolometric.IAU_MBOL_SUN)))
     edge = montreal_wd.sequence_mag(cg, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere=atmosphere, system=system)
     s = np.hypot(sig_m, _EDGE_SLOPE * sig_c)
@@ -108,7 +169,35 @@ def white_dwarf(c, m, sig_c, sig_m, *, system, release, atmosphere):
         z = np.where(s > 0, (mg - edge) / s, np.where(mg >= edge, np.inf, -np.inf))
     p = _ndtr(z)
     out["p"] = np.where(np.isfinite(edge), p, np.where(np.isfinite(out["logt"]), 1.0, 0.0))
-    out.update(mass=base["mass"], logg=base["logg"], extrapolated=base["extrapolated"])
+    mass, logg, extrapolated = grid_values(cg, mg)
+    out.update(mass=mass, logg=logg, extrapolated=extrapolated)
+    # brighter than the edge, yet within the errors of it: the white-dwarf share of the probability
+    # lies on the white-dwarf side, near the edge; its position is read at the edge ("clamped"), to
+    # serve only as the other reading
+    out["clamped"] = np.zeros(c.size, dtype=bool)
+    missing = ~np.isfinite(out["logt"]) & np.isfinite(edge)
+    near = np.flatnonzero(missing & (mg < edge) & (out["p"] >= P_AMBIGUOUS))
+    # fainter than the log g 9.5 sequence (beyond the grid's extrapolation): read at that faint edge,
+    # flagged as extrapolated -- still a white dwarf, not a reason to try a main-sequence relation
+    faint_edge = montreal_wd.sequence_mag(cg, montreal_wd.LOGG_EXTRAPOLATE[1], atmosphere=atmosphere, system=system)
+    faint = np.flatnonzero(missing & np.isfinite(faint_edge) & (mg > faint_edge))
+    for rows, at, clamp in ((near, edge, True), (faint, faint_edge, False)):
+        if not rows.size:
+            continue
+        shift = 1e-6 if clamp else -1e-6
+        r = dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
+                     _position(fn, cg[rows], at[rows] + shift, sig_c[rows], sig_m[rows],
+                               montreal_wd.SIGMA_TEFF_FRAC / LN10, montreal_wd.SIGMA_BC, bolometric.IAU_MBOL_SUN)))
+        if not clamp:   # L from the star's own magnitude, with the BC at the faint edge
+            r["logl"] = r["logl"] - 0.4 * (mg[rows] - at[rows] - shift)
+            mass, logg, _ = grid_values(cg[rows], at[rows] + shift)
+            out["mass"][rows] = mass
+            out["logg"][rows] = logg
+            out["extrapolated"][rows] = True
+        for key, val in r.items():
+            out[key][rows] = val
+        if clamp:
+            out["clamped"][rows] = np.isfinite(r["logt"])
     return out
 
 
@@ -116,15 +205,12 @@ def hot_star(c, m, sig_c, sig_m):
     """Gaia hot-star reading (Pecaut & Mamajek 2013 dwarf sequence) on the given rows."""
     pm = pecaut_mamajek2013
 
-    def logt_fn(x, y):
-        return np.log10(pm.teff_from_bp_rp(x))
-
-    def bc_fn(x, y):
-        return pm.bc_g(x)
+    def fn(x, y):
+        return np.log10(pm.teff_from_bp_rp(x)), pm.bc_g(x)
 
     sig_bc = math.hypot(pm.SIGMA_BC, pm.SIGMA_GV)
     return dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
-                    _position(logt_fn, bc_fn, c, m, sig_c, sig_m, pm.SIGMA_TEFF_FRAC / LN10, sig_bc,
+                    _position(fn, c, m, sig_c, sig_m, pm.SIGMA_TEFF_FRAC / LN10, sig_bc,
                               bolometric.IAU_MBOL_SUN)))
 
 
@@ -132,12 +218,10 @@ def hot_subdwarf(c, m, sig_c, sig_m, *, release):
     """Gaia hot-subdwarf reading: colour scale of the log g = 7 DA sequence (approximate)."""
     cg, mg = montreal_wd.to_grid_passbands(c, m, release)
 
-    def logt_fn(x, y):
-        return np.log10(montreal_wd.at_logg(x, 7.0)[0])
-
-    def bc_fn(x, y):
-        return montreal_wd.at_logg(x, 7.0)[1]
+    def fn(x, y):
+        t, bc = montreal_wd.at_logg(x, 7.0)
+        return np.log10(t), bc
 
     return dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
-                    _position(logt_fn, bc_fn, cg, mg, sig_c, sig_m, SUBDWARF_SIGMA_TEFF_FRAC / LN10,
+                    _position(fn, cg, mg, sig_c, sig_m, SUBDWARF_SIGMA_TEFF_FRAC / LN10,
                               SUBDWARF_SIGMA_BC, bolometric.IAU_MBOL_SUN)))

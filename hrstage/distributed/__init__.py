@@ -46,6 +46,7 @@ from pathlib import Path
 import numpy as np
 
 from ..columns import COLUMNS
+from ..defaults import DEFAULT_DRAWS
 from ..errors import HrstageInputError
 
 __all__ = [
@@ -329,7 +330,7 @@ def classify_dask(ddf, *, column_attrs: dict | None = None, **options):
     """
     _dask_dataframe()
     meta = output_meta(ddf, column_attrs=column_attrs, **options)
-    offsets = _partition_offsets(ddf) if int(options.get("n_draws", options.get("draws", 0)) or 0) > 0 else None
+    offsets = _partition_offsets(ddf) if int(options.get("n_draws", options.get("draws", DEFAULT_DRAWS)) or 0) > 0 else None
     kernel = partial(_classify_numbered, offsets=offsets, column_attrs=column_attrs, **options)
     return ddf.map_partitions(kernel, meta=meta, enforce_metadata=False)
 

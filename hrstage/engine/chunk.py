@@ -97,7 +97,8 @@ def classify_table(table, **options):
         ``profile`` (``"direct"``, ``"gaia"``, ``"johnson"``, ``"spectroscopic"``, ``"none"``);
         role names as keywords to name columns (``teff="TEFF"``, ``lum="LUM"``, ``sptype="SpT"``)
         or ``columns={role: name}``; ``feh`` (a column name, or a number for rows without one);
-        ``n_draws`` (Monte Carlo draws for probabilities, default 0), ``seed``;
+        ``n_draws`` (Monte Carlo draws for probabilities, default
+        :data:`hrstage.defaults.DEFAULT_DRAWS` = 128), ``seed``;
         ``min_parallax_snr`` (default 5), ``parallax_zp`` (mas, subtracted), ``r_v``;
         ``prefix`` for our column names; ``check_sptypes`` (default True); ``params`` (dict for
         :func:`hrstage.classifier.classify_hr`); ``add_columns`` (``"all"``, the default;

@@ -31,6 +31,7 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     values, status = extract_roles(sub, mapping, words, skip=UNUSED_ROLES)
     if n == 0:
         return {c: np.zeros(0, dtype=column_dtype(c)) for c in our_columns(opts)}
+    bad_errors = _bad_errors(status)       # before the log L error's status is rewritten below
     if "logl" in values or "lum" in values:
         values["logl"], values["logl_err"], status["logl"] = log_lum(values, status)
         status["logl_err"] = np.where(np.isfinite(values["logl_err"]), OK, MISSING).astype(np.int8)
@@ -90,6 +91,7 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     mix_other_reading(cols, pos, lambda rows, *hr: classify_hr(  # two photometric readings: mixed probabilities
         hr[0], hr[1], logt_err=hr[2], logl_err=hr[3], corr=hr[4], n_draws=opts.n_draws,
         feh=feh_clf if np.ndim(feh_clf) == 0 else feh_clf[rows], seed=chunk_seed(opts.seed, offset), **opts.params))
+    err_note = _no_false_certainty(cols, bad_errors, done, mapping, in_flags)
     extra_bits = in_flags | pos.flags
     flags_all = np.asarray(cols.get("flags", np.zeros(n, dtype=np.int64)), dtype=np.int64) | extra_bits
     # readable text: our reasons first, then the classifier's, then the bits nobody described
@@ -108,7 +110,7 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     cols["flags"] = flags_all
     wanted = our_columns(opts, sptype="sptype_verdict" in cols)
     if "flag_text" in wanted:   # the reasons are formatted only when they are written
-        notes = [(not_done, reason_text), *res.flag_notes(), *own_notes]
+        notes = [(not_done, reason_text), *err_note, *res.flag_notes(), *own_notes]
         cols["flag_text"] = CodedText(*join_coded(n, notes))
     out = {}
     for c in wanted:
@@ -119,6 +121,50 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
                 v = v.astype(want)
             out[c] = v
     return out
+
+
+def _bad_errors(status) -> dict:
+    """``{role: rows}`` of the uncertainty columns whose value is no uncertainty (negative,
+    infinite, or a word); a missing error is not one of them (the row gets a point label)."""
+    out = {}
+    for role, st in status.items():
+        if role.endswith("_err"):
+            bad = (st == NONPHYSICAL) | (st == NOT_A_NUMBER)
+            if bad.any():
+                out[role] = bad
+    return out
+
+
+#: Our columns that become unknown (NaN) on a row whose uncertainty is unusable.
+_UNKNOWN_WITHOUT_ERRORS = ("stage_prob", "logt_err", "logl_err", "logt_logl_corr", "mass_err")
+
+
+def _no_false_certainty(cols, bad_errors, done, mapping, in_flags) -> list:
+    """Rows whose given uncertainty is negative, infinite or text keep the label of their position,
+    but not the certainty of an exact one: their stage probabilities and errors become unknown
+    (NaN), they are flagged ``BAD_INPUT`` and their reason names the column. Returns the notes."""
+    if not bad_errors:
+        return []
+    any_bad = np.zeros(len(done), dtype=bool)
+    notes = []
+    for role, bad in bad_errors.items():
+        rows = np.flatnonzero(bad & done)
+        if rows.size == 0:
+            continue
+        any_bad[rows] = True
+        col = mapping.roles.get(role, role)
+        text = (f"{col} is not a usable uncertainty (negative, infinite or not a number): "
+                "stage probabilities and errors unknown")
+        notes.append((rows, (np.array([text], dtype=object), np.zeros(rows.size, dtype=np.int64))))
+    if not any_bad.any():
+        return []
+    in_flags[any_bad] |= F.BAD_INPUT
+    names = [c for c in cols if c in _UNKNOWN_WITHOUT_ERRORS or c.startswith("prob_")]
+    for name in names:
+        v = np.array(cols[name], dtype=np.result_type(np.asarray(cols[name]).dtype, np.float32), copy=True)
+        v[any_bad] = np.nan
+        cols[name] = v
+    return notes
 
 
 def _bits_note(bits):

@@ -63,7 +63,7 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
 
     inp, out = Path(input_path), Path(output_path)
     in_fmt = format_of(inp, input_format)
-    format_of(out, output_format)
+    format_of(out, output_format, option="--out-format")
     check_output_path(out, overwrite=overwrite, inputs=[inp])
     chunk_rows = DEFAULT_CHUNK_ROWS if chunk_rows is None else int(chunk_rows)
     n_workers = resolve_workers(workers)
@@ -144,6 +144,13 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                 while pending:
                     behind.submit(take_from, pending.popleft())
                 behind.wait()
+                if offset == 0:     # no data rows (a header-only file): an empty tagged table
+                    from ..catalog import read_table
+
+                    empty = read_table(inp, in_fmt)
+                    if opts.mapping is None:
+                        opts = resolve_options(infos_from_table(empty), opts)
+                    take(classify_one(empty, opts, 0, None))
             except BaseException:
                 # let the thread finish the chunk it is writing before the writer is aborted
                 behind.drain()

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field, replace
 from .._version import __version__
 from ..catalog.profiles import ROLES, ColumnMapping, detect_profile
 from ..columns import CLASSIFY_COLUMNS, COLUMNS, SPTYPE_COLUMNS
+from ..defaults import DEFAULT_DRAWS, DEFAULT_SEED, check_draws, check_feh
 from ..errors import HrstageInputError
 
 CAUTION = ("Stage labels are indicative: they follow from the HR position and analytic stellar relations "
@@ -34,7 +35,8 @@ class ClassifyOptions:
     feh : float or None
         [Fe/H] for rows without one (``None``: solar, flagged ``NO_METALLICITY``).
     n_draws : int
-        Monte Carlo draws per star for the stage probabilities (0: point classification).
+        Monte Carlo draws per star for the stage probabilities (default
+        :data:`hrstage.defaults.DEFAULT_DRAWS`; 0: point classification).
     seed : int
         Seed of the draws (reproducible; the stream also depends on the chunk's first row).
     min_parallax_snr, parallax_zp, r_v : float
@@ -54,8 +56,8 @@ class ClassifyOptions:
     profile: str | None = None
     columns: dict = field(default_factory=dict)
     feh: float | None = None
-    n_draws: int = 0
-    seed: int = 20240601
+    n_draws: int = DEFAULT_DRAWS
+    seed: int = DEFAULT_SEED
     min_parallax_snr: float = 5.0
     parallax_zp: float = 0.0
     r_v: float = 3.1
@@ -120,7 +122,7 @@ def make_options(**options) -> ClassifyOptions:
     kw = {}
     for key, value in options.items():
         if key == "feh" and value is not None and not isinstance(value, str):
-            kw["feh"] = float(value)
+            kw["feh"] = check_feh(value, "feh")
         elif key in ROLES and key not in _OPTION_NAMES - {"feh"}:
             if value is not None:
                 if not isinstance(value, str):
@@ -151,9 +153,10 @@ def resolve_options(infos, opts: ClassifyOptions) -> ClassifyOptions:
     names = [i.name for i in infos]
     clash = [opts.prefix + c for c in (*CLASSIFY_COLUMNS, *SPTYPE_COLUMNS) if opts.prefix + c in names]
     if clash:
-        raise HrstageInputError(
-            f"the input already has column(s) {', '.join(clash)} that hrstage would add; pass a prefix for "
-            "ours (Python prefix='hrs_', command line --prefix hrs_) - input columns are never overwritten")
+        start = f"the input already has column(s) {', '.join(clash)} that hrstage would add; "
+        end = " (input columns are never overwritten)"
+        raise HrstageInputError(start + "pass a prefix for ours, e.g. prefix='hrs_'" + end,
+                                cli=start + "pass a prefix for ours, e.g. --prefix hrs_" + end)
     return replace(opts, mapping=mapping)
 
 

@@ -65,11 +65,17 @@ footer{margin-top:2em;color:#777;font-size:.85em}
 """
 
 
+#: Bidirectional-text controls (U+202A..U+202E, U+2066..U+2069, U+200E/F, U+061C): in catalogue
+#: text they would reorder what the page shows; written as visible code points instead.
+_BIDI_CONTROLS = {c: f"[U+{c:04X}]" for c in (*range(0x202A, 0x202F), *range(0x2066, 0x206A), 0x200E, 0x200F, 0x061C)}
+
+
 def esc(value) -> str:
-    """Escape any value for HTML text or attribute context."""
+    """Escape any value for HTML text or attribute context (bidirectional controls shown as
+    ``[U+202E]``, never obeyed)."""
     if isinstance(value, bytes):
         value = value.decode("utf-8", "replace")
-    return html.escape(str(value), quote=True)
+    return html.escape(str(value).translate(_BIDI_CONTROLS), quote=True)
 
 
 def _text_column(table, name):

@@ -139,4 +139,5 @@ def test_nothing_fits_lists_found_and_missing():
     assert "targets.csv" in text and "columns: ra, dec, teff, phot_g_mean_mag" in text
     assert "teff=teff" in text and "g=phot_g_mean_mag" in text
     assert "direct lacks lum|logl" in text and "bp_rp|bp&rp + parallax" in text
-    assert "--col ROLE=NAME" in text
+    assert "ROLE='NAME'" in text and "--col" not in text          # Python words in Python
+    assert "--col ROLE=NAME" in info.value.cli_message()          # command-line words on the command line

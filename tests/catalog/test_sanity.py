@@ -66,8 +66,9 @@ def test_text_in_numeric_column():
 
 
 def test_log_teff_given_as_teff():
-    with pytest.raises(HrstageInputError, match="looks like log10 Teff.*--col logt=T"):
+    with pytest.raises(HrstageInputError, match="looks like log10 Teff.*logt='T'") as info:
         column_values(MaskedColumn([3.76, 3.6, 4.1], name="T"), "teff")
+    assert "--col logt=T" in info.value.cli_message()      # the same advice in command-line words
     with pytest.raises(HrstageInputError, match="looks like Teff in K"):
         column_values(MaskedColumn([5772.0, 4000.0], name="lt"), "logt")
 

@@ -1,6 +1,7 @@
 """Rows whose photometry fits the white-dwarf reading and another one: both carried, probabilities mixed."""
 
 import numpy as np
+import pytest
 from astropy.table import Table
 
 import hrstage
@@ -23,11 +24,11 @@ def test_two_readings_are_mixed():
     t = _edge_star(0.3)
     pos = from_gaia(t["phot_g_mean_mag"], t["bp_rp"], t["parallax"], parallax_err=t["parallax_error"])
     assert pos.flags[0] & F.TWO_READINGS
-    p_other = pos.extra["p_other"][0]
+    p_other = pos.extra["other_reading"]["p"][0]
     assert 0.05 <= p_other < 0.5
     # both readings of this red star give nearly the same HR position (the colour sets Teff either
     # way): the white-dwarf stage keeps all the probability, through the mixture
-    assert abs(pos.extra["other_logt"][0] - pos.logt[0]) < 0.02
+    assert abs(pos.extra["other_reading"]["logt"][0] - pos.logt[0]) < 0.02
     out = hrstage.classify(t, seed=3)
     assert out["flags"][0] & F.TWO_READINGS
     assert out["stage"][0] == "white_dwarf"
@@ -49,10 +50,9 @@ def test_mixture_formula():
     cols["prob_white_dwarf"][:] = 1.0
     cols["stage"] = CodedText(STAGES, np.array([CODE["white_dwarf"]] * n))
     cols["stage_prob"] = np.ones(n, dtype="f4")
-    nan = np.full(n, np.nan)
-    extra = {"p_other": np.array([0.3, np.nan]), "other_logt": np.array([4.4, np.nan]),
-             "other_logl": np.array([1.3, np.nan]), "other_logt_err": nan, "other_logl_err": nan,
-             "other_corr": nan}
+    extra = {"other_reading": {"rows": np.array([0]), "p": np.array([0.3]), "logt": np.array([4.4]),
+                               "logl": np.array([1.3]), "logt_err": np.array([0.02]),
+                               "logl_err": np.array([0.1]), "corr": np.array([0.0])}}
     pos = SimpleNamespace(extra=extra, logt=np.array([4.3, 4.0]))
     proba = np.zeros((1, len(STAGES)))
     proba[0, CODE["hot_subdwarf"]] = 1.0
@@ -72,5 +72,35 @@ def test_precise_parallax_single_reading():
     t = _edge_star(0.01)
     pos = from_gaia(t["phot_g_mean_mag"], t["bp_rp"], t["parallax"], parallax_err=t["parallax_error"])
     assert not pos.flags[0] & F.TWO_READINGS
-    assert np.isnan(pos.extra["p_other"][0]) if "p_other" in pos.extra else True
+    assert "other_reading" not in pos.extra
     assert "white dwarf" in pos.source[0]
+
+
+def test_just_brighter_than_the_edge_keeps_the_white_dwarf_share():
+    # invented blue star (BP-RP)0 = -0.3 (DR2), 0.3 mag brighter than the white-dwarf edge, with a
+    # 15 % parallax (sigma_M = 0.33 mag): read as a hot subdwarf, the white-dwarf reading (at the edge)
+    # keeps Phi(-0.3/0.33) = 18 % (common practice: the normal distribution)
+    c = -0.3
+    m = float(montreal_wd.sequence_mag(c, 6.5)) - 0.3
+    pos = from_gaia(m + 5.0, c, 10.0, parallax_err=1.5, gaia_release="dr2")
+    assert "hot subdwarf" in pos.source[0]
+    assert pos.flags[0] & F.TWO_READINGS
+    other = pos.extra["other_reading"]
+    assert list(other["rows"]) == [0]
+    assert 0.1 < other["p"][0] < 0.3
+    assert np.isfinite(other["logt"][0]) and other["logl"][0] < pos.logl[0]
+    # a precise parallax: one reading only
+    pos = from_gaia(m + 5.0, c, 10.0, parallax_err=0.05, gaia_release="dr2")
+    assert not pos.flags[0] & F.TWO_READINGS and "other_reading" not in pos.extra
+
+
+def test_fainter_than_the_grid_is_still_a_white_dwarf():
+    # invented star 1 mag fainter than the log g 9.5 extrapolation of the grid at (BP-RP)0 = 0.3:
+    # white-dwarf reading at that faint edge, flagged as extrapolated; L from its own magnitude
+    c = 0.3
+    m = float(montreal_wd.sequence_mag(c, 9.5)) + 1.0
+    pos = from_gaia(m + 5.0, c, 10.0, gaia_release="dr2")
+    assert "white dwarf" in pos.source[0] and pos.flags[0] & F.OUTSIDE_VALIDITY
+    edge = from_gaia(m + 5.0 - 1.0 + 1e-6, c, 10.0, gaia_release="dr2")
+    assert pos.teff[0] == pytest.approx(edge.teff[0], rel=1e-4)
+    assert pos.logl[0] == pytest.approx(edge.logl[0] - 0.4, abs=1e-4)
