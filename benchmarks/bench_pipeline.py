@@ -100,6 +100,10 @@ elif kind == "parquet-read":
     import pyarrow.parquet as pq
     t = pq.read_table(src)
     print(t.num_rows)
+elif kind == "csv-read":
+    import pyarrow.csv as pc
+    t = pc.read_csv(src)
+    print(t.num_rows)
 else:
     raise SystemExit("unknown kind " + kind)
 """
@@ -248,6 +252,11 @@ def write_dataset(folder: Path, rows: int, parts: int, seed: int = 7) -> Path:
 # --------------------------------------------------------------------------------------------
 # running and timing children
 # --------------------------------------------------------------------------------------------
+#: CPU seconds (user + system, the child and the processes it waited for) of the last run_child:
+#: on a busy machine wall-clock times stretch with the load, CPU times much less
+LAST_CPU_S = 0.0
+
+
 def run_child(args: list[str], env: dict | None = None) -> tuple[float, float]:
     """Run ``python args...`` in a fresh process; return (wall seconds, peak RSS in MiB).
 
@@ -269,6 +278,8 @@ def run_child(args: list[str], env: dict | None = None) -> tuple[float, float]:
         proc.stderr.close()
     if proc.returncode != 0:
         raise RuntimeError(f"command failed (exit {proc.returncode}): {' '.join(cmd)}\n{err[-2000:]}")
+    global LAST_CPU_S
+    LAST_CPU_S = usage.ru_utime + usage.ru_stime
     hwm = Path(hwm_file).read_text().strip()
     os.unlink(hwm_file)
     if hwm:
@@ -326,6 +337,7 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), c
     cmds.append(("same_output", pyarrow_copy(f"{kind}-same-output", src, out_same) + [str(ref_out), str(excluded)],
                  out_same))
     runs: dict = {name: [] for name, _, _ in cmds}
+    cpu: dict = {name: [] for name, _, _ in cmds}
     for _ in range(repeats):
         for name, cmd, out in cmds:
             if out.exists():
@@ -334,6 +346,7 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), c
             if name == "same_output":      # minus the time reading hrstage's output
                 t -= float(excluded.read_text())
             runs[name].append((t, rss))
+            cpu[name].append(LAST_CPU_S)
     first_out = cmds[0][2]
     res = {
         "rows": rows,
@@ -346,6 +359,7 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), c
     same = [t for t, _ in runs["same_output"]]
     res["pyarrow_same_output_s"] = [round(t, 3) for t in same]
     res["pyarrow_same_output_median_s"] = round(med(same), 3)
+    res["pyarrow_cpu_median_s"] = round(med(cpu["pyarrow"]), 2)
     for name, _, out in cmds:
         if name in ("pyarrow", "same_output"):
             continue
@@ -353,6 +367,7 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), c
         m = round(med(times), 3)
         key = int(name[1:]) if ":" not in name else name[1:]
         res["workers"][key] = {"cli_s": [round(t, 3) for t in times], "cli_median_s": m,
+                               "cli_cpu_median_s": round(med(cpu[name]), 2),
                                "ratio_cli_over_pyarrow": round(m / res["pyarrow_median_s"], 2),
                                "ratio_cli_over_same_output": round(m / res["pyarrow_same_output_median_s"], 2),
                                "cli_rows_per_s": round(rows / m)}
@@ -389,8 +404,9 @@ def _print_format(title: str, r: dict, bar: str) -> None:
         label = f"--workers {w}" if not isinstance(w, str) else "--workers {} --add-columns {}".format(*w.split(":"))
         print(f"  hrstage classify {label:<32} median {x['cli_median_s']:8.2f} s   {x['cli_s']}"
               f"   ratio CLI / pyarrow = {x['ratio_cli_over_pyarrow']:.2f}, CLI / pyarrow same output = "
-              f"{x['ratio_cli_over_same_output']:.2f}{bar}")
-    print(f"  pyarrow read+write           median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}")
+              f"{x['ratio_cli_over_same_output']:.2f}{bar}   CPU {x['cli_cpu_median_s']:.1f} s")
+    print(f"  pyarrow read+write           median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}   CPU "
+          f"{r['pyarrow_cpu_median_s']:.1f} s")
     print(f"  pyarrow reading the input and writing hrstage's output table (all columns, --workers "
           f"{next(iter(r['workers']))}): median {r['pyarrow_same_output_median_s']:8.2f} s   {r['pyarrow_same_output_s']}")
     for cs, x in r.get("pyarrow_copy_of_output", {}).items():
@@ -422,11 +438,12 @@ def bench_demo(work: Path, repeats: int) -> dict:
     return res
 
 
-def bench_streaming(work: Path, rows: int, chunk_sizes: list[int]) -> dict:
-    src = write_synthetic(work / f"stream_{rows}.parquet", rows, "parquet")
-    out = work / "stream_out.parquet"
-    whole_t, whole_rss = run_child(pyarrow_copy("parquet-read", src, out))
+def bench_streaming(work: Path, rows: int, chunk_sizes: list[int], kind: str = "parquet") -> dict:
+    src = write_synthetic(work / f"stream_{rows}.{kind}", rows, kind)
+    out = work / f"stream_out.{kind}"
+    whole_t, whole_rss = run_child(pyarrow_copy(f"{kind}-read", src, out))
     res = {
+        "format": kind,
         "rows": rows,
         "input_MiB": round(src.stat().st_size / 2**20, 1),
         "pyarrow_read_whole_file_peak_MiB": round(whole_rss),
@@ -492,6 +509,8 @@ def parse_args(argv=None):
                    help="rows of the CSV catalogue (default: --rows)")
     p.add_argument("--stream-rows", type=lambda s: int(float(s)), default=None,
                    help="rows of the streaming-memory catalogue (default 2 x --rows, i.e. 20 M)")
+    p.add_argument("--stream-format", choices=("parquet", "csv"), default="parquet",
+                   help="file format of the streaming-memory part (default parquet)")
     p.add_argument("--chunk-rows", type=_int_list, default=None,
                    help="comma-separated chunk sizes for the memory measurement (default: rows/80, rows/20, rows/5)")
     p.add_argument("--dask-rows", type=lambda s: int(float(s)), default=None,
@@ -558,8 +577,8 @@ def main(argv=None) -> int:
                                               args.add_columns)
             _print_format("CSV", r, "")
         if "stream" not in skip:
-            r = results["stream"] = bench_streaming(work, stream_rows, chunks)
-            print(f"\nStreaming, {r['rows']:,} rows of Parquet ({r['input_MiB']} MiB):")
+            r = results["stream"] = bench_streaming(work, stream_rows, chunks, args.stream_format)
+            print(f"\nStreaming, {r['rows']:,} rows of {args.stream_format} ({r['input_MiB']} MiB):")
             print(f"  pyarrow reading the whole file: peak RSS {r['pyarrow_read_whole_file_peak_MiB']} MiB")
             for c in r["chunks"]:
                 print(f"  hrstage classify --chunk-rows {c['chunk_rows']:>10,}: peak RSS {c['peak_MiB']:6d} MiB"

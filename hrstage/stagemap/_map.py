@@ -628,7 +628,12 @@ class StageMap:
         self._logm = logm
         self._logm_of_logt = PiecewiseLinear(self._zams_logt, logm)
         self._logm_of_logl = PiecewiseLinear(self._zams_logl, logm)
-        self._ms_top_at = PiecewiseLinear(*self._ms_top)
+
+    @functools.cached_property
+    def _ms_top_at(self):
+        """log L of the main-sequence upper edge as a function of log T (built on first use: its
+        bucket table costs start-up to every map, and no classification needs it)."""
+        return PiecewiseLinear(*self._ms_top)
 
     def _young_zone_lookup(self):
         """Coarse lookup (mass grid, int8) of the young-or-evolved zone: in the zone, the evolved
