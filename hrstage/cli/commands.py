@@ -176,10 +176,9 @@ def cmd_plot(args) -> int:
     check_output_path(args.output, overwrite=args.overwrite, inputs=[args.input])
     table = _tagged_table(args)
     feh = args.feh if args.feh is not None else 0.0
-    if args.color_by == "stage":
-        ax = hr_diagram(feh=feh, title=args.title or Path(args.input).name, **_plot_arrays(table))
-    else:
-        ax = hr_diagram(table, feh=feh, color_by=args.color_by, title=args.title or Path(args.input).name)
+    errors = {"bars": True, "ellipse": "ellipse"}.get(args.errors, False)
+    ax = hr_diagram(table, feh=feh, color_by=args.color_by, error_bars=errors,
+                    title=args.title or Path(args.input).name, **_plot_arrays(table))
     write_figure(ax, args.output, overwrite=args.overwrite)
     _say(args, f"HR diagram of {len(table)} stars written to {args.output}")
     _say(args, CAUTION_LINE)
@@ -331,7 +330,13 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("input")
     pl.add_argument("-o", "--output", required=True, help="figure file (.png, .pdf, .svg)")
     pl.add_argument("--overwrite", action="store_true")
-    pl.add_argument("--color-by", default="stage", help="column that sets the colours (default stage)")
+    pl.add_argument("--color-by", default="stage", metavar="stage|teff|COLUMN",
+                    help="fill colour of the points: 'stage' (default), 'teff' (the colour of a blackbody "
+                         "at the star's Teff) or the name of any numeric column (colour scale with a "
+                         "colour bar); the marker always shows the stage")
+    pl.add_argument("--errors", choices=["bars", "ellipse"], default=None,
+                    help="draw the 1-sigma uncertainties: error bars in log Teff and log L, or ellipses "
+                         "that follow their correlation (default: none)")
     pl.add_argument("--title", default=None)
     pl.add_argument("-q", "--quiet", action="store_true")
     _add_column_options(pl)

@@ -157,7 +157,7 @@ PALETTES = MappingProxyType(
 #: Drawn as open symbols around the point, so they never hide its stage colour.
 FLAG_MARKS = MappingProxyType(
     {
-        "cool_but_massive": ("o", "#d7191c", 1.4, "cool but massive"),
+        "cool_but_massive": ("o", "#d7191c", 0.7, "cool but massive"),
         "sptype_conflict": ("s", "#1a1a1a", 1.1, "MK type in conflict"),
         "poor_distance": ("D", "#7f7f7f", 0.9, "poor parallax"),
     }
