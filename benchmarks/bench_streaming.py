@@ -6,7 +6,7 @@ in a fresh process and reports the growth of its peak resident set (``ru_maxrss`
 minus before it, imports done first):
 
 * ``read whole``  — :func:`hrstage.catalog.read_table` of the whole file (the reference);
-* ``stream N``    — :func:`hrstage.pipeline.classify_file` with ``chunk_rows=N`` (read, classify,
+* ``stream N``    — :func:`hrstage.engine.classify_file` with ``chunk_rows=N`` (read, classify,
   write Parquet), for each N of ``--chunks``.
 
 Printed: MiB per run (median of ``--repeats``) and the ratios stream / whole-read. Memory should
@@ -31,13 +31,13 @@ import numpy as np
 _CHILD = r"""
 import resource, sys
 import numpy as np, pyarrow, pyarrow.parquet, pyarrow.compute, astropy.table
-import hrstage.pipeline, hrstage.catalog, hrstage.classifier, hrstage.derive
+import hrstage.engine, hrstage.catalog, hrstage.classifier, hrstage.derive
 mode, src, dst, chunk = sys.argv[1], sys.argv[2], sys.argv[3], int(sys.argv[4])
 before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
 if mode == "whole":
     t = hrstage.catalog.read_table(src)
 else:
-    hrstage.pipeline.classify_file(src, dst, chunk_rows=chunk, overwrite=True)
+    hrstage.engine.classify_file(src, dst, chunk_rows=chunk, overwrite=True)
 after = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
 print(after - before)
 """

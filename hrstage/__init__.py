@@ -4,7 +4,7 @@ Labels are indicative: they come from analytic stellar relations and the star's 
 HR diagram, and do not replace a spectroscopic analysis.
 """
 
-__version__ = "0.1.0"
+from ._version import __version__
 
 __all__ = ["classify", "__version__"]
 
@@ -12,8 +12,8 @@ __all__ = ["classify", "__version__"]
 def classify(table, **options):
     """Label every star of an astropy Table with its evolutionary stage.
 
-    See :func:`hrstage.pipeline.classify_table` for the options.
+    See :func:`hrstage.engine.classify_table` for the options.
     """
-    from .pipeline import classify_table
+    from .engine.chunk import classify_table
 
     return classify_table(table, **options)

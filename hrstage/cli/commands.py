@@ -122,7 +122,7 @@ def _summary_lines(summary: dict) -> list:
 
 # ----------------------------------------------------------------------------- commands
 def cmd_classify(args) -> int:
-    from ..pipeline import classify_file
+    from ..engine import classify_file
 
     opts = _options(args)
     summary = classify_file(args.input, args.output, chunk_rows=args.chunk_rows, overwrite=args.overwrite,
@@ -138,7 +138,7 @@ def cmd_classify(args) -> int:
 def _tagged_table(args):
     """Read INPUT; classify it in memory when it has no stage column yet."""
     from ..catalog import read_table
-    from ..pipeline import classify_table
+    from ..engine import classify_table
 
     table = read_table(args.input, args.in_format)
     if "stage" in table.colnames and not args.col and args.profile is None:
@@ -253,7 +253,7 @@ def cmd_demo(args) -> int:
     import matplotlib
 
     matplotlib.use("Agg")
-    from ..pipeline import classify_file
+    from ..engine import classify_file
 
     src = Path(args.catalogue) if args.catalogue else demo_catalogue_path()
     if not src.is_file():

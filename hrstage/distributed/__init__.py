@@ -232,7 +232,7 @@ def classify_partition(df, *, row_offset: int = 0, column_attrs: dict | None = N
         unknown option, a whole-column unit mistake, a name clash with our columns).
     """
     pd = _pandas()
-    from ..pipeline import classify_chunk, make_options
+    from ..engine import classify_chunk, make_options
 
     _check_frame(df)
     opts = make_options(**options)
@@ -363,7 +363,7 @@ def _parquet_metadata(meta, column_attrs: dict, prefix: str) -> dict:
 
     from .. import __version__
     from ..catalog.arrow import YAML_KEY
-    from ..pipeline import CAUTION
+    from ..engine import CAUTION
 
     cols, ours = [], {}
     for name in meta.columns:

@@ -13,7 +13,7 @@ from astropy.table import Table
 
 from hrstage.catalog import ChunkWriter
 from hrstage.catalog.streaming import parquet_properties
-from hrstage.pipeline import classify_file
+from hrstage.engine import classify_file
 
 
 def _encodings(path):

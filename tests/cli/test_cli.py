@@ -128,7 +128,7 @@ def test_runtime_failure_is_exit_1(tmp_path, capsys, monkeypatch):
     def boom(*a, **k):
         raise RuntimeError("disk on fire")
 
-    monkeypatch.setattr("hrstage.pipeline.classify_chunk", boom)
+    monkeypatch.setattr("hrstage.engine.chunk.classify_chunk", boom)
     code, _, err = run(capsys, "classify", str(src), "-o", str(tmp_path / "o.ecsv"))
     assert code == 1 and "disk on fire" in err and "Traceback" not in err
     _no_output(tmp_path, {"in.ecsv"})

@@ -175,7 +175,7 @@ def test_monte_carlo_matches_streaming_run_chunk_for_chunk(tmp_path, frame, parq
     """With draws, equal partitions reproduce ``classify_file(chunk_rows=...)`` exactly: each
     partition seeds its draws from its first row's index, as each streamed chunk does."""
     from hrstage.catalog import read_table
-    from hrstage.pipeline import classify_file
+    from hrstage.engine import classify_file
 
     chunk = 300
     out = tmp_path / "streamed.parquet"

@@ -25,7 +25,7 @@ import bad_catalogues as B
 from hrstage import flags as F
 from hrstage.stages import STAGES
 
-pipeline = pytest.importorskip("hrstage.pipeline", reason="pipeline not importable")
+pipeline = pytest.importorskip("hrstage.engine", reason="engine not importable")
 from hrstage import classify  # noqa: E402
 from hrstage.catalog import read_table, write_table  # noqa: E402
 from hrstage.catalog.atomic import TEMP_MARK  # noqa: E402
@@ -182,7 +182,7 @@ def test_writer_failing_half_way_keeps_previous_output(tmp_path, monkeypatch):
     """In-process: the chunk writer raises on its second chunk; the previous output is intact
     byte for byte and no temporary file is left."""
     import hrstage.catalog as cat
-    from hrstage.pipeline import classify_file
+    from hrstage.engine import classify_file
 
     src = tmp_path / "stars.parquet"
     _write_big_parquet(src, 500)

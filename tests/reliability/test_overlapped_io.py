@@ -12,7 +12,7 @@ import pytest
 
 from hrstage.catalog.atomic import TEMP_MARK
 from hrstage.errors import HrstageInputError
-from hrstage.pipeline import classify_file
+from hrstage.engine import classify_file
 
 
 def _io_threads():
@@ -65,12 +65,12 @@ def test_interrupt_while_classifying_waits_for_the_write(tmp_path, monkeypatch):
     """Ctrl-C in the main thread (here: raised by the classification of the third chunk) aborts
     the output only after the chunk being written in the background is finished."""
     import hrstage.catalog as cat
-    import hrstage.pipeline as pl
+    import hrstage.engine.files as pl
 
     src, dst = tmp_path / "in.parquet", tmp_path / "out.parquet"
     _parquet(src)
     dst.write_bytes(b"previous")
-    real_write, real_classify = cat.ChunkWriter.write, pl._classify_one
+    real_write, real_classify = cat.ChunkWriter.write, pl.classify_one
     state = {"writing": 0, "overlap_seen": False, "calls": 0}
 
     def slow_write(self, chunk):
@@ -93,7 +93,7 @@ def test_interrupt_while_classifying_waits_for_the_write(tmp_path, monkeypatch):
         return real_classify(chunk, opts, offset, attrs)
 
     monkeypatch.setattr(cat.ChunkWriter, "write", slow_write)
-    monkeypatch.setattr(pl, "_classify_one", classify)
+    monkeypatch.setattr(pl, "classify_one", classify)
     with pytest.raises(KeyboardInterrupt):
         classify_file(src, dst, chunk_rows=500, overwrite=True)
     assert state["overlap_seen"]          # the second chunk was being written meanwhile

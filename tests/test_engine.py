@@ -1,4 +1,4 @@
-"""The pipeline face: hrstage.classify, classify_chunk, classify_file.
+"""The run engine (hrstage.engine): hrstage.classify, classify_chunk, classify_file.
 
 External checks: the Sun (IAU 2015 Resolution B3: Teff 5772 K, L = 1 Lsun) is a main-sequence star;
 APOKASC-3 asteroseismic giants (Pinsonneault et al. 2025, Table 4) come out giants through the
@@ -17,7 +17,7 @@ from hrstage import flags as F
 from hrstage.catalog import read_table, write_table
 from hrstage.columns import CLASSIFY_COLUMNS, COLUMNS
 from hrstage.errors import HrstageInputError
-from hrstage.pipeline import classify_chunk, classify_file, make_options, resolve_options
+from hrstage.engine import classify_chunk, classify_file, make_options, resolve_options
 from hrstage.stages import STAGES
 
 
@@ -248,7 +248,7 @@ def test_workers_give_the_same_bytes(tmp_path, suffix, out_suffix):
 
 
 def test_workers_option_checked(tmp_path):
-    from hrstage.pipeline import resolve_workers
+    from hrstage.engine import resolve_workers
 
     assert resolve_workers("auto") >= 1 and resolve_workers(3) == 3 and resolve_workers("2") == 2
     for bad in (0, -1, "many", 1.5):
