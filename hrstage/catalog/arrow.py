@@ -190,3 +190,58 @@ def numpy_dtype_of(arrow_type) -> np.dtype:
     except (NotImplementedError, TypeError):
         return np.dtype(object)
 
+
+
+#: Schema-metadata key prefix with which astropy's Parquet reader sizes a text column (characters).
+TEXT_LENGTH_KEY = "table::len::"
+
+
+def text_lengths(data) -> dict:
+    """``{name: longest entry}`` of the text columns of a pyarrow Table or RecordBatch: characters
+    for text (dictionary columns: their dictionaries), bytes for binary; 0 for all-null columns.
+
+    Written as ``table::len::NAME`` metadata, which astropy's Parquet reader wants for every text
+    column (without it, it warns and scans the column).
+    """
+    pa = _pa()
+    import pyarrow.compute as pc
+
+    out = {}
+    for name, col in zip(data.schema.names, data.columns):
+        t = col.type
+        chunks = col.chunks if hasattr(col, "chunks") else [col]
+        if pa.types.is_dictionary(t):
+            t = t.value_type
+            chunks = [c.dictionary for c in chunks]
+        if pa.types.is_string(t) or pa.types.is_large_string(t):
+            measure = pc.utf8_length
+        elif pa.types.is_binary(t) or pa.types.is_large_binary(t):
+            measure = pc.binary_length
+        else:
+            continue
+        longest = 0
+        for c in chunks:
+            if len(c):
+                m = pc.max(measure(c)).as_py()
+                longest = max(longest, m or 0)
+        out[name] = longest
+    return out
+
+
+def merge_text_lengths(total: dict, new: dict) -> dict:
+    """Longest entries over chunks (in place on ``total``)."""
+    for k, v in new.items():
+        total[k] = max(total.get(k, 0), v)
+    return total
+
+
+def text_length_metadata(lengths: dict) -> dict:
+    """``table::len::NAME`` metadata entries (at least 1: astropy makes a ``U<n>`` column of it)."""
+    return {f"{TEXT_LENGTH_KEY}{k}": str(max(int(v), 1)) for k, v in lengths.items()}
+
+
+def with_text_lengths(data, lengths: dict):
+    """``data`` with the ``table::len::`` entries added to its schema metadata."""
+    md = dict(data.schema.metadata or {})
+    md.update({k.encode("utf-8"): v.encode("utf-8") for k, v in text_length_metadata(lengths).items()})
+    return data.replace_schema_metadata(md)

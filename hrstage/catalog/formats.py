@@ -110,10 +110,35 @@ def _fits_restore(table: Table, header) -> Table:
         comm = header.get(f"TCOMM{i}")
         if comm and not col.description:
             col.description = comm
+        kept = header.get(f"{FITS_UNIT_KEY}{i}")
+        if kept:
+            try:
+                col.unit = u.Unit(kept)
+            except ValueError:
+                col.unit = u.Unit(kept, parse_strict="silent")
+        table.meta.pop(f"{FITS_UNIT_KEY}{i}", None)
     for key, fkey in FITS_META_KEYS.items():
         if fkey in table.meta:
             table.meta[key] = table.meta.pop(fkey)
     return table
+
+
+#: FITS keyword prefix (``HRSUn``) keeping a unit the FITS standard has no form for (``dex``,
+#: ``dex(solLum)``): such a column gets no ``TUNITn`` (so readers see a plain number, without a
+#: "not supported by the FITS standard" warning), its ``TCOMMn`` says what it is, and hrstage reads
+#: the unit back from ``HRSUn``.
+FITS_UNIT_KEY = "HRSU"
+
+
+def fits_unit(unit):
+    """``(TUNIT text or None, kept text or None)`` of a unit: the FITS form when the standard has
+    one, else ``None`` and astropy's generic text of it (logarithmic units such as dex)."""
+    if unit is None:
+        return None, None
+    try:
+        return unit.to_string("fits"), None
+    except (ValueError, TypeError, AttributeError, u.UnitsError):
+        return None, unit.to_string()
 
 
 def _read_fits(path: Path, hdu=None) -> Table:
@@ -151,13 +176,19 @@ def _write_fits(table: Table, tmp: Path) -> None:
     for key, fkey in FITS_META_KEYS.items():
         if key in out.meta:
             out.meta[fkey] = out.meta.pop(key)
+    kept = {}
+    for i, name in enumerate(out.colnames, start=1):
+        std, other = fits_unit(out[name].unit)
+        if other is not None:       # no FITS form: no TUNIT, the unit kept in HRSUn (see FITS_UNIT_KEY)
+            kept[i] = other
+            out[name].unit = None
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # function units (dex) are written by hand below
+        warnings.simplefilter("ignore")
         hdu = fits.table_to_hdu(out)
     for i, name in enumerate(out.colnames, start=1):
         col = out[name]
-        if col.unit is not None and f"TUNIT{i}" not in hdu.header:
-            hdu.header[f"TUNIT{i}"] = col.unit.to_string()
+        if i in kept:
+            hdu.header[f"{FITS_UNIT_KEY}{i}"] = (kept[i], f"unit of column {i} (no FITS form)")
         if col.description:
             hdu.header[f"TCOMM{i}"] = str(col.description)[:68]
     with warnings.catch_warnings():
@@ -273,7 +304,10 @@ def _csv_float(arr):
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    arr = arr.cast(pa.float64())          # float32 is written as the double it equals (as before)
+    if not pa.types.is_float32(arr.type):
+        arr = arr.cast(pa.float64())
+    # single precision keeps its own shortest digits (float32 -> string is shortest for float32;
+    # numpy's str of a float32 likewise), not those of the double it equals
     s = pc.cast(arr, pa.string())
     x = np.asarray(pc.fill_null(arr, 0.0).to_numpy(zero_copy_only=False))
     with np.errstate(invalid="ignore"):
@@ -285,9 +319,23 @@ def _csv_float(arr):
     if not positional.all():
         other = ~positional
         mask = pa.array(other & ~np.asarray(arr.is_null().to_numpy(zero_copy_only=False)))
-        s = pc.replace_with_mask(s, mask, pa.array(x[np.asarray(mask.to_numpy(zero_copy_only=False))]
-                                                   .astype(str).astype(object), type=pa.string()))
+        vals = x[np.asarray(mask.to_numpy(zero_copy_only=False))]
+        if x.dtype == np.float32:   # numpy's str of a float32 has rules of its own: Python's style
+            text = np.array([single_text(v) for v in vals], dtype=object)
+        else:
+            text = vals.astype(str).astype(object)
+        s = pc.replace_with_mask(s, mask, pa.array(text, type=pa.string()))
     return s
+
+
+def single_text(v) -> str:
+    """A finite single-precision value with its own shortest digits, laid out as Python writes a
+    double: positional for 1e-4 <= |x| < 1e16 (``5000.0``), exponent form otherwise
+    (``1.9738104e+08``, ``1e-05``). For the values pyarrow writes in exponent form."""
+    v = np.float32(v)
+    if v == 0 or 1e-4 <= abs(v) < 1e16:
+        return np.format_float_positional(v, unique=True, trim="0")
+    return np.format_float_scientific(v, unique=True, trim="-", exp_digits=2)
 
 
 def _csv_cells(arr):
@@ -318,12 +366,13 @@ def arrow_csv(data, header: bool = True) -> bytes:
     """A pyarrow Table / RecordBatch as CSV bytes (UTF-8), formatted column by column in Arrow.
 
     The text is what astropy's CSV writer (``format="ascii.csv"``) gives for the same table, byte
-    for byte, with two deliberate exceptions: text cells keep their leading and trailing blanks
+    for byte, with three deliberate exceptions (single precision, see below, and): text cells keep their leading and trailing blanks
     (astropy strips them) and a text cell holding a carriage return is quoted (astropy leaves it
     bare, and readers then see a line end). Rules: header line of the names; integers in decimal;
     floats as the shortest text that reads back as the same double, always with a decimal point
-    or an exponent (``5000.0``, ``1e-05``, ``nan``, ``inf``; single precision written as the double
-    it equals); booleans ``True``/``False``; text as is, quoted (``"`` doubled) when it holds a
+    or an exponent (``5000.0``, ``1e-05``, ``nan``, ``inf``; single precision as the shortest text
+    that reads back as the same single-precision value, where astropy writes the double it equals:
+    ``1.164375``, not ``1.1643750667572021``); booleans ``True``/``False``; text as is, quoted (``"`` doubled) when it holds a
     comma, a quote or a line end; null cells empty (``""`` in a one-column table, where an empty
     line would be no row). Columns of other types: see :func:`csv_supported`.
     """
@@ -424,9 +473,12 @@ def _read_parquet(path: Path):
 def _write_parquet(table: Table, tmp: Path) -> None:
     import pyarrow.parquet as pq
 
-    from .arrow import table_to_arrow
+    from .arrow import table_to_arrow, text_lengths
 
-    pq.write_table(table_to_arrow(table), tmp)
+    from .arrow import with_text_lengths
+
+    data = table_to_arrow(table)
+    pq.write_table(with_text_lengths(data, text_lengths(data)), tmp)
 
 
 # ------------------------------------------------------------------------------ public API
@@ -478,7 +530,9 @@ def _repair_units(tbl: Table) -> None:
     same text with astropy's generic grammar; leave the unrecognised unit when that fails too."""
     for name in tbl.colnames:
         col = tbl[name]
-        if isinstance(col.unit, u.UnrecognizedUnit):
+        # VOUnit's "dex" is a unit of its own namespace that does not equal astropy's u.dex
+        if isinstance(col.unit, u.UnrecognizedUnit) or (col.unit is not None and col.unit is not u.dex
+                                                        and str(col.unit) == "dex"):
             try:
                 col.unit = u.Unit(str(col.unit))
             except ValueError:

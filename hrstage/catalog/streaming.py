@@ -36,7 +36,8 @@ import numpy as np
 from astropy.table import Table, vstack
 
 from ..errors import HrstageInputError
-from .arrow import arrow_to_table, header_from_schema, table_to_arrow
+from .arrow import (arrow_to_table, header_from_schema, merge_text_lengths, table_to_arrow, text_length_metadata,
+                    text_lengths)
 from .atomic import atomic_output
 from .formats import (CSV_MAX_BLOCK, _check_readable, _fits_restore, _one_line, _write_fits, arrow_csv,
                       check_unique_names, csv_read_options, csv_supported, csv_text, fits_table_hdu_index, format_of,
@@ -301,12 +302,20 @@ class ChunkWriter:
         self._closed = False
         self._added = None if added is None else frozenset(added)
         self._added_dictionary = frozenset(added_dictionary)
+        self._text_lengths: dict = {}
+        self._late_metadata = False
 
     def _parquet_writer(self, schema):
         import pyarrow.parquet as pq
 
         props = {} if self._added is None else parquet_properties(schema, self._added, self._added_dictionary)
-        return pq.ParquetWriter(self._tmp, schema, **props)
+        # The footer's key-value metadata is only complete at the end (the ``table::len::`` width
+        # of each text column, which astropy's reader wants, is known after the last chunk); readers
+        # take the schema metadata from the stored Arrow schema, written at the start, when there
+        # is one. For plain column types the Parquet types say everything, so no Arrow schema is
+        # stored and the whole metadata goes into the footer at close.
+        self._late_metadata = plain_parquet_schema(schema)
+        return pq.ParquetWriter(self._tmp, schema, store_schema=not self._late_metadata, **props)
 
     # -- arrow-based formats
     def _arrow(self, chunk: Table):
@@ -344,6 +353,7 @@ class ChunkWriter:
             if self._writer is None:
                 self._schema = data.schema
                 self._writer = self._parquet_writer(self._schema)
+            merge_text_lengths(self._text_lengths, text_lengths(data))
             self._writer.write_table(data)
         elif self.format == "csv":
             return self._write_csv(csv_text(chunk, header=self._writer is None), chunk.colnames, len(chunk))
@@ -380,6 +390,7 @@ class ChunkWriter:
 
         if isinstance(data, pa.RecordBatch):
             data = pa.Table.from_batches([data])
+        merge_text_lengths(self._text_lengths, text_lengths(data))
         if self._added is not None:
             data = _plain_added(data, self._added)
         if self._writer is None:
@@ -402,6 +413,11 @@ class ChunkWriter:
             if self.format in ("parquet", "csv"):
                 if self._writer is None:
                     raise HrstageInputError("nothing to write: no chunk was produced")
+                if self.format == "parquet" and self._late_metadata:
+                    md = {k.decode("utf-8"): v.decode("utf-8") for k, v in (self._schema.metadata or {}).items()}
+                    md.update(text_length_metadata(self._text_lengths))
+                    if md:
+                        self._writer.add_key_value_metadata(md)
                 self._writer.close()
             else:
                 if not self._kept:
@@ -512,6 +528,21 @@ def parquet_properties(schema, added, added_dictionary=()) -> dict:
         elif field.name in added_dictionary:
             dictionary += leaves
     return {"use_dictionary": dictionary or False, "write_statistics": statistics or False}
+
+
+def plain_parquet_schema(schema) -> bool:
+    """True when every column is a number, a boolean, text or bytes (dictionary-encoded or not):
+    types a Parquet file describes fully without a stored Arrow schema (text comes back as
+    ``string``)."""
+    import pyarrow as pa
+
+    def plain(t):
+        if pa.types.is_dictionary(t):
+            return plain(t.value_type)
+        return (pa.types.is_integer(t) or pa.types.is_floating(t) and not pa.types.is_float16(t)
+                or pa.types.is_boolean(t) or pa.types.is_string(t) or pa.types.is_binary(t))
+
+    return all(plain(f.type) for f in schema)
 
 
 def _plain_added(data, added):

@@ -244,9 +244,19 @@ def cmd_boundaries(args) -> int:
     return EXIT_OK
 
 
+DEMO_NAME = "kestrel_targets.ecsv"
+
+
 def demo_catalogue_path() -> Path:
-    """The bundled invented demo catalogue (``data/demo/`` of the source tree)."""
-    return Path(__file__).resolve().parents[2] / "data" / "demo" / "kestrel_targets.ecsv"
+    """The bundled invented demo catalogue.
+
+    An installed wheel carries it as package data (``hrstage/data/demo/``, copied there at build
+    time by ``setup.py``); a source checkout reads it from ``data/demo/``, its one copy in git.
+    """
+    packaged = Path(__file__).resolve().parents[1] / "data" / "demo" / DEMO_NAME
+    if packaged.is_file():
+        return packaged
+    return Path(__file__).resolve().parents[2] / "data" / "demo" / DEMO_NAME
 
 
 def cmd_demo(args) -> int:

@@ -79,6 +79,8 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
                       corr=pos.corr, feh=feh_clf, mass=mass, n_draws=opts.n_draws,
                       seed=chunk_seed(opts.seed, offset), **opts.params)
     cols = dict(res.to_columns(coded=True))
+    # the Teff as given (or derived), not 10**log10(Teff), which adds float noise (6023.000000000001)
+    cols["teff_used"] = np.where(np.isfinite(pos.teff), pos.teff, cols["teff_used"])
     src_texts, src_codes = pos.source_codes
     src_codes = np.where(done, src_codes, len(src_texts))
     cols["hr_source"] = CodedText(np.append(src_texts, "none"), src_codes)

@@ -18,7 +18,26 @@ from hrstage.catalog.arrow import table_to_arrow
 from hrstage.catalog.formats import arrow_csv, csv_supported, csv_text
 
 
+def _single_text(v):
+    """Shortest digits of a float32 in Python's layout (positional for 1e-4 <= |x| < 1e16, with a
+    ".0" on whole numbers; exponent form otherwise), written out with numpy's formatters."""
+    v = np.float32(v)
+    if not np.isfinite(v):
+        return str(v)
+    if v == 0 or 1e-4 <= abs(v) < 1e16:
+        return np.format_float_positional(v, unique=True, trim="0")
+    return np.format_float_scientific(v, unique=True, trim="-", exp_digits=2)
+
+
 def _astropy_text(table):
+    """astropy's CSV text, except that single-precision columns show their own shortest digits
+    (:func:`_single_text`, issue 16 item 4), where astropy writes the double they equal."""
+    table = table.copy()
+    for name in table.colnames:
+        col = table[name]
+        if col.dtype == np.float32:
+            text = np.array([_single_text(v) for v in np.asarray(col)], dtype=object)
+            table[name] = MaskedColumn(text, mask=np.ma.getmaskarray(col)) if hasattr(col, "mask") else text
     buf = io.StringIO()
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -71,7 +90,12 @@ def test_values_read_back_exactly_through_pyarrow():
         assert back.column(name).type == pa.float64()      # whole numbers keep their ".0"
         assert np.array_equal(a.view(np.int64)[np.isfinite(a)], b.view(np.int64)[np.isfinite(a)])
         assert np.array_equal(np.isnan(a), np.isnan(b))
-    assert np.array_equal(back.column("single").to_numpy(), np.asarray(t["single"], dtype=np.float64))
+    # single precision: its shortest text reads back as the same float32 (issue 16 item 4)
+    single = np.asarray(t["single"])
+    got = back.column("single").to_numpy()
+    assert np.array_equal(got.astype(np.float32), single)
+    fin = np.isfinite(single)
+    assert np.array_equal(got[fin], np.array([float(_single_text(v)) for v in single[fin]]))
     assert back.column("text").to_pylist() == list(t["text"])
 
 
@@ -102,3 +126,23 @@ def test_columns_astropy_must_format_fall_back():
     t = Table({"x": [1.23456, 2.5], "y": [1, 2]})
     t["x"].info.format = ".2f"                  # a display format: astropy's writer applies it
     assert csv_text(t) == _astropy_text(t) == "x,y\n1.23,1\n2.50,2\n"
+
+
+def test_single_precision_and_exact_inputs_keep_their_digits(tmp_path):
+    """Issue 16 item 4: ``mass_est`` (float32) was written 1.1643750667572021 and ``teff_used``
+    6023.000000000001 for an input Teff of 6023 (through 10**log10)."""
+    from hrstage.engine import classify_file
+
+    t = Table({"teff": [6023.0, 5777.0, 4321.5, 7001.0], "lum": [1.6, 1.0, 0.3, 4.4]})
+    t["x32"] = np.array([1.1643750667572021, 0.1, 1e-5, 123456.78], dtype=np.float32)
+    assert csv_text(t[["x32"]]) == "x32\n1.1643751\n0.1\n1e-05\n123456.78\n"    # shortest float32 digits
+    src = tmp_path / "in.ecsv"
+    t.write(src)
+    out = tmp_path / "out.csv"
+    classify_file(src, out, n_draws=0)
+    rows = out.read_text().splitlines()
+    head = rows[0].split(",")
+    teff_used = [r.split(",")[head.index("teff_used")] for r in rows[1:]]
+    assert teff_used == ["6023.0", "5777.0", "4321.5", "7001.0"]
+    mass = [r.split(",")[head.index("mass_est")] for r in rows[1:]]
+    assert all(len(m.replace(".", "").replace("-", "").lstrip("0")) <= 9 for m in mass), mass

@@ -82,9 +82,11 @@ def test_our_columns_carry_unit_description_ucd(tmp_path, fmt):
         from astropy.io import fits
 
         hdr = fits.getheader(path, 1)
-        # FITS 4.0 standard §7.3.2: TUNITn carries the unit string; TCOMMn holds our description
-        assert hdr["TUNIT3"] == "dex(solLum)"
+        # FITS 4.0 standard §4.3 lists the units TUNITn may hold; dex is not among them (astropy's
+        # FITS unit grammar refuses it), so the log column has no TUNIT and we keep the unit in HRSUn
+        assert "TUNIT3" not in hdr and hdr["HRSU3"] == "dex(solLum)"
         assert hdr["TCOMM2"].startswith("Evolutionary stage")
+        assert hdr["TCOMM3"].startswith("log10 luminosity")
 
 
 def test_csv_keeps_exact_doubles(tmp_path):
@@ -219,3 +221,30 @@ def test_output_mode_follows_umask_not_tempfile(tmp_path, fmt):
         assert path.stat().st_mode & 0o777 == 0o604
     finally:
         os.umask(old)
+
+
+@pytest.mark.parametrize("chunk_rows", [None, 7])
+@pytest.mark.parametrize("fmt", [f for f in FORMATS if f != "csv"])
+def test_written_files_read_back_in_astropy_without_warnings(tmp_path, fmt, chunk_rows):
+    """Issue 16 item 3: FITS wrote TUNIT 'dex(solLum)' (astropy: "not supported by the FITS
+    standard") and Parquet lacked the ``table::len::`` widths astropy's reader wants (one warning
+    per text column). Whole-table and streamed (chunked) outputs of classify_file."""
+    import warnings
+
+    from hrstage.engine import classify_file
+
+    rng = np.random.default_rng(5)
+    n = 30
+    t = Table({"star": [f"S-{i}" for i in range(n)], "teff": rng.uniform(3500, 9000, n),
+               "lum": 10 ** rng.uniform(-1, 2.5, n), "sptype": ["G2V", "K0III", "", "A0V", "M2III", "F5IV"] * 5})
+    src = tmp_path / "in.ecsv"
+    write_table(t, src)
+    out = tmp_path / f"out{SUFFIX[fmt]}"
+    classify_file(src, out, chunk_rows=chunk_rows, n_draws=0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        plain = Table.read(out)
+    assert len(plain) == n and "flag_text" in plain.colnames
+    ours = read_table(out)              # hrstage's reader keeps the log units
+    assert ours["logl_used"].unit == u.Unit("dex(solLum)") and ours["logt_err"].unit == u.dex
+    assert ours["mass_est"].unit == u.solMass
