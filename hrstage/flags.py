@@ -24,6 +24,7 @@ COLOUR_OUT_OF_RANGE = 1 << 10   #: colour outside the colour-Teff relation's ran
 BC_FALLBACK = 1 << 11           #: bolometric correction outside its fit range, fallback used
 NO_EXTINCTION = 1 << 12         #: no extinction given, none applied
 LOGG_ITERATION = 1 << 13        #: log g -> L iteration did not converge
+TWO_READINGS = 1 << 15          #: photometry fits two readings (white dwarf / hot star or subdwarf)
 # --- input problems (layer 6) -------------------------------------------------------------
 MISSING_INPUT = 1 << 16         #: a needed value is missing / masked / NaN
 BAD_INPUT = 1 << 17             #: a needed value is non-physical (negative L, sentinel, inf)
@@ -45,6 +46,8 @@ DESCRIPTIONS = {
     BC_FALLBACK: "bolometric correction outside its fit range; fallback relation used",
     NO_EXTINCTION: "no extinction given; none applied",
     LOGG_ITERATION: "log g to luminosity iteration did not converge",
+    TWO_READINGS: "colour and absolute magnitude fit two readings (white dwarf or not) within the errors; "
+                  "the stage probabilities mix both",
     MISSING_INPUT: "a required input is missing",
     BAD_INPUT: "a required input is non-physical",
     SPTYPE_CONFLICT: "catalogued spectral type conflicts with the HR position",

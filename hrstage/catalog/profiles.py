@@ -65,6 +65,9 @@ _R = [
     Role("rp", "mag", "float", None, "Gaia RP magnitude (with bp gives bp_rp)"),
     Role("parallax", "mas", "float", "pos.parallax", "trigonometric parallax"),
     Role("parallax_err", "mas", "float", "stat.error;pos.parallax", "1-sigma error of parallax"),
+    Role("distance", "pc", "float", "pos.distance", "published distance estimate (median), replaces 1/parallax"),
+    Role("distance_lo", "pc", "float", None, "16th percentile of the published distance"),
+    Role("distance_hi", "pc", "float", None, "84th percentile of the published distance"),
     Role("v", "mag", "float", "phot.mag;em.opt.V", "Johnson V apparent magnitude"),
     Role("v_err", "mag", "float", "stat.error;phot.mag;em.opt.V", "1-sigma error of v"),
     Role("b_v", "mag", "float", "phot.color;em.opt.B;em.opt.V", "Johnson B-V colour"),
@@ -84,8 +87,8 @@ ROLES = {r.name: r for r in _R}
 ROUTES = {
     "teff_lum": (("teff", "logt"), ("lum", "logl")),
     "teff_radius": (("teff", "logt"), ("radius",)),
-    "gaia": (("g",), ("bp_rp", "bp+rp"), ("parallax",)),
-    "johnson": (("v",), ("b_v",), ("parallax",)),
+    "gaia": (("g",), ("bp_rp", "bp+rp"), ("parallax", "distance")),
+    "johnson": (("v",), ("b_v",), ("parallax", "distance")),
     "teff_logg": (("teff", "logt"), ("logg",)),
 }
 
@@ -101,6 +104,20 @@ _COMMON = {
     "id": ("id", "name", "star", "star_id", "object", "designation", "target", "target_id", "obj_id"),
     "logg": ("logg", "log_g", "logg_cgs"),
     "logg_err": ("logg_err", "e_logg", "logg_error", "sig_logg", "e_log_g", "s_logg"),
+}
+
+
+#: Published distances (Bailer-Jones et al. 2021, AJ 161, 147: VizieR I/352 names rgeo, b_rgeo, B_rgeo,
+#: rpgeo, ...; Gaia archive names r_med_geo, r_lo_geo, r_hi_geo, ...). Geometric before photo-geometric.
+#: A candidate starting with "=" matches the column name exactly, case included: VizieR tells the
+#: lower and upper bounds apart only by the case of "b_" / "B_".
+_DISTANCE = {
+    "distance": ("rgeo", "r_med_geo", "rpgeo", "r_med_photogeo", "distance", "dist", "distance_pc", "dist_pc",
+                 "r_med"),
+    "distance_lo": ("=b_rgeo", "r_lo_geo", "=b_rpgeo", "r_lo_photogeo", "distance_lo", "dist_lo", "r_lo",
+                    "distance_p16", "dist_16"),
+    "distance_hi": ("=B_rgeo", "r_hi_geo", "=B_rpgeo", "r_hi_photogeo", "distance_hi", "dist_hi", "r_hi",
+                    "distance_p84", "dist_84"),
 }
 
 
@@ -142,6 +159,7 @@ PROFILES = {
              "parallax": ("parallax", "plx", "parallax_mas", "plx_mas"),
              "parallax_err": ("parallax_error", "parallax_err", "e_plx", "plx_err", "e_parallax",
                               "plx_error"),
+             **_DISTANCE,
              "a_g": ("ag_gspphot", "a_g", "ag", "a_g_val"),
              "e_bp_rp": ("ebpminrp_gspphot", "e_bp_rp_red", "ebprp", "e(bp-rp)"),
              "teff": ("teff_gspphot", "teff_gspspec", "teff_esphs", "teff"),
@@ -162,6 +180,7 @@ PROFILES = {
              "b_v_err": ("b_v_err", "e_b-v_col", "bv_err", "b_v_error", "sig_b_v"),
              "parallax": ("plx", "plx_mas", "parallax", "parallax_mas", "pi"),
              "parallax_err": ("e_plx", "e_plx_mas", "plx_err", "parallax_error", "parallax_err", "e_pi"),
+             **_DISTANCE,
              "ks": ("ksmag", "ks", "kmag", "k_mag", "ks_mag", "k"),
              "ks_err": ("e_ksmag", "ks_err", "e_kmag", "e_ks"),
              "a_v": ("av", "a_v", "ext_v", "extinction_v"),
@@ -226,6 +245,18 @@ def infos_from_table(table) -> list:
     return out
 
 
+def _is_length_or_none(unit: str | None) -> bool:
+    """True for no unit or a unit of length (pc, kpc, ...)."""
+    if not unit:
+        return True
+    from astropy import units as u
+
+    try:
+        return u.Unit(unit).physical_type == "length"
+    except (ValueError, TypeError):
+        return False
+
+
 def _is_log_unit(unit: str | None) -> bool:
     if not unit:
         return False
@@ -259,9 +290,12 @@ def _match(profile: Profile, infos, taken) -> dict:
         by_key.setdefault(normalise(info.name), info)
     found = {}
     used = set(taken)
+    exact = {info.name: info for info in infos}
     for role, names in profile.candidates.items():
         for cand in names:
-            info = by_key.get(normalise(cand))
+            info = exact.get(cand[1:]) if cand.startswith("=") else by_key.get(normalise(cand))
+            if info is not None and role in _DISTANCE and not _is_length_or_none(info.unit):
+                continue   # e.g. a cross-match separation "dist" in arcsec is not a distance
             if info is not None and info.name not in used:
                 found[role] = info
                 used.add(info.name)

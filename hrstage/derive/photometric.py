@@ -10,8 +10,9 @@ from astropy import units as u
 
 from .. import flags as F
 from ..errors import HrstageInputError
-from ..models import bolometric, casagrande2010, casagrande2021, flower_teff, mucciarelli2021, riello2021
-from . import extinction
+from ..models import (bolometric, casagrande2010, casagrande2021, flower_teff, mucciarelli2021, pecaut_mamajek2013,
+                      riello2021)
+from . import _readings, extinction
 from ._constants import LN10, LOGG_SUN, TEFF_SUN
 from ._errors import Propagator, derivative_rows
 from ._inputs import broadcast, check_values, error_or_zero, or_flag, to_float
@@ -60,6 +61,91 @@ def _parallax(plx, plx_err, zp, min_snr, flags):
     return safe, dist_pc, mu_term, dlogl_dplx, snr
 
 
+def _distance(a, n, flags, flags_pre, p_sig, plx_c, dist_pc, mu_term):
+    """Published distances (median, 16th/84th percentiles, pc) where a row has one, else the parallax.
+
+    Returns ``(dist_pc, mu_term, sig_m_dist, dist_rows, d_lo, d_hi)``: ``sig_m_dist`` is the distance
+    share of the absolute-magnitude error (mag) on every row (parallax or distance), ``dist_rows`` the
+    rows that use a published distance (None: no distance input), ``d_lo``/``d_hi`` the half-widths in
+    log10 d below and above the median (0 where no interval). In log d the 16-84 % interval is used as
+    a Gaussian of 1-sigma (log d_hi - log d_lo) / 2 for the covariance; each side's own width gives the
+    asymmetric ``logl_err_lo`` / ``logl_err_hi`` extras. NONPOSITIVE_PARALLAX is cleared on rows
+    placed by a distance, and so are the parallax's MISSING_INPUT / BAD_INPUT (``flags_pre``: the
+    flags before the parallax was read); an interval that does not bracket the median is BAD_INPUT
+    (ignored). LOW_PARALLAX_SNR stays: such a distance leans on its prior.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sig_m_plx = np.where(p_sig > 0, 5.0 / LN10 * p_sig / plx_c, 0.0)
+    d = a.get("dist")
+    if d is None:
+        return dist_pc, mu_term, sig_m_plx, None, None, None
+    use = np.isfinite(d) & (d > 0)
+    plx_bits = np.int64(F.NONPOSITIVE_PARALLAX | F.MISSING_INPUT | F.BAD_INPUT)
+    flags[use] = flags_pre[use] | (flags[use] & ~plx_bits)
+    or_flag(flags, np.isinf(d) | (d <= 0), F.BAD_INPUT)
+    lo = a.get("dist_lo")
+    hi = a.get("dist_hi")
+    lo = np.full(n, np.nan) if lo is None else lo
+    hi = np.full(n, np.nan) if hi is None else hi
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ld = np.log10(np.where(use, d, np.nan))
+        dlo = ld - np.log10(np.where(lo > 0, lo, np.nan))
+        dhi = np.log10(np.where(hi > 0, hi, np.nan)) - ld
+    given_lo, given_hi = np.isfinite(lo), np.isfinite(hi)
+    bad = use & ((given_lo & ~(dlo >= 0)) | (given_hi & ~(dhi >= 0)))
+    or_flag(flags, bad, F.BAD_INPUT)
+    dlo = np.where(use & ~bad & np.isfinite(dlo), dlo, 0.0)
+    dhi = np.where(use & ~bad & np.isfinite(dhi), dhi, 0.0)
+    # one side only: the other taken equal to it
+    dlo = np.where((dlo == 0) & (dhi > 0), dhi, dlo)
+    dhi = np.where((dhi == 0) & (dlo > 0), dlo, dhi)
+    sig_logd = 0.5 * (dlo + dhi)
+    dist_pc = np.where(use, d, dist_pc)
+    mu_term = np.where(use, 5.0 - 5.0 * ld, mu_term)
+    sig_m = np.where(use, 5.0 * sig_logd, sig_m_plx)
+    return dist_pc, mu_term, sig_m, use, dlo, dhi
+
+
+def _distance_raw(distance, distance_lo, distance_hi):
+    """The distance inputs as plain pc arrays (absent: not in the dict)."""
+    out = {}
+    for key, value, name in (("dist", distance, "distance"), ("dist_lo", distance_lo, "distance_lo"),
+                             ("dist_hi", distance_hi, "distance_hi")):
+        if value is not None:
+            out[key] = to_float(value, name, u.pc)
+    if "dist" not in out and out:
+        raise HrstageInputError("distance_lo / distance_hi given without distance (the median)")
+    return out
+
+
+def _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows):
+    """The distance share of the (log T, log L) covariance: parallax rows as before, distance rows
+    through 1-sigma log d = sig_m_dist / 5 (d log L / d log d = 2)."""
+    if dist_rows is None:
+        prop.add(p_sig, 0.0, dlogl_dplx)
+        return
+    prop.add(np.where(dist_rows, 0.0, p_sig), 0.0, np.where(dist_rows, 0.0, dlogl_dplx))
+    prop.add(np.where(dist_rows, sig_m_dist / 5.0, 0.0), 0.0, 2.0)
+
+
+def _distance_labels(ext_label, dist_rows):
+    """Third part of the provenance: extinction, and whether a published distance replaced 1/parallax."""
+    if dist_rows is None:
+        return [ext_label], 0
+    return [ext_label, f"{ext_label}; distance: published median (16-84 %) instead of 1/parallax"], \
+        dist_rows.astype(np.int64)
+
+
+def _asymmetric_logl(pos, sig_m_dist, dist_rows, d_lo, d_hi):
+    """``logl_err_lo`` / ``logl_err_hi`` extras: the log L error with the distance term of each side."""
+    if dist_rows is None:
+        return pos
+    base = np.maximum(pos.logl_err ** 2 - (0.4 * sig_m_dist) ** 2, 0.0)
+    for key, side in (("logl_err_lo", d_lo), ("logl_err_hi", d_hi)):
+        pos.extra[key] = np.where(dist_rows, np.sqrt(base + (2.0 * side) ** 2), pos.logl_err)
+    return pos
+
+
 def _logg_estimate(teff, logl):
     """log g from (Teff, L) for an assumed mass of :data:`ASSUMED_MASS` Msun (cgs)."""
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -71,10 +157,18 @@ def _source_table(teff_labels, lum_labels, ext_labels):
     return np.array(table, dtype=object)
 
 
-def _finish(n, teff, logl, prop, flags, source, extra):
-    """``source`` is ``(texts, codes)``: the provenance table and an index per row."""
+def _finish(n, teff, logl, prop, flags, source, extra, replace=None):
+    """``source`` is ``(texts, codes)``: the provenance table and an index per row. ``replace``:
+    ``(rows, logt, logl, logt_err, logl_err, corr)`` of rows placed by another reading."""
     texts, codes = source
     logt_err, logl_err, corr = prop.result()
+    if replace is not None:
+        rows, r_lt, r_ll, r_elt, r_ell, r_corr = replace
+        teff[rows] = 10.0 ** r_lt
+        logl[rows] = r_ll
+        logt_err[rows] = r_elt
+        logl_err[rows] = r_ell
+        corr[rows] = r_corr
     with np.errstate(divide="ignore", invalid="ignore"):
         logt = np.log10(teff)
     tbad = ~np.isfinite(teff)
@@ -121,7 +215,8 @@ def _shared_inputs(a, n, flags):
 def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=None, parallax_zp=0.0,
               a_g=None, e_bp_rp=None, a_v=None, r_v=3.1, feh=None, logg=None, teff=None, teff_err=None,
               min_parallax_snr=5.0, teff_relation="casagrande2021", gaia_release="dr3",
-              extinction_curve="G23") -> HRPosition:
+              extinction_curve="G23", wd_atmosphere="H", distance=None, distance_lo=None,
+              distance_hi=None) -> HRPosition:
     """(Teff, L) from Gaia G, BP-RP and parallax.
 
     Parameters
@@ -158,6 +253,13 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
         Photometry release, selects the Casagrande et al. 2021 coefficient set.
     extinction_curve : {"G23", "F99"}
         Extinction curve of dust_extinction.
+    wd_atmosphere : {"H", "He"}
+        Atmosphere of the white-dwarf reading: Montreal DA (pure H, default) or DB (pure He) grid.
+    distance, distance_lo, distance_hi : array_like or Quantity [length], optional
+        Published distance estimates (pc if plain numbers): median and 16th / 84th percentiles
+        (e.g. Bailer-Jones et al. 2021 geometric or photo-geometric). Where a row has a distance it
+        replaces 1/parallax; the interval's asymmetric errors give ``logl_err_lo`` / ``logl_err_hi``
+        in ``extra`` (the symmetric ``logl_err`` uses half the interval in log d).
 
     Returns
     -------
@@ -165,6 +267,15 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
 
     Notes
     -----
+    Blue and faint stars (no ``teff`` given) have other readings (:mod:`hrstage.derive._readings`,
+    ``docs/derive.md``): the white-dwarf reading (Montreal grids in (BP-RP)_0, M_G) for stars on or
+    near the white-dwarf sequence, the hot-star reading (Pecaut & Mamajek 2013) for
+    -0.12 <= (BP-RP)_0 < 0.20 and the hot-subdwarf reading bluer than that and fainter than
+    M_G = 2. The more probable reading gives Teff and L; the other, where it keeps >= 5 % of the
+    probability, is returned in ``extra`` (``other_logt``, ``other_logl``, ... ``p_other``) and the
+    row is flagged TWO_READINGS. ``extra`` also holds ``wd_prob``, ``wd_mass``, ``wd_logg`` and
+    ``radius`` (Rsun) of the white-dwarf reading.
+
     Teff: (BP-RP)_0 through the chosen relation. Where log g is not given it is estimated from
     (Teff, L) assuming 1 Msun, updated twice starting from 4.4 (the relations depend on log g by
     only ~20-90 K per dex); rows without a luminosity keep log g = 4.4 (or 2.0 where the dwarf colour range is exceeded but the giant one is not). The estimated log g is
@@ -180,6 +291,8 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
         raise HrstageInputError(f"teff_relation must be 'casagrande2021' or 'mucciarelli2021', got {teff_relation!r}")
     if gaia_release not in casagrande2021.RELEASES:
         raise HrstageInputError(f"gaia_release must be one of {casagrande2021.RELEASES}, got {gaia_release!r}")
+    if wd_atmosphere not in ("H", "He"):
+        raise HrstageInputError(f"wd_atmosphere must be 'H' or 'He', got {wd_atmosphere!r}")
     mas = u.mas
     raw = {
         "g": to_float(g, "g", u.mag), "bp_rp": to_float(bp_rp, "bp_rp", u.mag),
@@ -190,6 +303,7 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
         "a_g": to_float(a_g, "a_g", u.mag), "e_bp_rp": to_float(e_bp_rp, "e_bp_rp", u.mag),
         "a_v": to_float(a_v, "a_v", u.mag), "feh": to_float(feh, "feh"), "logg": to_float(logg, "logg"),
         "teff": to_float(teff, "teff", u.K), "teff_err": to_float(teff_err, "teff_err", u.K),
+        **_distance_raw(distance, distance_lo, distance_hi),
     }
     n, a = broadcast(raw)
     flags = np.zeros(n, dtype=np.int64)
@@ -229,8 +343,11 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     g0 = np.where(g_ok, gmag - a_g_arr, np.nan)
 
     # --- distance -----------------------------------------------------------------------------
+    flags_pre = flags.copy() if "dist" in a else None
     plx_c, dist_pc, mu_term, dlogl_dplx, snr = _parallax(a["plx"], p_sig, a["zp"] if a["zp"] is not None else 0.0,
                                                          min_parallax_snr, flags)
+    dist_pc, mu_term, sig_m_dist, dist_rows, d_lo, d_hi = _distance(a, n, flags, flags_pre, p_sig, plx_c, dist_pc,
+                                                                    mu_term)
     abs_g = g0 + mu_term
 
     # --- Teff from colour, with the log g choice ----------------------------------------------
@@ -323,8 +440,14 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     prop.add(g_sig, 0.0, -0.4)
     prop.add(c_sig, dtdc * inv_tln, -0.4 * (dbc_dt * dtdc - dgv_dc))
     prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
-    prop.add(p_sig, 0.0, dlogl_dplx)
+    _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows)
     prop.add(bc_sig, 0.0, -0.4)
+
+    # --- blue and faint stars: the white-dwarf, hot-star and hot-subdwarf readings -------------
+    extra_readings = {}
+    replace, tcode, lcode = _gaia_other_readings(c0, abs_g, c_sig, g_sig, sig_m_dist, need_colour, tcode, lcode,
+                                                 flags, gaia_release, wd_atmosphere, extra_readings,
+                                                 (teff_out, logl, prop))
 
     rel_name = f"Casagrande+2021 {gaia_release.upper()}"
     teff_labels = ["Teff: none", "Teff: input",
@@ -332,17 +455,122 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
                    f"Teff: {rel_name} (BP-RP)0, logg est. (1 Msun)",
                    "Teff: Mucciarelli+2021 dwarf (BP-RP)0",
                    "Teff: Mucciarelli+2021 giant (BP-RP)0",
-                   f"Teff: {rel_name} (BP-RP)0 [fallback]"]
+                   f"Teff: {rel_name} (BP-RP)0 [fallback]",
+                   *_GAIA_READING_TEFF]
     lum_labels = ["L: none", "L: G+BC_G(Andrae+2018)+parallax",
-                  "L: G+BC_V(Flower/Torres)-(G-V)(Riello+2021)+parallax [BC fallback]"]
-    table = _source_table(teff_labels, lum_labels, [ext_label])
-    source = (table, tcode * len(lum_labels) + lcode)
+                  "L: G+BC_V(Flower/Torres)-(G-V)(Riello+2021)+parallax [BC fallback]",
+                  *_GAIA_READING_LUM]
+    ext_labels, dcode = _distance_labels(ext_label, dist_rows)
+    table = _source_table(teff_labels, lum_labels, ext_labels)
+    source = (table, (tcode * len(lum_labels) + lcode) * len(ext_labels) + dcode)
     extra = {
         "distance_pc": dist_pc, "parallax_corrected": plx_c, "parallax_snr": np.where(np.isfinite(snr), snr, np.nan),
         "abs_mag": abs_g, "bc": bc, "extinction": a_g_arr, "colour_excess": e_arr, "colour0": c0,
-        "logg_used": np.where(teff_given, np.nan, gw_eval), "feh_used": feh_used,
+        "logg_used": np.where(teff_given, np.nan, gw_eval), "feh_used": feh_used, **extra_readings,
     }
-    return _finish(n, teff_out, logl, prop, flags, source, extra)
+    if replace is not None:   # rows placed by another reading did not use the log g estimate
+        extra["logg_used"][replace[0]] = np.nan
+    return _asymmetric_logl(_finish(n, teff_out, logl, prop, flags, source, extra, replace), sig_m_dist,
+                            dist_rows, d_lo, d_hi)
+
+
+#: provenance of the other Gaia readings (Teff codes 7-10, L codes 3-5)
+_GAIA_READING_TEFF = ["Teff: Pecaut+Mamajek 2013 dwarf sequence (BP-RP)0",
+                      "Teff: white dwarf, Montreal DA grid in (BP-RP)0 and M_G",
+                      "Teff: white dwarf, Montreal DB grid in (BP-RP)0 and M_G",
+                      "Teff: hot subdwarf, log g=7 DA colour scale (BP-RP)0 [approximate]"]
+_GAIA_READING_LUM = ["L: G+BC_G(Pecaut+Mamajek 2013)+parallax",
+                     "L: G+BC_G(Montreal white-dwarf grid)+parallax",
+                     "L: G+BC_G(log g=7 DA grid, approximate)+parallax"]
+_READING_CODES = {"hot": (7, 3), "wd_H": (8, 4), "wd_He": (9, 4), "subdwarf": (10, 5)}
+#: bits a reading replaces (they described the cool relations' failure on these rows)
+_READING_CLEARS = F.COLOUR_OUT_OF_RANGE | F.OUTSIDE_VALIDITY | F.BC_FALLBACK | F.MISSING_INPUT
+
+
+def _gaia_other_readings(c0, abs_g, c_sig, g_sig, sig_m_dist, need_colour, tcode, lcode, flags, release,
+                         atmosphere, extra, cool_reading):
+    """Rows read as white dwarfs, hot stars or hot subdwarfs (see :mod:`._readings`): returns the
+    ``replace`` tuple for :func:`_finish` (or None) and the updated provenance codes; fills
+    ``extra`` and ``flags`` in place. Only the rows that can have another reading are evaluated."""
+    n = c0.size
+    sig_m = np.hypot(g_sig, sig_m_dist)
+    fin = need_colour & np.isfinite(c0) & np.isfinite(abs_g)
+    blue = fin & (c0 < _readings.HOT_GAIA_LIMIT)
+    cand = np.flatnonzero(blue | (fin & _readings.edge_screen(c0, abs_g, np.where(np.isfinite(sig_m), sig_m, 0.0))))
+    if cand.size == 0:
+        return None, tcode, lcode
+    c, m, sc = c0[cand], abs_g[cand], c_sig[cand]
+    sm = np.where(np.isfinite(sig_m[cand]), sig_m[cand], 0.0)
+    wd = _readings.white_dwarf(c, m, sc, sm, system="gaia", release=release, atmosphere=atmosphere)
+    # the non-white-dwarf reading of these rows: the cool relation (already computed), else hot star / subdwarf
+    k = cand.size
+    star = {key: np.full(k, np.nan) for key in ("logt", "logl", "logt_err", "logl_err", "corr")}
+    kind = np.full(k, "", dtype=object)
+    hot = (c >= pecaut_mamajek2013.BP_RP_RANGE[0]) & (c < _readings.HOT_GAIA_LIMIT)
+    sub = (c < pecaut_mamajek2013.BP_RP_RANGE[0]) & (m > _readings.SUBDWARF_MIN_ABS_G)
+    for mask, name, fn in ((hot, "hot", lambda i: _readings.hot_star(c[i], m[i], sc[i], sm[i])),
+                           (sub, "subdwarf", lambda i: _readings.hot_subdwarf(c[i], m[i], sc[i], sm[i],
+                                                                               release=release))):
+        i = np.flatnonzero(mask)
+        if i.size:
+            r = fn(i)
+            for key in star:
+                star[key][i] = r[key]
+            kind[i] = name
+    cool = ~(hot | sub)       # the cool reading: replaced only where the white-dwarf one wins
+    i = np.flatnonzero(cool)
+    if i.size:
+        t_cool, l_cool, prop = cool_reading
+        rows_c = cand[i]
+        var_t, var_l, cov = prop.var_t[rows_c], prop.var_l[rows_c], prop.cov[rows_c]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            star["logt"][i] = np.log10(t_cool[rows_c])
+            star["logt_err"][i] = np.sqrt(var_t)
+            star["logl_err"][i] = np.sqrt(var_l)
+            d = np.sqrt(var_t * var_l)
+            star["corr"][i] = np.where(d > 0, np.clip(cov / d, -1, 1), 0.0)
+        star["logl"][i] = l_cool[rows_c]
+    wd_ok = np.isfinite(wd["logt"]) & np.isfinite(wd["logl"])
+    star_ok = np.isfinite(star["logt"]) & np.isfinite(star["logl"])
+    p = np.where(wd_ok, wd["p"], 0.0)
+    use_wd = wd_ok & ((p >= 0.5) | (~star_ok & ~cool))
+    use_star = ~use_wd & star_ok
+    take = use_wd | (use_star & ~cool)
+    rows = cand[take]
+    pick = {key: np.where(use_wd, wd[key], star[key])[take] for key in star}
+    # provenance codes
+    wd_codes = _READING_CODES["wd_" + atmosphere]
+    tnew = np.where(use_wd, wd_codes[0], np.where(kind == "hot", 7, 10))
+    lnew = np.where(use_wd, wd_codes[1], np.where(kind == "hot", 3, 5))
+    tcode = tcode.copy()
+    lcode = lcode.copy()
+    tcode[rows] = tnew[take]
+    lcode[rows] = lnew[take]
+    flags[rows] &= ~np.int64(_READING_CLEARS)
+    or_flag(flags, np.isin(np.arange(n), cand[(use_wd & wd["extrapolated"]) | (use_star & (kind == "subdwarf"))]),
+            F.OUTSIDE_VALIDITY)
+    # the other reading, where it keeps at least P_AMBIGUOUS of the probability
+    p_chosen = np.where(use_wd, p, 1.0 - p)
+    other_ok = np.where(use_wd, star_ok, wd_ok)
+    amb = (use_wd | use_star) & other_ok & (1.0 - p_chosen >= _readings.P_AMBIGUOUS)
+    full = lambda: np.full(n, np.nan)  # noqa: E731
+    wd_prob = full()
+    wd_prob[cand] = np.where(wd_ok, p, np.nan)
+    extra["wd_prob"] = wd_prob
+    for key, src in (("wd_mass", "mass"), ("wd_logg", "logg")):
+        a = full()
+        a[cand[use_wd]] = wd[src][use_wd]
+        extra[key] = a
+    if amb.any():
+        ia = np.flatnonzero(amb)
+        other = {key: full() for key in ("other_logt", "other_logl", "other_logt_err", "other_logl_err",
+                                          "other_corr", "p_other")}
+        for key in star:
+            other["other_" + key][cand[ia]] = np.where(use_wd, star[key], wd[key])[ia]
+        other["p_other"][cand[ia]] = 1.0 - p_chosen[ia]
+        or_flag(flags, np.isin(np.arange(n), cand[ia]), F.TWO_READINGS)
+        extra.update(other)
+    return (rows, pick["logt"], pick["logl"], pick["logt_err"], pick["logl_err"], pick["corr"]), tcode, lcode
 
 
 # --------------------------------------------------------------------------------------------
@@ -351,7 +579,8 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
 
 def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=None, v_ks=None, v_ks_err=None,
                  e_b_v=None, a_v=None, r_v=3.1, feh=None, teff=None, teff_err=None, parallax_zp=0.0,
-                 min_parallax_snr=5.0, extinction_curve="G23") -> HRPosition:
+                 min_parallax_snr=5.0, extinction_curve="G23", distance=None, distance_lo=None,
+                 distance_hi=None) -> HRPosition:
     """(Teff, L) from Johnson V, B-V (and V-Ks) and parallax.
 
     Parameters
@@ -372,7 +601,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
         [Fe/H] (default 0) for Casagrande et al. 2010.
     teff, teff_err : array_like or Quantity [K], optional
         Teff to use where given instead of the colours.
-    parallax_zp, min_parallax_snr, extinction_curve
+    parallax_zp, min_parallax_snr, extinction_curve, distance, distance_lo, distance_hi
         As in :func:`from_gaia`.
 
     Returns
@@ -396,6 +625,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
         "v_ks_err": to_float(v_ks_err, "v_ks_err", u.mag), "e_b_v": to_float(e_b_v, "e_b_v", u.mag),
         "a_v": to_float(a_v, "a_v", u.mag), "feh": to_float(feh, "feh"), "teff": to_float(teff, "teff", u.K),
         "teff_err": to_float(teff_err, "teff_err", u.K), "zp": to_float(parallax_zp, "parallax_zp", mas),
+        **_distance_raw(distance, distance_lo, distance_hi),
     }
     n, a = broadcast(raw)
     flags = np.zeros(n, dtype=np.int64)
@@ -434,8 +664,11 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     vks0 = vks - av_arr * (1.0 - k_ks)
     v0 = np.where(v_ok, vmag - av_arr, np.nan)
 
+    flags_pre = flags.copy() if "dist" in a else None
     plx_c, dist_pc, mu_term, dlogl_dplx, snr = _parallax(a["plx"], p_sig, a["zp"] if a["zp"] is not None else 0.0,
                                                          min_parallax_snr, flags)
+    dist_pc, mu_term, sig_m_dist, dist_rows, d_lo, d_hi = _distance(a, n, flags, flags_pre, p_sig, plx_c, dist_pc,
+                                                                    mu_term)
     abs_v = v0 + mu_term
 
     # --- first pass: dwarf or giant? ----------------------------------------------------------
@@ -490,17 +723,19 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     prop.add(bv_sig, dt_dbv * inv_tln, -0.4 * dbc_dt * dt_dbv)
     prop.add(vks_sig, dt_dvks * inv_tln, -0.4 * dbc_dt * dt_dvks)
     prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
-    prop.add(p_sig, 0.0, dlogl_dplx)
+    _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows)
 
     teff_labels = ["Teff: none", "Teff: input", "Teff: Casagrande+2010 (V-Ks)0 dwarf",
                    "Teff: Casagrande+2010 (B-V)0 dwarf", "Teff: Flower 1996 (B-V)0",
                    "Teff: Flower 1996 supergiant (B-V)0"]
     lum_labels = ["L: none", "L: V+BC_V(Flower/Torres, Mbol_sun=4.73)+parallax"]
-    table = _source_table(teff_labels, lum_labels, [ext_label])
-    source = (table, tcode * len(lum_labels) + lcode)
+    ext_labels, dcode = _distance_labels(ext_label, dist_rows)
+    table = _source_table(teff_labels, lum_labels, ext_labels)
+    source = (table, (tcode * len(lum_labels) + lcode) * len(ext_labels) + dcode)
     extra = {
         "distance_pc": dist_pc, "parallax_corrected": plx_c, "parallax_snr": np.where(np.isfinite(snr), snr, np.nan),
         "abs_mag": abs_v, "bc": bc, "extinction": av_arr, "colour_excess": ebv_arr, "colour0": bv0,
         "logg_estimate": g_est, "feh_used": feh_used,
     }
-    return _finish(n, teff_out, logl, prop, flags, source, extra)
+    return _asymmetric_logl(_finish(n, teff_out, logl, prop, flags, source, extra), sig_m_dist, dist_rows,
+                            d_lo, d_hi)

@@ -15,6 +15,7 @@ from ..columns import COLUMNS
 from ..stages import STAGES, UNCLASSIFIED as _UNCLASSIFIED_CODE
 from .options import ClassifyOptions, column_dtype, our_columns
 from .routing import ROUTE_NEEDS, ROUTE_TEXT, log_lum, positions, status_reason
+from .readings import mix_other_reading
 
 #: Roles read for other faces (plots, reports) but not needed to classify a row.
 UNUSED_ROLES = ("id",)
@@ -86,6 +87,9 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
     cols["hr_source"] = CodedText(np.append(src_texts, "none"), src_codes)
     stage_code = np.where(done, res.code, _UNCLASSIFIED_CODE)
     cols["stage"] = CodedText(STAGES, stage_code)
+    mix_other_reading(cols, pos, lambda rows, *hr: classify_hr(  # two photometric readings: mixed probabilities
+        hr[0], hr[1], logt_err=hr[2], logl_err=hr[3], corr=hr[4], n_draws=opts.n_draws,
+        feh=feh_clf if np.ndim(feh_clf) == 0 else feh_clf[rows], seed=chunk_seed(opts.seed, offset), **opts.params))
     extra_bits = in_flags | pos.flags
     flags_all = np.asarray(cols.get("flags", np.zeros(n, dtype=np.int64)), dtype=np.int64) | extra_bits
     # readable text: our reasons first, then the classifier's, then the bits nobody described

@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..catalog.sanity import MISSING, NOT_A_NUMBER, OK, STATUS_TEXT
+from .readings import carry_other
 
 #: Roles whose absence makes a row's route impossible, per route (first alternative is the one read).
 ROUTE_NEEDS = {
@@ -54,6 +55,17 @@ def _opt(values, role, idx):
     return values[role][idx] if role in values else None
 
 
+def _parallax(values, idx):
+    """The parallax of the rows (NaN where the table has only published distances)."""
+    return values["parallax"][idx] if "parallax" in values else np.full(idx.size, np.nan)
+
+
+def _distances(values, idx):
+    """Published distance (median, 16th / 84th percentiles) of the rows, where the table has them."""
+    return {k: values[r][idx] for k, r in (("distance", "distance"), ("distance_lo", "distance_lo"),
+                                           ("distance_hi", "distance_hi")) if r in values}
+
+
 def _run_route(route, idx, values, opts, feh):
     """Call the derive function of one route on the rows ``idx``; returns an HRPosition."""
     from .. import derive
@@ -71,7 +83,7 @@ def _run_route(route, idx, values, opts, feh):
         return derive.from_teff_logg(teff, values["logg"][idx], feh=f, teff_err=teff_err,
                                      logg_err=_opt(values, "logg_err", idx), feh_err=_opt(values, "feh_err", idx))
     if route == "gaia":
-        return derive.from_gaia(values["g"][idx], values["bp_rp"][idx], values["parallax"][idx],
+        return derive.from_gaia(values["g"][idx], values["bp_rp"][idx], _parallax(values, idx), **_distances(values, idx),
                                 g_err=_opt(values, "g_err", idx), bp_rp_err=_opt(values, "bp_rp_err", idx),
                                 parallax_err=_opt(values, "parallax_err", idx), parallax_zp=opts.parallax_zp,
                                 a_g=_opt(values, "a_g", idx), e_bp_rp=_opt(values, "e_bp_rp", idx),
@@ -84,7 +96,7 @@ def _run_route(route, idx, values, opts, feh):
             v_ks = values["v"][idx] - values["ks"][idx]
             if "v_err" in values and "ks_err" in values:
                 v_ks_err = np.hypot(values["v_err"][idx], values["ks_err"][idx])
-        return derive.from_johnson(values["v"][idx], values["b_v"][idx], values["parallax"][idx],
+        return derive.from_johnson(values["v"][idx], values["b_v"][idx], _parallax(values, idx), **_distances(values, idx),
                                    v_err=_opt(values, "v_err", idx), b_v_err=_opt(values, "b_v_err", idx),
                                    parallax_err=_opt(values, "parallax_err", idx), v_ks=v_ks, v_ks_err=v_ks_err,
                                    e_b_v=_opt(values, "ebv", idx), a_v=_opt(values, "a_v", idx), r_v=opts.r_v,
@@ -150,7 +162,10 @@ def positions(values, status, mapping, opts, feh, n):
         needs = ROUTE_NEEDS[route]
         usable = ~done
         for role in needs:
-            usable &= (status[role] == OK) if role in status else False
+            ok = (status[role] == OK) if role in status else False
+            if role == "parallax" and "distance" in status:   # a published distance stands in for it
+                ok = ok | (status["distance"] == OK)
+            usable &= ok
         idx = np.flatnonzero(usable)
         if idx.size == 0:
             continue
@@ -165,6 +180,7 @@ def positions(values, status, mapping, opts, feh, n):
             for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
                 getattr(out, name)[ok_rows] = np.asarray(getattr(pos, name), dtype=float)[good]
             out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
+        carry_other(out, pos, ok_rows, good)      # a second photometric reading (engine/readings.py)
         if pos.source_codes is not None:
             texts, codes = pos.source_codes
             texts = np.asarray(texts, dtype=object)

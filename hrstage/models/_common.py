@@ -33,3 +33,26 @@ def mass_mask(m: np.ndarray, lo: float, hi: float) -> tuple[np.ndarray, np.ndarr
 def masked(value, ok: np.ndarray) -> np.ndarray:
     """``value`` where ``ok``, NaN elsewhere; 0-d results come back as 0-d arrays."""
     return np.where(ok, value, np.nan)
+
+
+def package_table(name: str) -> dict:
+    """Columns of a compiled package table ``hrstage/data/<name>`` (ECSV) as numpy arrays.
+
+    Only the tables the project compiled itself (``tools/compile_photometric_tables.py``) are read
+    here, once per process by the caller's cache; text columns stay text, the rest are float64.
+    """
+    from importlib import resources
+
+    path = resources.files("hrstage").joinpath(f"data/{name}")
+    text = path.read_text(encoding="utf-8").splitlines()
+    body = [ln for ln in text if ln.strip() and not ln.startswith("#")]
+    names = body[0].split()
+    rows = [ln.split() for ln in body[1:]]
+    out = {}
+    for j, n in enumerate(names):
+        cells = [r[j] for r in rows]
+        try:
+            out[n] = np.array(cells, dtype=float)
+        except ValueError:
+            out[n] = np.array(cells, dtype=object)
+    return out

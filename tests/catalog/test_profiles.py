@@ -65,6 +65,26 @@ def test_gaia_white_dwarf_header(validation_file):
     m = detect_profile([ColumnInfo(n) for n in header if n])
     assert m.profile == "gaia"
     assert (m.roles["g"], m.roles["bp"], m.roles["rp"], m.roles["parallax"]) == ("Gmag", "BPmag", "RPmag", "Plx")
+    # ... and the Bailer-Jones et al. 2021 geometric distance with its 16th/84th percentiles (VizieR
+    # names rgeo, b_rgeo, B_rgeo: the bounds differ only by the case of b_/B_)
+    assert (m.roles["distance"], m.roles["distance_lo"], m.roles["distance_hi"]) == ("rgeo", "b_rgeo", "B_rgeo")
+
+
+def test_distance_columns_by_name_unit_and_explicit():
+    # Gaia archive names of the same distances (external.gaiaedr3_distance: r_med_geo, r_lo_geo, r_hi_geo)
+    m = detect_profile([ColumnInfo("phot_g_mean_mag"), ColumnInfo("bp_rp"), ColumnInfo("r_med_photogeo", "pc"),
+                        ColumnInfo("r_lo_photogeo", "pc"), ColumnInfo("r_hi_photogeo", "pc")])
+    assert m.profile == "gaia" and m.routes[0] == "gaia"
+    assert (m.roles["distance"], m.roles["distance_lo"], m.roles["distance_hi"]) == \
+        ("r_med_photogeo", "r_lo_photogeo", "r_hi_photogeo")
+    # a cross-match separation called "dist" in arcsec is not a distance
+    m = detect_profile([ColumnInfo("gmag"), ColumnInfo("bp_rp"), ColumnInfo("plx"), ColumnInfo("dist", "arcsec")])
+    assert "distance" not in m.roles
+    # the UCD pos.distance and an explicit --col
+    m = detect_profile([ColumnInfo("vmag"), ColumnInfo("b_v"), ColumnInfo("d_bj", "kpc", "pos.distance")])
+    assert m.profile == "johnson" and m.roles["distance"] == "d_bj"
+    m = detect_profile([ColumnInfo("vmag"), ColumnInfo("b_v"), ColumnInfo("my_d")], explicit={"distance": "my_d"})
+    assert m.roles["distance"] == "my_d" and "johnson" in m.routes
 
 
 def test_spectroscopic_and_normalised_names():

@@ -112,8 +112,12 @@ def test_no_nan_without_flag_and_rows_kept():
 
 
 def test_colour_out_of_range_and_fallbacks():
-    # hot star: (BP-RP)_0 < 0.2 is outside Casagrande 2021 -> NaN Teff and flag
+    # hot star: (BP-RP)_0 < 0.2 is outside Casagrande 2021 -> the Pecaut & Mamajek 2013 reading
+    # (0.0 lies between A0V, -0.037 / 9700 K, and A1V, 0.005 / 9300 K, in the sequence)
     r = from_gaia(8.0, 0.0, 5.0)
+    assert 9300 < r.teff[0] < 9700 and "Pecaut" in r.source[0] and not r.flags[0] & F.COLOUR_OUT_OF_RANGE
+    # bluer than the sequence's Gaia colours (B9V, -0.120) and bright (M_G = 1.5 < 2): no Gaia-only Teff
+    r = from_gaia(8.0, -0.3, 5.0)
     assert np.isnan(r.teff[0]) and r.flags[0] & F.COLOUR_OUT_OF_RANGE
     # given Teff outside 3300-8000 K: BC_G from Flower BC_V - (G-V) (BC_FALLBACK)
     r = from_gaia(8.0, 0.0, 5.0, teff=10000.0)
