@@ -289,7 +289,7 @@ def cmd_demo(args) -> int:
     write_figure(ax, targets["figure"], overwrite=args.overwrite)
     settings = {"catalogue": src.name, "draws": args.draws, "seed": args.seed, "columns": summary["mapping"]}
     write_report(tagged, targets["report"], title="hrstage demo: Kestrel Deep Field target list (invented)",
-                 settings=settings, overwrite=args.overwrite)
+                 settings=settings, overwrite=args.overwrite, catalogue=targets["table"])
     print(f"demo catalogue: {src.name} (an invented target list; no real stars)")
     for line in _summary_lines(summary)[:-1]:
         print(line)
