@@ -7,7 +7,10 @@ tests that need them skip with a reason; when it is set but a file is missing, t
 
 from __future__ import annotations
 
+import atexit
 import os
+import shutil
+import tempfile
 from pathlib import Path
 
 import pytest
@@ -15,6 +18,13 @@ import pytest
 import matplotlib
 
 matplotlib.use("Agg")
+
+# The stage maps' on-disk cache (hrstage.stagemap._store) goes to a folder of this test session,
+# never to the user's cache; child processes (CLI tests) inherit it. Removed at the end.
+_MAP_CACHE = tempfile.mkdtemp(prefix="hrstage-test-cache-")
+os.environ["HRSTAGE_CACHE_DIR"] = _MAP_CACHE
+os.environ.pop("HRSTAGE_MAP_CACHE", None)
+atexit.register(shutil.rmtree, _MAP_CACHE, True)
 
 
 def _dir_from_env(var: str) -> Path | None:

@@ -557,10 +557,10 @@ def _plain_added(data, added):
 
 
 def _is_arrow(obj) -> bool:
-    try:
-        import pyarrow as pa
-    except ImportError:  # pragma: no cover
+    if not type(obj).__module__.startswith("pyarrow"):    # no pyarrow import for other objects
         return False
+    import pyarrow as pa
+
     return isinstance(obj, (pa.Table, pa.RecordBatch))
 
 

@@ -291,6 +291,17 @@ def _uniform_tables(sm):
     tab = getattr(sm, "_mc_uniform", None)
     if tab is not None:
         return tab
+    # kept in the map's on-disk cache (built from the whole raster only once)
+    bcode = sm.stored(f"mc_block_codes_{UNIFORM_BLOCK}", _block_codes)
+    sat = sm.stored(f"mc_block_sat_{UNIFORM_BLOCK}_{N_STAGES}", lambda _: _block_sat(bcode))
+    tab = (bcode, sat.reshape(-1), bcode.shape[0], bcode.shape[1])
+    sm._mc_uniform = tab
+    return tab
+
+
+def _block_codes(sm):
+    """(by, bx) int8: the stage code of each UNIFORM_BLOCK-square block of the raster, -1 where a
+    block holds more than one stage."""
     codes = sm.codes.values  # (ny, nx) stage codes, unpadded
     k = UNIFORM_BLOCK
     ny, nx = codes.shape
@@ -300,13 +311,17 @@ def _uniform_tables(sm):
     blocks = pad.reshape(by, k, bx, k)
     lo = blocks.min(axis=(1, 3))
     hi = blocks.max(axis=(1, 3))
-    bcode = np.where(lo == hi, lo, -1).astype(np.int8)
+    return np.where(lo == hi, lo, -1).astype(np.int8)
+
+
+def _block_sat(bcode):
+    """(N_STAGES, by + 1, bx + 1) int32: per stage, the summed-area table of "block uniform with
+    this stage"."""
+    by, bx = bcode.shape
     sat = np.zeros((N_STAGES, by + 1, bx + 1), dtype=np.int32)
     for c in range(N_STAGES):
         sat[c, 1:, 1:] = np.cumsum(np.cumsum(bcode == c, axis=0, dtype=np.int32), axis=1, dtype=np.int32)
-    tab = (bcode, sat.reshape(-1), by, bx)
-    sm._mc_uniform = tab
-    return tab
+    return sat
 
 
 def _uniform_boxes(sm, xc, yc, ex, ey):
@@ -788,6 +803,8 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
             sub[hit] = cc[hit]
         nb[pr_] = sub
         near_to[sel] = nb
+        if not single:   # several maps: hold the raster pages of one at a time (on-disk cache)
+            sm.release_pages()
 
     # per-row metallicity outside the fits (array input): clipped onto the grid, flagged
     if feh is not None and np.ndim(feh):

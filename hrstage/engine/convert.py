@@ -14,10 +14,12 @@ from ..stages import STAGES
 from .options import table_meta
 
 def is_arrow(obj):
-    try:
-        import pyarrow as pa
-    except ImportError:  # pragma: no cover
+    """Whether ``obj`` is a pyarrow Table or RecordBatch (without importing pyarrow: an object of
+    pyarrow can only exist once pyarrow is imported)."""
+    if not type(obj).__module__.startswith("pyarrow"):
         return False
+    import pyarrow as pa
+
     return isinstance(obj, (pa.Table, pa.RecordBatch))
 
 

@@ -26,6 +26,7 @@ from ..stages import (
 )
 from ._loci import LOG_TSUN, Loci, logt_from_lr
 from ._params import StageParams
+from . import _store
 from ._raster import Grid, Lookup, fill_polygon_strips, run_levels
 
 #: bit of a raw raster code: the cell is in the unresolved-binary band above the main sequence
@@ -238,8 +239,12 @@ class StageMap:
         L = self.loci
         self.m_hef, self.m_fgb, self.m_sg, self.m_age = L.m_hef, L.m_fgb, L.m_sg, L.m_age
         self._edges()
-        self._paint()
-        self._masses()
+        self._store = _store.folder(self)
+        if not self._restore():     # the rasters from the on-disk cache, else built (and stored)
+            self._paint()
+            self._masses()
+            self._keep()
+        self._relations()
         self._regions = None
 
     # ------------------------------------------------------------------ construction
@@ -462,6 +467,57 @@ class StageMap:
         have = np.isfinite(mass)
         padded[1:-1, 1:-1][have] = 10.0 ** mass[have]
         self.mass_lookup = Lookup.from_padded(padded, cg)
+
+    #: the rasters kept in the on-disk cache: attribute, grid attribute, dtype
+    _STORED = (("raw", "grid", np.int8), ("codes", "grid", np.int8), ("mass_lookup", "mass_grid", np.float32),
+               ("free_run", "grid", np.uint8))
+
+    def _restore(self) -> bool:
+        """Take the rasters from the on-disk cache (:mod:`._store`), memory-mapped; False if absent."""
+        self.mass_grid = self.grid.coarsen(*self.mass_factor)
+        got = {}
+        for name, grid_name, dtype in self._STORED:
+            g = getattr(self, grid_name)
+            arr = _store.load(self._store, name, (g.ny + 2, g.nx + 2), dtype)
+            if arr is None:
+                return False
+            got[name] = Lookup.from_padded(arr, g)
+        self.__dict__.update(got)   # free_run included (a cached_property: set directly)
+        return True
+
+    def _keep(self) -> None:
+        """Store the rasters just built and use the stored copies (memory-mapped) from now on."""
+        if self._store is None:
+            return
+        self.__dict__["free_run"] = self._free_run_lookup()
+        for name, grid_name, _ in self._STORED:
+            lk = getattr(self, name)
+            padded = lk.flat.reshape(lk.values.shape[0] + 2, lk.width)
+            self.__dict__[name] = Lookup.from_padded(_store.save(self._store, name, padded), getattr(self, grid_name))
+
+    def stored(self, name: str, build):
+        """An array derived from this map's rasters, kept in the on-disk cache next to them:
+        ``build(self)`` on the first use (then stored), memory-mapped from the cache afterwards."""
+        arr = _store.load(self._store, name)
+        if arr is None:
+            arr = _store.save(self._store, name, np.ascontiguousarray(build(self)))
+        return arr
+
+    def release_pages(self) -> None:
+        """Drop this process's resident pages of the rasters mapped from the on-disk cache (they
+        stay in the system's page cache and come back on the next lookup): a run that goes through
+        many maps then holds the pages of one map at a time, not of all of them."""
+        for name, _, _ in self._STORED:
+            lk = self.__dict__.get(name)
+            if lk is not None:
+                _store.release(lk.flat)
+        for arr in (getattr(self, "_mc_uniform", None) or ())[:2]:
+            _store.release(arr)
+
+    def _relations(self):
+        L = self.loci
+        m = L.m
+        logm = np.log10(m)
         # 1-D relations along the ZAMS
         self._zams_logt = L.zams[0]
         self._zams_logl = L.zams[1]
@@ -522,7 +578,7 @@ class StageMap:
         cross = np.where(hit, ya[None, :] + f * (yb - ya)[None, :], np.nan)
         cross.sort(axis=1)  # NaN last
         k = max(1, int(hit.sum(axis=1).max()))
-        return cross[:, :k]
+        return np.ascontiguousarray(cross[:, :k])   # not a view that would keep the (nx, segments) array
 
     def binary_band_height(self, logt, logl) -> np.ndarray:
         """Height (dex) of positions above the main-sequence upper edge, measured as the
