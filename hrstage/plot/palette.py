@@ -136,12 +136,23 @@ _COLOURBLIND = {
 OKABE_ITO = ("#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7")
 
 
+# Styles for a stage of hrstage.stages that has no colour of its own above yet (a stage added
+# later still gets a distinct colour, marker and label instead of breaking every figure).
+_RESERVE_COLOURS = ("#8c6d31", "#d6616b", "#3b7dd8", "#2f9e55", "#a05195")
+_RESERVE_MARKERS = ("P", "d", "<", ">", "8")
+
+
 def _build(name, colours, notes=""):
-    return Palette(
-        name=name,
-        styles={s: StageStyle(colours[s], _MARKERS[s], LABELS[s]) for s in STAGES},
-        notes=notes,
-    )
+    extra = [s for s in STAGES if s not in colours or s not in _MARKERS]
+    styles = {}
+    for s in STAGES:
+        if s in extra:
+            k = extra.index(s) % len(_RESERVE_COLOURS)
+            styles[s] = StageStyle(_RESERVE_COLOURS[k], _RESERVE_MARKERS[k],
+                                   LABELS.get(s, s.replace("_", " ").capitalize()))
+        else:
+            styles[s] = StageStyle(colours[s], _MARKERS[s], LABELS.get(s, s.replace("_", " ").capitalize()))
+    return Palette(name=name, styles=styles, notes=notes)
 
 
 PALETTES = MappingProxyType(
