@@ -205,8 +205,7 @@ def _draw_points(ax, x, y, stage, teff_colours, pal, color_by, size, rasterize, 
         m = ok & rows
         count = int(m.sum())
         style = pal[name]
-        label = f"{style.label} ({total})" if count == total else (
-            f"{style.label} ({total}; {total - count} without a position, not drawn)")
+        label = f"{style.label} ({total})" if count == total else f"{style.label} ({total}; {total - count} not drawn)"
         if count:
             if values is not None:
                 colour_kw = {"c": values[m], "cmap": cmap, "norm": norm, "plotnonfinite": True}
@@ -348,7 +347,9 @@ def _legend(ax, handles, own_figure):
     if not handles:
         return None
     if own_figure:
-        leg = ax.figure.legend(handles=handles, loc="outside lower center", ncols=min(3, len(handles)),
+        longest = max(len(h.get_label()) for h in handles)
+        leg = ax.figure.legend(handles=handles, loc="outside lower center",
+                               ncols=min(3 if longest < 34 else 2, len(handles)),
                                fontsize="small", frameon=False)
     else:
         leg = ax.legend(handles=handles, loc="best", fontsize="small", framealpha=0.85)
@@ -531,13 +532,12 @@ def _finish(ax, own, handles, named, regions, x, y, size, pal, legend, caption_t
         _legend(ax, handles, own)
     if caption_text is not None:
         _caption(ax, caption_text)
-    unnamed = _place_names(ax, named, regions, pts, size, pal)
+    unnamed, placed = _place_names(ax, named, regions, pts, size, pal)
     if unnamed and legend:
-        for t in [t for t in ax.texts if (t.get_gid() or "").split(":")[0] in
-                  ("curve_label", "radius_label", "region_label")]:
+        for t in placed:
             t.remove()
         _legend(ax, handles + [_line_handle(line) for line in unnamed], own)
-        still = _place_names(ax, named, regions, pts, size, pal)
+        still, _ = _place_names(ax, named, regions, pts, size, pal)
         extra = [line for line in still if line not in unnamed]
         if extra:  # rare: the grown legend took a name's place; name those in the legend too
             _legend(ax, handles + [_line_handle(line) for line in unnamed + extra], own)
@@ -630,7 +630,8 @@ def _place_names(ax, lines, regions, point_xy, size, pal):
 
     Runs on the settled layout. ``lines`` as returned by :func:`_draw_curves` /
     :func:`_draw_radius_lines`, ``regions`` as by :func:`_draw_regions`; ``point_xy`` the drawn
-    positions. Returns the lines that could not be named (the caller puts them in the legend).
+    positions. Returns the lines that could not be named (the caller puts them in the legend)
+    and the texts placed.
     """
     from ._placement import Clutter, text_size_px
 
@@ -647,7 +648,7 @@ def _place_names(ax, lines, regions, point_xy, size, pal):
     leg = ax.get_legend()
     if leg is not None:
         cl.add_artist_extent(leg)
-    unnamed = []
+    unnamed, placed = [], []
     for line, text, gid, kw, prefer in lines:  # stage-map curves first, then radius lines
         w, h = text_size_px(ax, text, **{k: v for k, v in kw.items() if k != "bbox"})
         pad = 3.0 if "bbox" in kw else 1.0
@@ -659,6 +660,7 @@ def _place_names(ax, lines, regions, point_xy, size, pal):
         t = ax.text(spot[0], spot[1], text, rotation=spot[2], rotation_mode="anchor", ha="center", va="center",
                     zorder=4, **kw)
         t.set_gid(gid)
+        placed.append(t)
         from ._placement import rotated_corners
 
         cx, cy = ax.transData.transform((spot[0], spot[1]))
@@ -674,9 +676,10 @@ def _place_names(ax, lines, regions, point_xy, size, pal):
             continue
         t = ax.text(spot[0], spot[1], style.label, ha="center", va="center", zorder=1, **kw)
         t.set_gid(f"region_label:{name}")
+        placed.append(t)
         cx, cy = ax.transData.transform(spot)
         cl.add_text_box(rotated_corners(cx, cy, w + 2, h + 2, 0.0))
-    return unnamed
+    return unnamed, placed
 
 
 def _line_handle(line):

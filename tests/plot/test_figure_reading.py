@@ -137,7 +137,8 @@ def test_legend_counts_agree_with_the_catalogue(demo_tagged, demo_ax):
     k = int(no_pos.sum())
     assert k > 0
     (unc,) = [t for t in legend_texts if t.startswith("Unclassified (")]
-    assert f"{k} without a position, not drawn" in unc
+    n_unc = int((np.asarray(demo_tagged["stage"]).astype(str) == "unclassified").sum())
+    assert unc == f"Unclassified ({n_unc}; {k} not drawn)"
 
 
 def test_cool_but_massive_ring_only_where_it_contradicts_the_label(demo_tagged, demo_ax):
