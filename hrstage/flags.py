@@ -14,9 +14,10 @@ COOL_BUT_MASSIVE = 1 << 0       #: cool star too luminous / too massive for a MS
 POSSIBLE_BINARY = 1 << 1        #: up to ~0.3 dex above the main sequence: unresolved binary?
 OUTSIDE_VALIDITY = 1 << 2       #: mass or metallicity outside the fits' validity range (clipped)
 NEAR_BOUNDARY = 1 << 3          #: within the uncertainty of a stage boundary
-METALLICITY_CLIPPED = 1 << 4    #: Z outside 1e-4..0.03, clipped to the nearest limit
+METALLICITY_CLIPPED = 1 << 4    #: [Fe/H] outside -2.3..+0.5 (Z 1e-4..0.063), clipped to the nearest limit
 NO_METALLICITY = 1 << 5         #: no [Fe/H] given, solar assumed
 LOW_PROBABILITY = 1 << 6        #: best stage has probability < 0.6
+YOUNG_OR_EVOLVED = 1 << 7       #: position shared by young (pre-main-sequence) and evolved stars
 # --- derived inputs (layer 5) -------------------------------------------------------------
 LOW_PARALLAX_SNR = 1 << 8       #: parallax_over_error below the threshold: distance unreliable
 NONPOSITIVE_PARALLAX = 1 << 9   #: parallax <= 0: no distance, no luminosity
@@ -37,9 +38,10 @@ DESCRIPTIONS = {
     POSSIBLE_BINARY: "possible unresolved binary (just above the main sequence)",
     OUTSIDE_VALIDITY: "outside the validity range of the stellar relations (extrapolated or clipped)",
     NEAR_BOUNDARY: "near a stage boundary",
-    METALLICITY_CLIPPED: "metallicity outside 1e-4 <= Z <= 0.03, clipped",
+    METALLICITY_CLIPPED: "metallicity outside [Fe/H] -2.3..+0.5 (Z 1e-4..0.063 on the fits' scale), clipped",
     NO_METALLICITY: "no [Fe/H]; solar metallicity assumed",
     LOW_PROBABILITY: "label uncertain (best stage probability < 0.6)",
+    YOUNG_OR_EVOLVED: "young (pre-main-sequence) or evolved: the HR position cannot tell them apart",
     LOW_PARALLAX_SNR: "parallax signal-to-noise below threshold: luminosity unreliable",
     NONPOSITIVE_PARALLAX: "zero or negative parallax: no distance, no luminosity",
     COLOUR_OUT_OF_RANGE: "colour outside the calibrated range of the colour-Teff relation",

@@ -19,12 +19,13 @@ from ..stages import (
     GIANT,
     LABELS,
     MAIN_SEQUENCE,
+    PRE_MAIN_SEQUENCE,
     STAGES,
     SUBGIANT,
     SUPERGIANT,
     UNCLASSIFIED,
 )
-from ..stagemap import MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, prebuild, stage_map
+from ..stagemap import FEH_HELD_MAX, MASS_METHODS, RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, StageParams, prebuild, stage_map
 from ._text import CodedText, concat_codes, format_codes, join_notes
 
 N_STAGES = len(STAGES)
@@ -54,6 +55,10 @@ _BASE_REASON = {
     "white_dwarf": "in the white-dwarf band ({wmin:g}-{wmax:g} Msun radius lines)",
     "subdwarf": "below the main-sequence lower edge, above the white-dwarf band",
     "hot_subdwarf": "Teff {hlo:.0f}-{hhi:.0f} K between the white-dwarf band and the ZAMS",
+    "pre_main_sequence": "more than {bo:g} dex above the main-sequence upper edge (more than an equal-mass "
+                         "binary explains) and cooler than the subgiant and giant branch of the oldest "
+                         "({age} Gyr) stars of this metallicity: no evolved star lies here, so young, still "
+                         "contracting towards the main sequence",
     "unclassified": "outside every stage region",
 }
 
@@ -104,21 +109,26 @@ def _as_array(x, name, shape=None):
 MASS_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied")
 _M_HB, _M_NONE, _M_SUPPLIED = len(MASS_METHODS), len(MASS_METHODS) + 1, len(MASS_METHODS) + 2
 #: base-reason keys beyond the stage codes
-_B_HB, _B_NOPOS, _B_OFFMAP = N_STAGES, N_STAGES + 1, N_STAGES + 2
+_B_HB, _B_NOPOS, _B_OFFMAP, _B_HAYASHI, _B_YOUNGZONE = (N_STAGES + k for k in range(5))
 
 
 def _base_table(maps) -> np.ndarray:
-    """Object table (n_maps, N_STAGES + 3) of the base reason of every stage / special key per map."""
-    tab = np.empty((len(maps), N_STAGES + 3), dtype=object)
+    """Object table (n_maps, N_STAGES + 5) of the base reason of every stage / special key per map."""
+    tab = np.empty((len(maps), N_STAGES + 5), dtype=object)
     for g, sm in enumerate(maps):
         p = sm.params
         for k, s in enumerate(STAGES):
             tab[g, k] = LABELS[s] + ": " + _BASE_REASON[s].format(
                 age=p.max_age_myr / 1e3, bgw=p.bright_giant_width, msg=sm.m_sg, wmin=p.wd_mass_min,
-                wmax=p.wd_mass_max, hlo=p.hot_subdwarf_teff[0], hhi=p.hot_subdwarf_teff[1])
+                wmax=p.wd_mass_max, hlo=p.hot_subdwarf_teff[0], hhi=p.hot_subdwarf_teff[1], bo=p.binary_offset)
         tab[g, _B_HB] = _HB_REASON.format(dep=p.hb_depth, hgt=p.hb_height)
         tab[g, _B_NOPOS] = "Unclassified: no position"
         tab[g, _B_OFFMAP] = "Unclassified: outside the map (log Teff 3.30-5.30, log L -6..7)"
+        tab[g, _B_YOUNGZONE] = (f"Pre-main sequence: more than {p.binary_offset:g} dex above the main-sequence upper "
+                                f"edge, where young and evolved stars overlap, labelled young because "
+                                f"young_prior={p.young_prior:g} > 0.5 (a young target list)")
+        tab[g, _B_HAYASHI] = ("Unclassified: cooler than the Hayashi line of the lowest-mass stars (no star in "
+                              "hydrostatic equilibrium lies there: a brown dwarf, or Teff too low / L too high)")
     return tab
 
 
@@ -269,15 +279,24 @@ def _draws(n_draws: int, seed):
     return z[0].astype(np.float32), z[1].astype(np.float32)
 
 
+#: stage codes counted in the packed one-hot table (all but unclassified, which is the remainder)
+_PACKED = np.array([c for c in range(N_STAGES) if c != UNCLASSIFIED], dtype=np.intp)
+#: bits per packed stage and the most draws one pass may count (the counters must not overflow)
+_PACK_BITS = 64 // len(_PACKED)
+_PACK_MAX = (1 << _PACK_BITS) - 1
+
+
 def _pack_lut():
-    raw = np.arange(128)
-    stage = raw & RAW_STAGE
-    lut = np.where(stage < 8, np.left_shift(np.uint64(1), (8 * np.minimum(stage, 7)).astype(np.uint64)), np.uint64(0))
+    slot = np.full(128, -1)
+    slot[_PACKED] = np.arange(len(_PACKED))
+    stage = np.arange(128) & RAW_STAGE
+    s = slot[stage]
+    lut = np.where(s >= 0, np.left_shift(np.uint64(1), (_PACK_BITS * np.maximum(s, 0)).astype(np.uint64)), np.uint64(0))
     return lut.astype(np.uint64)
 
 
 _PACK = _pack_lut()
-_SHIFTS = (8 * np.arange(8)).astype(np.uint64)
+_SHIFTS = (_PACK_BITS * np.arange(len(_PACKED))).astype(np.uint64)
 
 #: side (cells) of the blocks of the region-uniform raster used to skip draws
 UNIFORM_BLOCK = 16
@@ -414,8 +433,8 @@ def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 14):
     stage without drawing (exact). The others are drawn, in the order of their raster cell (so
     that neighbouring stars read neighbouring memory; the counts do not depend on the order), in
     chunks of about ``chunk`` star-draws in float32 index arithmetic on the flattened stage
-    raster; the stages are counted with a packed one-hot table (8 bits per stage, at most 255
-    draws per pass) summed over the draws of each star.
+    raster; the stages are counted with a packed one-hot table (``_PACK_BITS`` bits per stage, at
+    most ``_PACK_MAX`` draws per pass) summed over the draws of each star.
     """
     lk = sm.codes
     n, d = len(logt), len(z1)
@@ -460,7 +479,9 @@ def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
     xp = (xc[todo] + 1.0).astype(f32)[:, None]  # padded coordinates
     yp = (yc[todo] + 1.0).astype(f32)[:, None]
     sxt, syat, sybt = sx[todo].astype(f32)[:, None], sya[todo].astype(f32)[:, None], syb[todo].astype(f32)[:, None]
-    nb = min(d, 255)
+    nb = min(d, _PACK_MAX)
+    npk = len(_PACKED)
+    field = np.uint64(_PACK_MAX)
     bx = np.empty((rows, nb), f32)
     by = np.empty((rows, nb), f32)
     bt = np.empty((rows, nb), f32)
@@ -472,9 +493,9 @@ def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
     for s in range(0, len(todo), rows):
         e = min(len(todo), s + rows)
         m = e - s
-        sub_total = np.zeros((m, 8), dtype=np.int64)
-        for b in range(0, d, 255):
-            zz1, zz2 = z1[None, b : b + 255], z2[None, b : b + 255]
+        sub_total = np.zeros((m, npk), dtype=np.int64)
+        for b in range(0, d, _PACK_MAX):
+            zz1, zz2 = z1[None, b : b + _PACK_MAX], z2[None, b : b + _PACK_MAX]
             k = zz1.shape[1]
             x, y, t = bx[:m, :k], by[:m, :k], bt[:m, :k]
             i, j, c, pk, a = bi[:m, :k], bj[:m, :k], bc[:m, :k], bp[:m, :k], acc[:m]
@@ -497,10 +518,10 @@ def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
             flat.take(i, out=c, mode="clip")  # indices are inside (clip: no buffered bounds check)
             _PACK.take(c, out=pk, mode="clip")
             pk.sum(axis=1, dtype=np.uint64, out=a)
-            sub_total += ((a[:, None] >> _SHIFTS[None, :]) & np.uint64(255)).astype(np.int64)
+            sub_total += ((a[:, None] >> _SHIFTS[None, :]) & field).astype(np.int64)
         rr = todo[s:e]
-        counts[rr, :8] = sub_total
-        counts[rr, 8] = d - sub_total.sum(axis=1)
+        counts[np.ix_(rr, _PACKED)] = sub_total
+        counts[rr, UNCLASSIFIED] = d - sub_total.sum(axis=1)
 
 
 def _group_feh(feh, n):
@@ -584,8 +605,9 @@ def classify_hr(
         [Fe/H] (dex). None: solar with the NO_METALLICITY flag. A scalar uses the exact map of that
         metallicity; an array (per star, even if all values are equal) uses for each star the
         nearest point of :data:`FEH_GRID` (0.25 dex steps), so that a star's result never depends
-        on the other rows. NaN in an array: solar, flagged. Values outside the fits' range
-        (Z 1e-4..0.03) are clipped and flagged METALLICITY_CLIPPED.
+        on the other rows. NaN in an array: solar, flagged. From +0.18 (the fits' Z = 0.03) to +0.5
+        the Z = 0.03 boundaries are used without a flag (checked against PARSEC Z = 0.03 and 0.04,
+        docs/stagemap.md); values outside -2.3..+0.5 are clipped and flagged METALLICITY_CLIPPED.
     mass : array_like, optional
         Supplied mass (Msun): used as the mass estimate (method ``supplied``), checked against the
         position, used in the cool-but-massive test, and a post-main-sequence star with a supplied
@@ -687,6 +709,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     m_sg = np.full(n, np.nan)
     tz_row = np.full(n, np.nan)
     near_to = np.full(n, -1, dtype=np.int8)
+    zone_alt = np.full(n, -1, dtype=np.int8)  # young-or-evolved zone: the evolved label there, else -1
     z1 = z2 = None
     if n_draws > 0:
         z1, z2 = _draws(n_draws, seed)
@@ -718,6 +741,12 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         if promote.any():
             c = np.where(promote, SUPERGIANT, c).astype(np.int8)
         code[sel] = c
+        # young-or-evolved zone (the evolved label of the cell; -1 outside)
+        yz = sm.young_zone
+        zx, zy = _axis_coords(yz, t, l)
+        za = _gather(yz, zx, zy)
+        keep = (c == PRE_MAIN_SEQUENCE) if sm.params.young_prior > 0.5 else ((c == SUBGIANT) | (c == GIANT))
+        zone_alt[sel] = np.where(keep & ~promote, za, -1)
         has_err = has_err_all[sel]
         e = None if has_err.all() else np.nonzero(has_err)[0]
         # probabilities
@@ -806,10 +835,29 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         if not single:   # several maps: hold the raster pages of one at a time (on-disk cache)
             sm.release_pages()
 
+    # young or evolved: the HR position cannot tell them apart; the probabilities at the star's
+    # position are shared by the prior young_prior (the label is the evolved one unless it is > 0.5)
+    young_or_ev = zone_alt >= 0
+    yp = maps[0].params.young_prior if maps else 0.0
+    if young_or_ev.any():
+        yi = np.nonzero(young_or_ev)[0]
+        if yp > 0.5:
+            moved = (1.0 - yp) * proba[yi, PRE_MAIN_SEQUENCE]
+            proba[yi, PRE_MAIN_SEQUENCE] -= moved
+            proba[yi, zone_alt[yi]] += moved
+        else:
+            moved = yp * (proba[yi, SUBGIANT] + proba[yi, GIANT])
+            proba[yi, SUBGIANT] *= 1.0 - yp
+            proba[yi, GIANT] *= 1.0 - yp
+            proba[yi, PRE_MAIN_SEQUENCE] += moved
+        drew = True  # probabilities are no longer one-hot at the label
+    F.or_flag(flags, young_or_ev, F.YOUNG_OR_EVOLVED)
+
     # per-row metallicity outside the fits (array input): clipped onto the grid, flagged
     if feh is not None and np.ndim(feh):
         fa = np.broadcast_to(np.asarray(feh, dtype=float).ravel(), (n,))
-        zc = np.isfinite(fa) & ((fa < FEH_GRID[0]) | (fa > FEH_GRID[-1]))
+        # up to FEH_HELD_MAX the top node's (Z = 0.03) boundaries are a checked treatment: no flag
+        zc = np.isfinite(fa) & ((fa < FEH_GRID[0]) | (fa > FEH_HELD_MAX))
         feh_given = fa
     else:
         zc = np.zeros(n, bool)
@@ -856,7 +904,8 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     too_bright = np.isfinite(logl) & ~np.isfinite(m_lum) & (logl > 5.0)
     cand = np.fmax(m_lum, msup)
     ratio = cand / m_teff
-    cbm = finite & (teff < opts["cool_teff"]) & np.isfinite(m_teff) & (
+    # (not for young stars: they are too luminous for the main sequence because they are still contracting)
+    cbm = finite & (code != PRE_MAIN_SEQUENCE) & (teff < opts["cool_teff"]) & np.isfinite(m_teff) & (
         (np.isfinite(ratio) & (ratio > opts["cool_massive_ratio"])) | too_bright
     )
     F.or_flag(flags, cbm, F.COOL_BUT_MASSIVE)
@@ -896,13 +945,24 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         return format_codes(fmt, len(ii), (gap, ".2f"), (code[ii] == MAIN_SEQUENCE, None))
 
     note("2bin", b, bin_text)
+    note("2young", young_or_ev, lambda ii: format_codes(
+        lambda k, a, pp: f"young or evolved: pre-main-sequence stars also reach this position (hotter than "
+                         f"the oldest giant branch, log L < {maps[0].params.pms_logl_max:g}); labelled {STAGES[k]} "
+                         f"with P(pre_main_sequence)={pp:.2f} (young_prior={yp:g}; "
+                         + ("a young target list" if yp > 0.5 else "a field population") + f", else {STAGES[a]})",
+        len(ii), (code[ii], None), (np.where(code[ii] == PRE_MAIN_SEQUENCE, zone_alt[ii], PRE_MAIN_SEQUENCE), None),
+        (proba[ii, PRE_MAIN_SEQUENCE], ".2f")))
     ex = (rawc & RAW_EXTRAPOLATED) != 0
     F.or_flag(flags, ex, F.OUTSIDE_VALIDITY)
     note("3extrap", ex, lambda ii: format_codes(
-        lambda tf, tz: f"Teff {tf:.0f} K is cooler than the 0.1 Msun ZAMS ({tz:.0f} K): main sequence "
-                       "extrapolated beyond the fits", len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f")))
+        lambda tf, tz, hot: ("brighter than the ZAMS of 100 Msun (the fits' top mass): main sequence "
+                             "extrapolated beyond the fits" if hot else
+                             f"Teff {tf:.0f} K is cooler than the 0.1 Msun ZAMS ({tz:.0f} K): main sequence "
+                             "extrapolated beyond the fits"),
+        len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f"), (teff[ii] > 10000.0, None)))
     note("3zclip", zc, lambda ii: format_codes(
-        lambda fg, fu: f"[Fe/H]={fg:+.2f} outside the fits (Z 1e-4..0.03): boundaries of [Fe/H]={fu:+.2f} used",
+        lambda fg, fu: f"[Fe/H]={fg:+.2f} outside the supported -2.30..+{FEH_HELD_MAX:.2f}: boundaries of "
+                       f"[Fe/H]={fu:+.2f} used",
         len(ii), (feh_given[ii], "+.2f"), (feh_used[ii], "+.2f")))
     # near boundary
     near = (near_to >= 0) & finite
@@ -937,6 +997,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     F.or_flag(flags, badi, F.BAD_INPUT)
     base_key = code.astype(np.int8)
     base_key[hb] = _B_HB
+    base_key[young_or_ev & (code == PRE_MAIN_SEQUENCE)] = _B_YOUNGZONE
     for mask, what, key in ((badi, "not finite (inf)", "8bad"), (miss, "missing (NaN)", "8miss")):
         ii = np.nonzero(mask)[0]
         note(key, ii, f"log Teff or log L {what}: not classified")
@@ -950,6 +1011,13 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     lk = maps[0].grid if maps else stage_map(0.0, **stage_kw).grid
     out = finite & (code == UNCLASSIFIED) & ((logt < lk.t0) | (logt > lk.t1) | (logl < lk.l0) | (logl > lk.l1))
     base_key[out] = _B_OFFMAP
+    rest = np.nonzero(finite & (code == UNCLASSIFIED) & ~out)[0]
+    if len(rest):
+        for g, sm in enumerate(maps):
+            r_ = rest if len(maps) == 1 else rest[group[rest] == g]
+            ht, hl = sm._hayashi
+            cold = (logl[r_] <= hl[-1]) & (logt[r_] < np.interp(logl[r_], hl, ht))
+            base_key[r_[cold]] = _B_HAYASHI
 
     return ClassificationResult(
         logt=logt, logl=logl, logt_err=st, logl_err=sl, corr=rho, feh_used=feh_used, code=code, proba=proba,

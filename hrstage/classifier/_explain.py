@@ -27,6 +27,8 @@ _NAMED = {
     "zahb": "zero-age horizontal branch",
     "hb_lower": "core-He-burning band lower edge",
     "hb_upper": "core-He-burning band upper edge",
+    "old_branch": "subgiant/giant branch of the oldest stars",
+    "hayashi": "Hayashi line (cool limit)",
 }
 
 #: the curves that bound each stage's region
@@ -39,6 +41,7 @@ _RELEVANT = {
     "white_dwarf": ["wd_min", "wd_max"],
     "subdwarf": ["ms_lower", "wd_max"],
     "hot_subdwarf": ["ms_lower", "wd_max"],
+    "pre_main_sequence": ["binary_upper", "old_branch", "hayashi"],
 }
 
 

@@ -102,6 +102,7 @@ _MARKERS = {
     "white_dwarf": "v",
     "subdwarf": "h",
     "hot_subdwarf": "^",
+    "pre_main_sequence": "P",
     "unclassified": "X",
 }
 
@@ -115,12 +116,14 @@ _DEFAULT = {
     "white_dwarf": "#4a6fa5",     # slate blue
     "subdwarf": "#7a9a4a",        # sage
     "hot_subdwarf": "#b05fc4",    # orchid
+    "pre_main_sequence": "#d9738f",  # rose
     "unclassified": "#9a9a9a",    # grey
 }
 
 # Okabe & Ito (2008) colours: black #000000, orange #E69F00, sky blue #56B4E9, bluish green
 # #009E73, yellow #F0E442, blue #0072B2, vermilion #D55E00, reddish purple #CC79A7; grey for
-# "unclassified" (not part of their set).
+# "unclassified" (not part of their set); wine #882255 from Tol's (2021, SRON/EPS/TN/09-002)
+# colour-blind-safe "muted" scheme for the tenth stage.
 _COLOURBLIND = {
     "main_sequence": "#0072B2",   # blue
     "subgiant": "#009E73",        # bluish green
@@ -130,6 +133,7 @@ _COLOURBLIND = {
     "white_dwarf": "#56B4E9",     # sky blue
     "subdwarf": "#000000",        # black
     "hot_subdwarf": "#F0E442",    # yellow
+    "pre_main_sequence": "#882255",  # wine (Tol 2021 "muted" scheme: the Okabe & Ito eight are used up)
     "unclassified": "#999999",    # grey
 }
 
@@ -139,7 +143,7 @@ OKABE_ITO = ("#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "
 # Styles for a stage of hrstage.stages that has no colour of its own above yet (a stage added
 # later still gets a distinct colour, marker and label instead of breaking every figure).
 _RESERVE_COLOURS = ("#8c6d31", "#d6616b", "#3b7dd8", "#2f9e55", "#a05195")
-_RESERVE_MARKERS = ("P", "d", "<", ">", "8")
+_RESERVE_MARKERS = ("d", "<", ">", "8", "H", "P")
 
 
 def _build(name, colours, notes=""):
@@ -147,8 +151,9 @@ def _build(name, colours, notes=""):
     styles = {}
     for s in STAGES:
         if s in extra:
-            k = extra.index(s) % len(_RESERVE_COLOURS)
-            styles[s] = StageStyle(_RESERVE_COLOURS[k], _RESERVE_MARKERS[k],
+            markers = [m for m in _RESERVE_MARKERS if m not in _MARKERS.values()] or list(_RESERVE_MARKERS)
+            k = extra.index(s)
+            styles[s] = StageStyle(_RESERVE_COLOURS[k % len(_RESERVE_COLOURS)], markers[k % len(markers)],
                                    LABELS.get(s, s.replace("_", " ").capitalize()))
         else:
             styles[s] = StageStyle(colours[s], _MARKERS[s], LABELS.get(s, s.replace("_", " ").capitalize()))

@@ -382,6 +382,11 @@ def _cautions(count, n_unc):
              f"{stars(n_unc)} that could not be classified" if n_unc else ""]
     if any(items):
         out.append("Uncertain labels: " + join(items) + ".")
+    young = count(F.YOUNG_OR_EVOLVED) if hasattr(F, "YOUNG_OR_EVOLVED") else 0
+    if young:
+        out.append(f"Young or evolved: {stars(young)} lie where young (pre-main-sequence) and evolved stars "
+                   "share the HR diagram (YOUNG_OR_EVOLVED); their label follows the assumed share of young "
+                   "stars (a field population unless the run said otherwise) and both probabilities are given.")
     return out
 
 

@@ -73,7 +73,9 @@ VERDICTS = (
 )
 
 #: stage order used to judge how far an HR stage is from the stage a class implies
-_STAGE_STEP = {"subdwarf": 0, "main_sequence": 1, "subgiant": 2, "giant": 3, "bright_giant": 4, "supergiant": 5}
+_STAGE_STEP = {"subdwarf": 0, "main_sequence": 1, "subgiant": 2, "giant": 3, "bright_giant": 4, "supergiant": 5,
+               # young stars above the main sequence: luminosity class V-IV (T Tauri, Herbig Ae/Be stars)
+               "pre_main_sequence": 1.5}
 
 #: stage check of the kinds with no MK calibration: (expected stages, excluded stages); an HR
 #: stage in neither set leaves the type not checkable ("stage_undecided"). Our choices, from the
@@ -82,9 +84,9 @@ _STAGE_STEP = {"subdwarf": 0, "main_sequence": 1, "subgiant": 2, "giant": 3, "br
 #: the stage map), carbon and S stars are AGB/giant-branch stars (dwarf carbon stars excepted).
 _STAGE_RULES = {
     "white_dwarf": ({"white_dwarf"}, {"main_sequence", "subgiant", "giant", "bright_giant", "supergiant",
-                                      "subdwarf"}),
+                                      "subdwarf", "pre_main_sequence"}),
     "hot_subdwarf": ({"hot_subdwarf"}, {"main_sequence", "subgiant", "giant", "bright_giant", "supergiant",
-                                        "white_dwarf", "subdwarf"}),
+                                        "white_dwarf", "subdwarf", "pre_main_sequence"}),
     "cool_subdwarf": ({"subdwarf", "main_sequence"}, {"giant", "bright_giant", "supergiant", "white_dwarf",
                                                       "hot_subdwarf"}),
     "wolf_rayet": ({"supergiant", "bright_giant"}, {"white_dwarf", "subdwarf", "hot_subdwarf", "subgiant",

@@ -11,6 +11,7 @@ spectroscopic analysis.
 
 from ._map import (
     CACHE_SIZE,
+    FEH_HELD_MAX,
     MASS_METHODS,
     RAW_BINARY,
     RAW_EXTRAPOLATED,
@@ -30,6 +31,7 @@ __all__ = [
     "stage_map",
     "prebuild",
     "CACHE_SIZE",
+    "FEH_HELD_MAX",
     "Curve",
     "Grid",
     "MASS_METHODS",

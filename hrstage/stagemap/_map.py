@@ -17,6 +17,7 @@ from ..stages import (
     HOT_SUBDWARF,
     LABELS,
     MAIN_SEQUENCE,
+    PRE_MAIN_SEQUENCE,
     STAGES,
     SUBDWARF,
     SUBGIANT,
@@ -42,6 +43,12 @@ RAW_STAGE = 15
 #: log Teff range over which the extra hot-white-dwarf widening grows from 0 to its full value
 LOGT_WD_HOT = (float(np.log10(30000.0)), 5.0)
 
+#: highest [Fe/H] (dex) for which the boundaries of the fits' top metallicity (Z = 0.03, [Fe/H] = +0.18)
+#: are used unchanged, without a flag: the PARSEC v1.2S isochrones of Z = 0.03 and 0.04 ([M/H] = +0.32,
+#: +0.46; Bressan et al. 2012) are classified as well on them as the Z = 0.014 ones on the solar map
+#: (docs/stagemap.md, tests/classifier/test_metal_rich.py). Beyond it the map is clipped and flagged.
+FEH_HELD_MAX = 0.5
+
 #: lowest log Teff of the main-sequence extension below 0.1 Msun
 LOGT_MS_EXTENSION = 3.36
 
@@ -55,8 +62,14 @@ MASS_METHODS = (
     "wd_radius",       # white dwarf: HPT2000 eq 91 mass-radius relation
     "none",            # subdwarf
     "none",            # hot subdwarf
+    "none",            # pre-main sequence
     "none",            # unclassified
 )
+assert len(MASS_METHODS) == len(STAGES) and CODE["pre_main_sequence"] == PRE_MAIN_SEQUENCE
+
+#: mass (Msun) whose fully convective radius (HPT2000 eq 46) stands for the Hayashi line that bounds
+#: the pre-main-sequence region on the cool side: the lowest mass of the fits
+HAYASHI_MASS = 0.1
 
 CITATIONS = (
     "Tout C. A., Pols O. R., Eggleton P. P., Han Z., 1996, MNRAS 281, 257 (ZAMS)",
@@ -65,6 +78,9 @@ CITATIONS = (
     "Straizys V., Kuriliene G., 1981, Ap&SS 80, 353 (class II vs Ib luminosities: bright-giant band)",
     "Hurley J. R., Pols O. R., Tout C. A., 2000, MNRAS 315, 543, eqs 51, 53, 54, 77, 78 (zero-age "
     "horizontal branch: core-helium-burning band)",
+    "Hurley J. R., Pols O. R., Tout C. A., 2000, MNRAS 315, 543, eqs 4-10, 26-27, 46 (subgiant and giant "
+    "branch of the oldest population and the Hayashi line: pre-main-sequence region)",
+    "Hayashi C., 1961, PASJ 13, 450 (fully convective stars: the cool limit of hydrostatic stars)",
 )
 
 
@@ -215,7 +231,8 @@ class StageMap:
     """Stage boundaries and regions in (log Teff, log L) for one metallicity.
 
     Build through :func:`stage_map` (cached). Attributes: ``feh`` (the [Fe/H] asked for), ``z``
-    (the fits' Z actually used, clipped to 1e-4..0.03), ``z_clipped``, ``params``
+    (the fits' Z actually used, clipped to 1e-4..0.03), ``z_clipped`` (outside [Fe/H] -2.3..+0.5:
+    flag the star), ``z_held`` (+0.18 < [Fe/H] <= +0.5: the Z = 0.03 boundaries, checked), ``params``
     (:class:`StageParams`), ``curves``, ``regions``, ``grid`` (raster extent and resolution),
     ``m_hef``, ``m_fgb``, ``m_sg`` (supergiant mass), ``m_age`` (mass reaching its TAMS at
     ``max_age_myr``).
@@ -233,7 +250,9 @@ class StageMap:
         zc, clipped = clip_z(z_from_feh(feh))
         self.feh = feh
         self.z = float(zc)
-        self.z_clipped = bool(clipped)
+        #: [Fe/H] above the fits' Z = 0.03 but within FEH_HELD_MAX: boundaries of Z = 0.03 (checked, no flag)
+        self.z_held = bool(clipped) and feh_from_z(zc) < feh <= FEH_HELD_MAX
+        self.z_clipped = bool(clipped) and not self.z_held
         self.feh_used = float(feh_from_z(self.z))
         self.loci = Loci(self.z, self.params)
         L = self.loci
@@ -243,6 +262,7 @@ class StageMap:
         if not self._restore():     # the rasters from the on-disk cache, else built (and stored)
             self._paint()
             self._masses()
+            self._young_zone_lookup()
             self._keep()
         self._relations()
         self._regions = None
@@ -253,18 +273,27 @@ class StageMap:
         m = L.m
         zt, zl = L.zams
         ut, ul = L.ms_upper
-        # low-mass upper edge moved to the cool side (full below 0.45 Msun, none above 0.7)
+        # low-mass upper edge moved to the cool side (full below 0.45 Msun, none above 0.7), more at
+        # the lowest masses (ms_cool_logt_lowest at 0.1 Msun, tapering to ms_cool_logt at 0.13 Msun)
         w = np.clip(np.log10(0.7 / m) / np.log10(0.7 / 0.45), 0.0, 1.0)
-        ut = ut - p.ms_cool_logt * w
+        v = np.clip(np.log10(0.13 / m) / np.log10(0.13 / 0.1), 0.0, 1.0)
+        ut = ut - p.ms_cool_logt * w - max(p.ms_cool_logt_lowest - p.ms_cool_logt, 0.0) * v
         lower_t, lower_l = zt + p.ms_hot_logt, zl - p.ms_below_zams
         # extension of both MS edges below 0.1 Msun, straight in (log T, log L)
         k = 6
         slope_z = np.polyfit(lower_t[:k], lower_l[:k], 1)[0]
         slope_u = np.polyfit(ut[:k], ul[:k], 1)[0]
         ext_t = np.linspace(LOGT_MS_EXTENSION, lower_t[0], 8)[:-1]
-        ext_tu = np.linspace(LOGT_MS_EXTENSION - p.ms_cool_logt, ut[0], 8)[:-1]
-        self._ms_lower = (np.r_[ext_t, lower_t], np.r_[lower_l[0] + slope_z * (ext_t - lower_t[0]), lower_l])
-        self._ms_top = (np.r_[ext_tu, ut], np.r_[ul[0] + slope_u * (ext_tu - ut[0]), ul])
+        ext_tu = np.linspace(LOGT_MS_EXTENSION - max(p.ms_cool_logt, p.ms_cool_logt_lowest), ut[0], 8)[:-1]
+        # above 100 Msun (the fits' top mass) the lower edge goes on straight, along the ZAMS slope of
+        # the last masses, and the upper edge straight up at the Teff of 100 Msun, to the top of the
+        # raster: very massive main-sequence stars (extrapolated, flagged)
+        up = g.l1 + 0.1
+        slope_top = np.polyfit(lower_l[-k:], lower_t[-k:], 1)[0]  # dlogT/dlogL of the ZAMS at 70-100 Msun
+        t_up = lower_t[-1] + max(slope_top, 0.0) * (up - lower_l[-1])
+        self._ms_lower = (np.r_[ext_t, lower_t, t_up], np.r_[lower_l[0] + slope_z * (ext_t - lower_t[0]), lower_l, up])
+        self._ms_top = (np.r_[ext_tu, ut, ut[-1]], np.r_[ul[0] + slope_u * (ext_tu - ut[0]), ul, max(up, ul[-1])])
+        self._logl_valid_max = float(zl[-1])
         self._logt_valid_min = float(zt[0])
         # supergiant lower edge: the Hertzsprung-gap track of M_sg, then flat to the cool edge
         ht, hl = L.hg_track(self.m_sg)
@@ -275,6 +304,59 @@ class StageMap:
         self._wd_logr = (np.log10(r_lo), np.log10(r_hi))
         self._logt_wd_min = float(np.log10(p.wd_teff_min))
         self._hb_band = self._hb_edges()
+        self._old_branch, self._hayashi = self._pms_edges()
+
+    def _pms_edges(self):
+        """Edges of the pre-main-sequence region: the oldest population's subgiant + giant branch and
+        the Hayashi line, as (logt, logl) curves ascending in log L up to ``pms_logl_max``.
+
+        Oldest population: the mass that just reaches its TAMS at ``max_age_myr``; its subgiant
+        branch is its Hertzsprung-gap track from the TAMS to the base of the giant branch (HPT2000
+        eqs 8-10, 26-27, 46), its giant branch R_GB (eq 46) above, moved ``pms_rgb_margin`` cooler.
+        Hayashi line: R_GB of HAYASHI_MASS (fully convective), ``pms_hayashi_logt`` cooler.
+        """
+        p, L = self.params, self.loci
+        z = self.z
+        top = p.pms_logl_max
+        st, sl = L.hg_track(self.m_age, n=40)
+        lg = np.linspace(sl[-1], max(top, sl[-1]) + 0.05, 80)[1:]
+        rg = np.log10(hpt.r_gb(self.m_age, 10.0**lg, z))
+        tg = logt_from_lr(lg, rg) - p.pms_rgb_margin
+        old = (np.r_[st, tg], np.r_[sl, lg])
+        lh = np.linspace(self.grid.l0, top + 0.05, 200)
+        th = logt_from_lr(lh, np.log10(hpt.r_gb(HAYASHI_MASS, 10.0**lh, z))) - p.pms_hayashi_logt
+        return old, (th, lh)
+
+    def _pms_polygons(self):
+        """(certainly young region, young-or-evolved zone) polygons, or None where empty.
+
+        Both are built row by row in log L up to ``pms_logl_max``, from their cool edge to the
+        main-sequence lower edge (the main sequence and the binary band are painted over them
+        afterwards, so only what lies above the band remains): the young region from the Hayashi
+        line to the oldest subgiant/giant branch (or the main sequence below the oldest TAMS), the
+        zone from that branch to the main sequence (stars there may be young or evolved).
+        """
+        p = self.params
+        ot, ol = self._old_branch
+        ht, hl = self._hayashi
+        lt, ll = self._ms_lower
+        lo = float(hl[0])
+        rows = np.linspace(lo, p.pms_logl_max, 700)
+        t_ms = _interp_monotone(rows, ll, lt)
+        t_old = np.interp(rows, ol, ot, left=np.nan, right=np.nan)
+        t_hay = np.interp(rows, hl, ht)
+        t_hot = np.where(np.isfinite(t_old), np.fmin(t_old, t_ms), t_ms)
+
+        def band(a, b):
+            keep = np.isfinite(a) & np.isfinite(b) & (a < b)
+            if keep.sum() < 2:
+                return None
+            k = np.flatnonzero(keep)
+            k = k[: np.argmax(np.diff(np.r_[k, k[-1] + 2]) > 1) + 1]  # the first contiguous run
+            r = rows[k]
+            return np.c_[np.r_[a[k], b[k][::-1]], np.r_[r, r[::-1]]]
+
+        return band(t_hay, t_hot), band(t_old, t_ms)
 
     def _hb_edges(self):
         """Core-He-burning band: (logt, lower, upper) per 0.005-dex log T bin, or None if off.
@@ -325,7 +407,7 @@ class StageMap:
             return 2 * self._wd_logr[0] + 4 * (logt - LOG_TSUN) - p.wd_tolerance
         a, b = LOGT_WD_HOT
         hot = p.wd_hot_tolerance * np.clip((logt - a) / (b - a), 0.0, 1.0)
-        return 2 * self._wd_logr[1] + 4 * (logt - LOG_TSUN) + p.wd_tolerance + hot
+        return 2 * self._wd_logr[1] + 4 * (logt - LOG_TSUN) + p.wd_tolerance + p.wd_envelope_tolerance + hot
 
     def ms_lower_at(self, logt):
         """log L of the lower edge of the main-sequence band (ZAMS - ms_below_zams) at logt."""
@@ -366,6 +448,15 @@ class StageMap:
         hi = L.m >= self.m_sg
         tat, tal = L.tams[0][hi], L.tams[1][hi]
         polys.append((SUPERGIANT, np.c_[np.r_[st, cold, tat[-1], tat[::-1]], np.r_[sl, top, top, tal[::-1]]]))
+        # pre-main sequence: above the binary band (painted over it next), cooler than the oldest
+        # subgiant/giant branch, hotter than the Hayashi line; the young-or-evolved zone is labelled
+        # pre-main sequence only with young_prior > 0.5 (else it keeps its evolved label and the
+        # classifier reports both)
+        young, zone = self._pms_polygons()
+        if young is not None:
+            polys.append((PRE_MAIN_SEQUENCE, young))
+        if zone is not None and p.young_prior > 0.5:
+            polys.append(("young", zone))
         # main sequence, then the binary band
         lt_, ll_ = self._ms_lower
         ut_, ul_ = self._ms_top
@@ -382,6 +473,7 @@ class StageMap:
         # painted in the interior of the padded lookup array (border: unclassified)
         padded = Lookup.padded_array(g, UNCLASSIFIED, np.int8)
         raw = padded[1:-1, 1:-1]
+        pre_young = None  # coarse stage codes before the young-or-evolved zone is relabelled
         for code, poly in self._polygons():
             # painted strip by strip, on views of the raster, only where the polygon lies
             for (j0, j1, i0, i1), mask in fill_polygon_strips(poly, g):
@@ -390,6 +482,13 @@ class StageMap:
                     # core-He burning is long-lived, the gap crossing fast: giant where they overlap
                     mask &= (sub & RAW_STAGE) == SUBGIANT
                     np.copyto(sub, (sub & ~np.int8(RAW_STAGE)) | np.int8(GIANT | RAW_HB), where=mask)
+                elif code == "young":
+                    if pre_young is None:
+                        fx, fy = self.mass_factor
+                        pre_young = (raw[fy // 2 :: fy, fx // 2 :: fx] & RAW_STAGE).copy()
+                    st_ = sub & RAW_STAGE
+                    mask &= (st_ == SUBGIANT) | (st_ == GIANT)
+                    np.copyto(sub, np.int8(PRE_MAIN_SEQUENCE), where=mask)
                 elif code == "binary":
                     mask &= (sub & RAW_STAGE) != MAIN_SEQUENCE
                     if self.params.binary_promote:
@@ -403,7 +502,12 @@ class StageMap:
         tc, _ = g.centres()
         cool = raw[:, : int(np.count_nonzero(tc < self._logt_valid_min))]
         np.bitwise_or(cool, np.int8(RAW_EXTRAPOLATED), out=cool, where=(cool & RAW_STAGE) == MAIN_SEQUENCE)
+        # main sequence brighter than the ZAMS of 100 Msun: extrapolated (the bright rows are the last)
+        _, lc = g.centres()
+        bright = raw[int(np.count_nonzero(lc <= self._logl_valid_max)) :, :]
+        np.bitwise_or(bright, np.int8(RAW_EXTRAPOLATED), out=bright, where=(bright & RAW_STAGE) == MAIN_SEQUENCE)
         self.raw = Lookup.from_padded(padded, g)
+        self._pre_young = pre_young
         # border: UNCLASSIFIED & RAW_STAGE == UNCLASSIFIED
         self.codes = Lookup.from_padded(np.bitwise_and(padded, np.int8(RAW_STAGE)), g)
 
@@ -470,7 +574,7 @@ class StageMap:
 
     #: the rasters kept in the on-disk cache: attribute, grid attribute, dtype
     _STORED = (("raw", "grid", np.int8), ("codes", "grid", np.int8), ("mass_lookup", "mass_grid", np.float32),
-               ("free_run", "grid", np.uint8))
+               ("free_run", "grid", np.uint8), ("young_zone", "mass_grid", np.int8))
 
     def _restore(self) -> bool:
         """Take the rasters from the on-disk cache (:mod:`._store`), memory-mapped; False if absent."""
@@ -525,6 +629,27 @@ class StageMap:
         self._logm_of_logt = PiecewiseLinear(self._zams_logt, logm)
         self._logm_of_logl = PiecewiseLinear(self._zams_logl, logm)
         self._ms_top_at = PiecewiseLinear(*self._ms_top)
+
+    def _young_zone_lookup(self):
+        """Coarse lookup (mass grid, int8) of the young-or-evolved zone: in the zone, the evolved
+        label of the cell (subgiant or giant code), elsewhere -1."""
+        g = self.grid
+        fx, fy = self.mass_factor
+        cg = g.coarsen(fx, fy)
+        padded = Lookup.padded_array(cg, -1, np.int8)
+        _, zone = self._pms_polygons()
+        if zone is not None:
+            inner = padded[1:-1, 1:-1]
+            evolved = self._pre_young
+            if evolved is None:
+                evolved = self.codes.values[fy // 2 :: fy, fx // 2 :: fx][: cg.ny, : cg.nx]
+            evolved = evolved[: cg.ny, : cg.nx]
+            for (j0, j1, i0, i1), mask in fill_polygon_strips(zone, cg):
+                e = evolved[j0:j1, i0:i1]
+                mask &= (e == SUBGIANT) | (e == GIANT)
+                np.copyto(inner[j0:j1, i0:i1], e, where=mask)
+        self._pre_young = None
+        self.young_zone = Lookup.from_padded(padded, cg)
 
     # ------------------------------------------------------------------ public interface
     def locate(self, logt, logl) -> np.ndarray:
@@ -651,9 +776,16 @@ class StageMap:
         add("wd_min", f"White-dwarf band lower edge ({p.wd_mass_max:g} Msun, -{p.wd_tolerance:g} dex)",
             tw, self.wd_edge(tw, "lower"), np.full_like(tw, p.wd_mass_max))
         tw = np.unique(np.r_[tw, LOGT_WD_HOT])
-        add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance:g} dex, "
+        add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance + p.wd_envelope_tolerance:g} dex, "
             f"+{p.wd_hot_tolerance:g} dex more from 30 kK to 100 kK)",
             tw, self.wd_edge(tw, "upper"), np.full_like(tw, p.wd_mass_min))
+        ot, ol = self._old_branch
+        add("old_branch", f"Subgiant and giant branch of the oldest stars ({self.m_age:.2f} Msun at "
+            f"{p.max_age_myr / 1e3:g} Gyr; giant branch -{p.pms_rgb_margin:g} dex in log T)", ot, ol,
+            np.full_like(ot, self.m_age))
+        ht_, hl_ = self._hayashi
+        add("hayashi", f"Hayashi line of {HAYASHI_MASS:g} Msun (HPT2000 eq 46, -{p.pms_hayashi_logt:g} dex in log T)",
+            ht_, hl_, np.full_like(ht_, HAYASHI_MASS))
         zt, zl, zm = L.zahb_ref
         add("zahb", f"Zero-age horizontal branch of {L.zahb_minit[0]:.2f} Msun stars (HPT2000 eqs 53-54)",
             zt, zl, zm)
@@ -758,6 +890,7 @@ class StageMap:
                 "feh": self.feh,
                 "z": self.z,
                 "z_clipped": self.z_clipped,
+                "z_held": self.z_held,
                 "m_hef": self.m_hef,
                 "m_fgb": self.m_fgb,
                 "supergiant_mass": self.m_sg,
@@ -832,8 +965,9 @@ def stage_map(feh: float = 0.0, **params) -> StageMap:
     Parameters
     ----------
     feh : float
-        [Fe/H] in dex; Z = 0.02 x 10^feh in the fits' scale, clipped to 1e-4..0.03 (the map says
-        ``z_clipped``).
+        [Fe/H] in dex; Z = 0.02 x 10^feh in the fits' scale, clipped to 1e-4..0.03 (up to
+        [Fe/H] = +0.5 the Z = 0.03 boundaries are a checked treatment, ``z_held``; beyond, the map
+        says ``z_clipped``).
     **params
         Any field of :class:`StageParams`; or ``params=StageParams(...)``.
     """

@@ -23,12 +23,19 @@ class StageParams:
         Shift (dex in log Teff) of the lower main-sequence edge to the hot side of the ZAMS, where
         the ZAMS is steep (O/B stars and M dwarfs) and a vertical tolerance alone is almost nil:
         about 6 per cent in Teff, the usual Teff uncertainty of hot stars.
-    ms_cool_logt : float, default 0.10
+    ms_cool_logt : float, default 0.04
         Shift (dex in log Teff) of the upper main-sequence edge to the cool side for low masses
         (full below 0.45 Msun, tapering to zero at 0.7 Msun in log M). The fits' low-mass ZAMS is
-        too hot: observed M1V-M4V dwarfs (Pecaut & Mamajek 2013) lie 0.02 dex and PARSEC v1.2S
-        0.1-0.2 Msun models up to 0.09 dex cooler at the same L. These masses do not evolve in a
-        Hubble time, so no other stage competes for the cells.
+        too hot: observed M1V-M4V dwarfs (Pecaut & Mamajek 2013) lie 0.02 dex cooler at the same
+        L, and the PARSEC v1.2S Z = 0.014 main-sequence points older than 0.3 Gyr of fits masses
+        0.13-0.5 Msun need at most 0.035 dex (Bressan et al. 2012; measured here). At the steep
+        M-dwarf main sequence 0.01 dex in log T is about 0.1 dex in log L, so a larger shift would
+        swallow young stars above the main sequence (it was 0.10 before the pre-main-sequence
+        stage existed).
+    ms_cool_logt_lowest : float, default 0.09
+        The same shift at 0.1 Msun and below (the extension), tapering to ``ms_cool_logt`` at
+        0.13 Msun: PARSEC v1.2S 0.09-0.12 Msun main-sequence points lie up to 0.078 dex cooler
+        than the fits' upper edge at the same L.
     binary_offset : float, default 0.30
         Height (dex) above the main-sequence upper edge of the unresolved-binary band: an
         equal-mass pair is twice as bright (log 2 = 0.30, i.e. 0.75 mag) at the same colour.
@@ -57,6 +64,11 @@ class StageParams:
     wd_tolerance : float, default 0.25
         Widening (dex in log L) of the white-dwarf band on both sides: eq. 91 is a zero-temperature
         relation, hot and low-mass white dwarfs with hydrogen envelopes are larger.
+    wd_envelope_tolerance : float, default 0.15
+        Extra widening (dex in log L) of the upper (low-mass) edge of the white-dwarf band only:
+        low-mass (0.2-0.4 Msun) white dwarfs with thick hydrogen envelopes are larger than the
+        zero-temperature eq. 91 radius. 30 of the 50 Gentile Fusillo et al. (2021) Gaia EDR3 white
+        dwarfs (L from their TeffH, loggH, MassH) outside the band lay within 0.15 dex above it.
     wd_teff_min : float, default 4000
         Coolest Teff (K) of the white-dwarf band (design: "Teff > ~4000 K").
     subdwarf_depth : float, default 1.2
@@ -83,6 +95,33 @@ class StageParams:
         above: eq 91 is a zero-temperature relation and young, hot white dwarfs still have
         inflated, non-degenerate envelopes (log g about 7.0-7.5 instead of 7.9 for 0.55 Msun near
         100 kK in MIST v1.2 cooling tracks).
+    pms_logl_max : float, default 1.5
+        Top (log L) of the pre-main-sequence region and of the zone where a young star and an
+        evolved one cannot be told apart. 99.6 % of the PARSEC v1.2S Z = 0.014 pre-main-sequence
+        points cooler than 6000 K and younger than a third of their arrival time on the main
+        sequence lie below it (Bressan et al. 2012; measured here); brighter young stars are
+        still embedded (above the birthline) or already near the ZAMS.
+    pms_rgb_margin : float, default 0.03
+        Shift (dex in log Teff) to the cool side of the giant branch of the oldest population
+        (HPT2000 eq 46 for the 13.8 Gyr turn-off mass) before cooler stars count as certainly
+        young: metal-richer giants than the map's metallicity lie cooler (PARSEC Z = 0.03 vs
+        0.014 giants: about 0.02-0.03 dex at log L 0.5-1.5).
+    pms_hayashi_logt : float, default 0.13
+        Shift (dex in log Teff) to the cool side of the Hayashi line of the lowest-mass stars
+        (HPT2000 eq 46, the fully convective giant-branch radius, at 0.1 Msun) that bounds the
+        pre-main-sequence region on the cool side. The fits' low-mass stars are too hot: the
+        youngest PARSEC v1.2S Z = 0.014 points of 0.09-0.14 Msun lie up to 0.116 dex cooler than
+        that line at log L -2.5..-1.5 (Bressan et al. 2012; measured here).
+        Cooler positions stay unclassified (no star in hydrostatic equilibrium sits there;
+        brown dwarfs or a bad Teff).
+    young_prior : float, default 0.05
+        Share of young (pre-main-sequence) stars among the stars at a position where the HR
+        diagram cannot tell a young star from an evolved one (above the unresolved-binary band,
+        hotter than the oldest giant branch, below ``pms_logl_max``). The label stays the evolved
+        one (subgiant / giant) while the share is at most 0.5 and the probability
+        ``prob_pre_main_sequence`` gets this share; above 0.5 (a young target list, e.g. a
+        star-forming region: pass 0.9) the label is ``pre_main_sequence``. The default is a field
+        population: young stars are a few per cent of the stars there (from memory).
     n_mass : int, default 360
         Number of log-spaced masses (0.1-100 Msun) on which the loci are sampled; extra masses
         are added around M_HeF, M_FGB, the supergiant mass and the age-limit mass.
@@ -90,7 +129,8 @@ class StageParams:
 
     ms_below_zams: float = 0.12
     ms_hot_logt: float = 0.025
-    ms_cool_logt: float = 0.10
+    ms_cool_logt: float = 0.04
+    ms_cool_logt_lowest: float = 0.09
     binary_offset: float = 0.30
     binary_promote: bool = False
     max_age_myr: float = 13800.0
@@ -100,6 +140,7 @@ class StageParams:
     wd_mass_min: float = 0.2
     wd_mass_max: float = 1.35
     wd_tolerance: float = 0.25
+    wd_envelope_tolerance: float = 0.15
     wd_teff_min: float = 4000.0
     subdwarf_depth: float = 1.2
     hot_subdwarf_teff: tuple = (20000.0, 45000.0)
@@ -107,6 +148,10 @@ class StageParams:
     hb_depth: float = 0.1
     hb_teff_max: float = 20000.0
     wd_hot_tolerance: float = 0.4
+    pms_logl_max: float = 1.5
+    pms_rgb_margin: float = 0.03
+    pms_hayashi_logt: float = 0.13
+    young_prior: float = 0.05
     n_mass: int = 360
 
     def __post_init__(self):
@@ -114,6 +159,7 @@ class StageParams:
             ("ms_below_zams", 0.0 <= self.ms_below_zams <= 1.0, "between 0 and 1 dex"),
             ("ms_hot_logt", 0.0 <= self.ms_hot_logt <= 0.2, "between 0 and 0.2 dex"),
             ("ms_cool_logt", 0.0 <= self.ms_cool_logt <= 0.3, "between 0 and 0.3 dex"),
+            ("ms_cool_logt_lowest", 0.0 <= self.ms_cool_logt_lowest <= 0.3, "between 0 and 0.3 dex"),
             ("binary_offset", 0.0 <= self.binary_offset <= 1.0, "between 0 and 1 dex"),
             ("max_age_myr", 100.0 <= self.max_age_myr <= 2.0e4, "between 100 and 20000 Myr"),
             ("supergiant_core_mass", 1.0 <= self.supergiant_core_mass <= 3.0, "between 1 and 3 Msun"),
@@ -121,12 +167,17 @@ class StageParams:
             ("wd_mass_min", 0.1 <= self.wd_mass_min < self.wd_mass_max, "0.1 <= wd_mass_min < wd_mass_max"),
             ("wd_mass_max", self.wd_mass_max <= 1.43, "at most 1.43 Msun (below the Chandrasekhar mass 1.44)"),
             ("wd_tolerance", 0.0 <= self.wd_tolerance <= 1.0, "between 0 and 1 dex"),
+            ("wd_envelope_tolerance", 0.0 <= self.wd_envelope_tolerance <= 1.0, "between 0 and 1 dex"),
             ("wd_teff_min", 2000.0 <= self.wd_teff_min <= 20000.0, "between 2000 and 20000 K"),
             ("subdwarf_depth", 0.0 <= self.subdwarf_depth <= 5.0, "between 0 and 5 dex"),
             ("hb_height", 0.0 <= self.hb_height <= 1.5, "between 0 and 1.5 dex"),
             ("hb_depth", 0.0 <= self.hb_depth <= 0.5, "between 0 and 0.5 dex"),
             ("hb_teff_max", 5000.0 <= self.hb_teff_max <= 50000.0, "between 5000 and 50000 K"),
             ("wd_hot_tolerance", 0.0 <= self.wd_hot_tolerance <= 1.5, "between 0 and 1.5 dex"),
+            ("pms_logl_max", -1.0 <= self.pms_logl_max <= 4.0, "between -1 and 4 dex"),
+            ("pms_rgb_margin", 0.0 <= self.pms_rgb_margin <= 0.2, "between 0 and 0.2 dex"),
+            ("pms_hayashi_logt", 0.0 <= self.pms_hayashi_logt <= 0.3, "between 0 and 0.3 dex"),
+            ("young_prior", 0.0 <= self.young_prior <= 1.0, "between 0 and 1"),
             ("n_mass", 50 <= int(self.n_mass) <= 5000, "between 50 and 5000"),
         ]
         if self.supergiant_mass is not None:

@@ -207,21 +207,21 @@ def test_a_stage_added_later_gets_a_style_and_is_drawn(monkeypatch, real_stage_m
     import hrstage.plot.palette as palette
     import hrstage.report.html as report
 
-    stages = tuple(STAGES[:-1]) + ("pre_main_sequence", STAGES[-1])
+    stages = tuple(STAGES[:-1]) + ("new_branch", STAGES[-1])
     for mod in (palette, hrd, report):
         monkeypatch.setattr(mod, "STAGES", stages)
     pal = palette._build("test", palette._DEFAULT)
-    assert pal["pre_main_sequence"].label == "Pre main sequence"
-    assert pal["pre_main_sequence"].marker not in {pal[s].marker for s in STAGES}
+    assert pal["new_branch"].label == "New branch"
+    assert pal["new_branch"].marker not in {pal[s].marker for s in STAGES}
     from astropy.table import Table
 
-    st = np.array(["main_sequence", "pre_main_sequence", "giant"])
+    st = np.array(["main_sequence", "new_branch", "giant"])
 
     t = Table({"teff_used": [5800.0, 4000.0, 4500.0], "logl_used": [0.0, 0.5, 1.8], "stage": st})
     monkeypatch.setattr(hrd, "get_palette", lambda p: pal)
     monkeypatch.setattr("hrstage.plot._data.STAGES", stages)
     ax = hr_diagram(t, stage_map=real_stage_map)
-    assert by_gid(ax, "stars:pre_main_sequence")
+    assert by_gid(ax, "stars:new_branch")
     monkeypatch.setattr("hrstage.plot.palette.get_palette", lambda p: pal)
     doc = report.render_report(t, figure=False)
-    assert "Pre main sequence" in doc and "<code>pre_main_sequence</code>" in doc
+    assert "New branch" in doc and "<code>new_branch</code>" in doc

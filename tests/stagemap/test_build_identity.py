@@ -16,7 +16,8 @@ from hrstage.stagemap import RAW_BINARY, RAW_EXTRAPOLATED, RAW_HB, RAW_STAGE, St
 from hrstage.stagemap import _map
 from hrstage.stagemap._loci import LOG_TSUN
 from hrstage.stagemap._raster import Grid, fill_polygon, fill_polygon_strips
-from hrstage.stages import BRIGHT_GIANT, GIANT, MAIN_SEQUENCE, SUBGIANT, SUPERGIANT, UNCLASSIFIED, WHITE_DWARF
+from hrstage.stages import (BRIGHT_GIANT, GIANT, MAIN_SEQUENCE, PRE_MAIN_SEQUENCE, SUBGIANT, SUPERGIANT, UNCLASSIFIED,
+                            WHITE_DWARF)
 
 
 # ----------------------------------------------------------------------------- previous algorithm
@@ -58,6 +59,10 @@ def _ref_raw(sm):
         if code == "hb":
             mask &= (raw & RAW_STAGE) == SUBGIANT
             raw[mask] = (raw[mask] & ~np.int8(RAW_STAGE)) | np.int8(GIANT | RAW_HB)
+        elif code == "young":
+            st = raw & RAW_STAGE
+            mask &= (st == SUBGIANT) | (st == GIANT)
+            raw[mask] = PRE_MAIN_SEQUENCE
         elif code == "binary":
             mask &= (raw & RAW_STAGE) != MAIN_SEQUENCE
             if sm.params.binary_promote:
@@ -70,6 +75,10 @@ def _ref_raw(sm):
     cool = tc < sm._logt_valid_min
     ms = (raw[:, cool] & RAW_STAGE) == MAIN_SEQUENCE
     raw[:, cool] = np.where(ms, raw[:, cool] | RAW_EXTRAPOLATED, raw[:, cool])
+    _, lc = g.centres()
+    bright = lc > sm._logl_valid_max
+    ms = (raw[bright] & RAW_STAGE) == MAIN_SEQUENCE
+    raw[bright] = np.where(ms, raw[bright] | RAW_EXTRAPOLATED, raw[bright])
     return raw
 
 
@@ -144,6 +153,7 @@ def _ref_mass(sm, raw):
         (-1.0, StageParams()),
         (-2.2, StageParams()),
         (0.3, StageParams(binary_promote=True, hb_height=0.0)),
+        (0.0, StageParams(young_prior=0.9)),
     ],
 )
 def test_build_identical_to_previous_algorithm(feh, params):

@@ -21,7 +21,7 @@ from hrstage.stagemap import StageParams
 from hrstage.stagemap import _store
 from hrstage.stagemap._map import StageMap
 
-RASTERS = ("raw", "codes", "mass_lookup", "free_run")
+RASTERS = ("raw", "codes", "mass_lookup", "free_run", "young_zone")
 
 
 @pytest.fixture
