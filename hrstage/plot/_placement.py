@@ -226,12 +226,15 @@ class Clutter:
         xd, yd = self.ax.transData.inverted().transform(best[1])
         return float(xd), float(yd), float(best[2])
 
-    def inside_polygons(self, polygons, w, h, *, n_grid=90):
+    def inside_polygons(self, polygons, w, h, *, n_grid=90, accept=None):
         """Best free upright spot for a w x h label inside one of ``polygons`` (data coords).
 
-        The whole rectangle must lie inside the polygon; among the free spots the one farthest
-        from the polygon edges wins. Returns ``(x_data, y_data)`` or None.
+        The whole rectangle must lie inside the polygon (and, with ``accept``, a function of data
+        positions (n, 2) -> bool, its centre and corners must be accepted: a raster region with
+        holes); among the free spots the one farthest from the polygon edges wins. Returns
+        ``(x_data, y_data)`` or None.
         """
+        to_data = self.ax.transData.inverted()
         best = None
         u = (np.arange(n_grid) + 0.5) / n_grid
         gx, gy = np.meshgrid(self.x0 + u * self.width, self.y0 + u * self.height)
@@ -252,7 +255,10 @@ class Clutter:
             for dx, dy in ((0.0, 0.0), (-w / 2, -h / 2), (w / 2, -h / 2), (w / 2, h / 2), (-w / 2, h / 2)):
                 if not len(cand):
                     break
-                cand = cand[path.contains_points(cand + (dx, dy))]
+                keep = path.contains_points(cand + (dx, dy))
+                if accept is not None:
+                    keep &= np.asarray(accept(to_data.transform(cand + (dx, dy))), dtype=bool)
+                cand = cand[keep]
             if not len(cand):
                 continue
             cost = self.hits(cand[:, 0], cand[:, 1], 0.0, w, h)

@@ -565,7 +565,7 @@ def _draw_regions(ax, sm, pal):
             ax.add_artist(patch)  # as add_patch, without the (slow, unneeded) data-limit update
             kept.append(poly)
         if kept:
-            out.append((name, kept, style))
+            out.append((name, kept, style, None))
     return out
 
 
@@ -665,11 +665,11 @@ def _place_names(ax, lines, regions, point_xy, size, pal):
 
         cx, cy = ax.transData.transform((spot[0], spot[1]))
         cl.add_text_box(rotated_corners(cx, cy, w + 2 * pad, h + 2 * pad, spot[2]))
-    for name, polys, style in regions:
+    for name, polys, style, accept in regions:
         for fontsize in ("small", "x-small"):  # a smaller name where the full size finds no room
             kw = dict(fontsize=fontsize, fontstyle="italic", color=_darker(style.colour), alpha=0.9)
             w, h = text_size_px(ax, style.label, **kw)
-            spot = cl.inside_polygons(polys, w + 2, h + 2)
+            spot = cl.inside_polygons(polys, w + 2, h + 2, accept=accept)
             if spot is not None:
                 break
         if spot is None:
@@ -724,7 +724,10 @@ def _kiel_regions(ax, sm, pal, feh, n=170):
     codes[~np.isfinite(ll.reshape(lt.shape))] = STAGES.index("unclassified")
     from matplotlib.colors import to_rgba
 
+    import contourpy
+
     rgba = np.zeros(lt.shape + (4,))
+    regions = []
     for i, name in enumerate(STAGES):
         if name == "unclassified":
             continue
@@ -732,18 +735,23 @@ def _kiel_regions(ax, sm, pal, feh, n=170):
         if not m.any():
             continue
         rgba[m] = to_rgba(pal[name].colour, pal.region_alpha)
-        dist = ndimage.distance_transform_edt(np.pad(m, 1))[1:-1, 1:-1]
-        k = np.unravel_index(np.argmax(dist), m.shape)
-        if dist[k] > 0.03 * n:
-            t = ax.text(gx[k[1]], gy[k[0]], LABELS[name], ha="center", va="center", fontsize="small",
-                        fontstyle="italic", color=_darker(pal[name].colour), alpha=0.9, zorder=1)
-            t.set_gid(f"region_label:{name}")
+        # outlines of the region's pixels, named like the HR regions (on the settled layout)
+        outlines = contourpy.contour_generator(gx, gy, np.pad(m, 0).astype(float)).lines(0.5)
+        outlines = [np.asarray(o) for o in outlines if len(o) >= 4]
+
+        def accept(xy, m=m):
+            ix = np.clip(np.rint((xy[:, 0] - x0) / (x1 - x0) * (n - 1)).astype(int), 0, n - 1)
+            iy = np.clip(np.rint((xy[:, 1] - y0) / (y1 - y0) * (n - 1)).astype(int), 0, n - 1)
+            return m[iy, ix]
+
+        if outlines:
+            regions.append((name, outlines, pal[name], accept))
     im = ax.imshow(rgba, extent=(x0, x1, y0, y1), origin="lower", aspect="auto", interpolation="nearest",
                    zorder=0.4)
     im.set_gid("regions:raster")
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
-    return im
+    return regions
 
 
 def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flags=None, ax=None, feh=0.0,
@@ -791,8 +799,11 @@ def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flag
     ax.tick_params(which="both", direction="in", right=True, top=top_axis is None)
     feh_value = _feh_of(sm, feh) if sm is not None else None
     note = ""
+    regions = []
     if sm is not None and show_regions:
-        if _kiel_regions(ax, sm, pal, feh_value if feh_value is not None else 0.0) is None:
+        regions = _kiel_regions(ax, sm, pal, feh_value if feh_value is not None else 0.0)
+        if regions is None:
+            regions = []
             note = "regions not shaded: hrstage.classifier.logl_from_logg unavailable"
     named = _draw_curves(ax, sm, pal, show_curves, logg=True) if sm is not None and show_curves else []
     st = stars.stage
@@ -807,7 +818,7 @@ def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flag
     if title:
         ax.set_title(title)
     n_missing = int((~(np.isfinite(x) & np.isfinite(g))).sum())
-    _finish(ax, own, handles, named, [], x, g, size, pal, legend,
+    _finish(ax, own, handles, named, regions, x, g, size, pal, legend,
             _caption_text(feh_value, n_missing, note) if caption else None)
     _label_targets(ax, data, stars.n, x, g, label_column, label_rows, labels)
     return ax

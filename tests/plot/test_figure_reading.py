@@ -225,3 +225,14 @@ def test_a_stage_added_later_gets_a_style_and_is_drawn(monkeypatch, real_stage_m
     monkeypatch.setattr("hrstage.plot.palette.get_palette", lambda p: pal)
     doc = report.render_report(t, figure=False)
     assert "New branch" in doc and "<code>new_branch</code>" in doc
+
+
+def test_kiel_names_cover_no_data_and_no_other_line(demo_tagged):
+    from hrstage.plot import kiel_diagram
+
+    ax = kiel_diagram(demo_tagged)
+    ax.figure.draw_without_rendering()
+    found = _collisions(ax)
+    assert sum(k.startswith("region_label") for k in found) >= 5
+    bad = {gid: v for gid, v in found.items() if v[0] or v[1]}
+    assert not bad, bad
