@@ -49,9 +49,23 @@ HERE = Path(__file__).resolve().parent
 
 # Code run in child processes. The CLI is reached through its documented entry point
 # (``hrstage.cli:main``, the console script of pyproject.toml) with sys.argv set as the shell would.
-_CLI_CHILD = "import sys; sys.argv = ['hrstage'] + sys.argv[1:]; from hrstage.cli import main; sys.exit(main())"
+# Every child writes its peak resident memory (VmHWM of /proc/self/status: the high-water mark of
+# its own address space, reset by exec) at exit to the file named by BENCH_HWM_FILE. ``ru_maxrss``
+# from wait4 is not used where VmHWM exists: Linux carries it over from the parent through fork and
+# exec, so a child of a large parent would report at least the parent's size.
+_HWM = (
+    "import atexit, os\n"
+    "def _hwm():\n"
+    "    path = os.environ.get('BENCH_HWM_FILE')\n"
+    "    if path:\n"
+    "        for line in open('/proc/self/status'):\n"
+    "            if line.startswith('VmHWM:'):\n"
+    "                open(path, 'w').write(line.split()[1])\n"
+    "atexit.register(_hwm)\n"
+)
+_CLI_CHILD = _HWM + "import sys; sys.argv = ['hrstage'] + sys.argv[1:]; from hrstage.cli import main; sys.exit(main())"
 
-_PYARROW_CHILD = r"""
+_PYARROW_CHILD = _HWM + r"""
 import sys
 kind, src, dst = sys.argv[1:4]
 if kind == "parquet":
@@ -60,6 +74,28 @@ if kind == "parquet":
 elif kind == "csv":
     import pyarrow.csv as pc
     pc.write_csv(pc.read_csv(src), dst)
+elif kind in ("parquet-same-output", "csv-same-output"):
+    # read the input, write hrstage's output table: the I/O the CLI cannot avoid. hrstage's output
+    # (argv[4]) is read first and that time written to argv[5], to be taken off the wall time.
+    import time
+    t0 = time.perf_counter()
+    if kind == "parquet-same-output":
+        import pyarrow.parquet as pq
+        out = pq.read_table(sys.argv[4])
+        t1 = time.perf_counter()
+        pq.read_table(src)
+        pq.write_table(out, dst)
+    else:
+        import pyarrow.csv as pc
+        out = pc.read_csv(sys.argv[4])
+        t1 = time.perf_counter()
+        pc.read_csv(src)
+        pc.write_csv(out, dst)
+    with open(sys.argv[5], "w") as fh:
+        fh.write(repr(t1 - t0))
+elif kind == "astropy":
+    from astropy.table import Table
+    Table.read(src).write(dst, overwrite=True)
 elif kind == "parquet-read":
     import pyarrow.parquet as pq
     t = pq.read_table(src)
@@ -108,7 +144,8 @@ def machine_description() -> dict:
 # synthetic catalogue
 # --------------------------------------------------------------------------------------------
 def synthetic_batch(n: int, rng: np.random.Generator, start_id: int = 0):
-    """One pyarrow RecordBatch of ``n`` invented stars (columns star_id, teff, lum, feh).
+    """One pyarrow RecordBatch of ``n`` invented stars (columns star_id, teff, teff_err, lum,
+    lum_err, feh).
 
     The mixture is rough on purpose: it only has to put stars in every region of the diagram in
     proportions of the order of a magnitude-limited catalogue (mostly dwarfs, some giants).
@@ -147,11 +184,16 @@ def synthetic_batch(n: int, rng: np.random.Generator, start_id: int = 0):
     logt[m4] = rng.uniform(3.45, 4.7, m4.sum())
     logl[m4] = rng.uniform(-4.0, 6.0, m4.sum())
     feh = np.clip(rng.normal(-0.1, 0.3, n), -2.5, 0.5)
+    teff = np.round(10.0 ** logt, 1)
+    lum = 10.0 ** logl
+    # 1-sigma errors: 1-3 % in Teff, 5-20 % in L (typical of spectroscopic Teff and Gaia-era L)
     return pa.record_batch(
         {
             "star_id": pa.array(np.arange(start_id, start_id + n, dtype=np.int64)),
-            "teff": pa.array(np.round(10.0 ** logt, 1)),
-            "lum": pa.array(10.0 ** logl),
+            "teff": pa.array(teff),
+            "teff_err": pa.array(np.round(teff * rng.uniform(0.01, 0.03, n), 1)),
+            "lum": pa.array(lum),
+            "lum_err": pa.array(lum * rng.uniform(0.05, 0.20, n)),
             "feh": pa.array(np.round(feh, 3)),
         }
     )
@@ -209,10 +251,14 @@ def write_dataset(folder: Path, rows: int, parts: int, seed: int = 7) -> Path:
 def run_child(args: list[str], env: dict | None = None) -> tuple[float, float]:
     """Run ``python args...`` in a fresh process; return (wall seconds, peak RSS in MiB).
 
-    The peak resident set size is the child's own ``ru_maxrss`` (``os.wait4``), so it does not
-    mix with this process or with other children.
+    The peak resident set size is the child's own high-water mark (VmHWM, written by the child at
+    exit; ``ru_maxrss`` from ``os.wait4`` where /proc is missing), so it does not mix with this
+    process or with other children.
     """
     cmd = [sys.executable, *args]
+    fd, hwm_file = tempfile.mkstemp(prefix="bench-hwm-")
+    os.close(fd)
+    env = dict(os.environ if env is None else env, BENCH_HWM_FILE=hwm_file)
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=env)
     _, status, usage = os.wait4(proc.pid, 0)
@@ -223,6 +269,10 @@ def run_child(args: list[str], env: dict | None = None) -> tuple[float, float]:
         proc.stderr.close()
     if proc.returncode != 0:
         raise RuntimeError(f"command failed (exit {proc.returncode}): {' '.join(cmd)}\n{err[-2000:]}")
+    hwm = Path(hwm_file).read_text().strip()
+    os.unlink(hwm_file)
+    if hwm:
+        return elapsed, int(hwm) / 1024
     # Linux reports ru_maxrss in KiB, macOS in bytes
     scale = 1.0 / 1024 if sys.platform != "darwin" else 1.0 / 2**20
     return elapsed, usage.ru_maxrss * scale
@@ -270,12 +320,20 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), c
             out = work / f"out_cli_w{w}_{cs}.{kind}"
             cmds.append((name, cli(src, out, "--workers", str(w), "--add-columns", cs), out))
     cmds.append(("pyarrow", pyarrow_copy(kind, src, out_pa), out_pa))
+    out_same = work / f"out_pyarrow_same.{kind}"
+    excluded = work / "excluded_s.txt"
+    ref_out = cmds[0][2]
+    cmds.append(("same_output", pyarrow_copy(f"{kind}-same-output", src, out_same) + [str(ref_out), str(excluded)],
+                 out_same))
     runs: dict = {name: [] for name, _, _ in cmds}
     for _ in range(repeats):
         for name, cmd, out in cmds:
             if out.exists():
                 out.unlink()
-            runs[name].append(run_child(cmd))
+            t, rss = run_child(cmd)
+            if name == "same_output":      # minus the time reading hrstage's output
+                t -= float(excluded.read_text())
+            runs[name].append((t, rss))
     first_out = cmds[0][2]
     res = {
         "rows": rows,
@@ -285,14 +343,18 @@ def bench_format(work: Path, rows: int, kind: str, repeats: int, workers=(1,), c
         "pyarrow_median_s": round(med(t for t, _ in runs["pyarrow"]), 3),
         "workers": {},
     }
+    same = [t for t, _ in runs["same_output"]]
+    res["pyarrow_same_output_s"] = [round(t, 3) for t in same]
+    res["pyarrow_same_output_median_s"] = round(med(same), 3)
     for name, _, out in cmds:
-        if name == "pyarrow":
+        if name in ("pyarrow", "same_output"):
             continue
         times = [t for t, _ in runs[name]]
         m = round(med(times), 3)
         key = int(name[1:]) if ":" not in name else name[1:]
         res["workers"][key] = {"cli_s": [round(t, 3) for t in times], "cli_median_s": m,
                                "ratio_cli_over_pyarrow": round(m / res["pyarrow_median_s"], 2),
+                               "ratio_cli_over_same_output": round(m / res["pyarrow_same_output_median_s"], 2),
                                "cli_rows_per_s": round(rows / m)}
     # a floor: pyarrow alone copying (reading and writing) hrstage's output of each column set
     res["pyarrow_copy_of_output"] = {}
@@ -326,11 +388,38 @@ def _print_format(title: str, r: dict, bar: str) -> None:
     for w, x in r["workers"].items():
         label = f"--workers {w}" if not isinstance(w, str) else "--workers {} --add-columns {}".format(*w.split(":"))
         print(f"  hrstage classify {label:<32} median {x['cli_median_s']:8.2f} s   {x['cli_s']}"
-              f"   ratio CLI / pyarrow = {x['ratio_cli_over_pyarrow']:.2f}{bar}")
+              f"   ratio CLI / pyarrow = {x['ratio_cli_over_pyarrow']:.2f}, CLI / pyarrow same output = "
+              f"{x['ratio_cli_over_same_output']:.2f}{bar}")
     print(f"  pyarrow read+write           median {r['pyarrow_median_s']:8.2f} s   {r['pyarrow_s']}")
+    print(f"  pyarrow reading the input and writing hrstage's output table (all columns, --workers "
+          f"{next(iter(r['workers']))}): median {r['pyarrow_same_output_median_s']:8.2f} s   {r['pyarrow_same_output_s']}")
     for cs, x in r.get("pyarrow_copy_of_output", {}).items():
         print(f"  pyarrow read+write of hrstage's output ({cs}): median {x['median_s']:8.2f} s   {x['s']}"
               f"   ratio to pyarrow read+write of the input = {x['ratio_over_pyarrow']:.2f}  (a floor for the CLI)")
+
+
+DEMO = HERE.parent / "data" / "demo" / "kestrel_targets.ecsv"
+
+
+def bench_demo(work: Path, repeats: int) -> dict:
+    """The 3000-row demo ECSV: ``hrstage classify`` (defaults: 128 draws, all columns, ECSV out)
+    against astropy reading and writing the same file, interleaved; time and peak RSS. The stage
+    maps come from the on-disk cache (warmed before); one run with an empty cache folder and one
+    with the cache off show the cost without it."""
+    out_cli, out_ap = work / "demo_cli.ecsv", work / "demo_astropy.ecsv"
+    runs = side_by_side(cli(DEMO, out_cli), pyarrow_copy("astropy", DEMO, out_ap), repeats, (out_cli, out_ap))
+    cold_dir = work / "empty_map_cache"
+    cold = run_child(cli(DEMO, out_cli), env=dict(os.environ, HRSTAGE_CACHE_DIR=str(cold_dir)))
+    shutil.rmtree(cold_dir, ignore_errors=True)
+    off = run_child(cli(DEMO, out_cli), env=dict(os.environ, HRSTAGE_MAP_CACHE="0"))
+    res = {"rows": 3000}
+    for name, r in zip(("cli", "astropy"), runs):
+        res[name] = {"s": [round(t, 3) for t, _ in r], "median_s": round(med(t for t, _ in r), 3),
+                     "peak_MiB": [round(m) for _, m in r], "median_peak_MiB": round(med(m for _, m in r))}
+    res["ratio_cli_over_astropy"] = round(res["cli"]["median_s"] / res["astropy"]["median_s"], 2)
+    res["cold_cache"] = {"s": round(cold[0], 3), "peak_MiB": round(cold[1])}
+    res["cache_off"] = {"s": round(off[0], 3), "peak_MiB": round(off[1])}
+    return res
 
 
 def bench_streaming(work: Path, rows: int, chunk_sizes: list[int]) -> dict:
@@ -414,10 +503,12 @@ def parse_args(argv=None):
                    help="comma-separated --add-columns sets of the CLI runs (default all,brief)")
     p.add_argument("--dask-partitions", type=int, default=16, help="files in the Dask dataset (default 16)")
     p.add_argument("--repeats", type=int, default=3, help="repeats per timing; the median is reported (default 3)")
-    p.add_argument("--skip", default="", help="comma-separated parts to skip: parquet,csv,stream,dask")
+    p.add_argument("--skip", default="", help="comma-separated parts to skip: demo,parquet,csv,stream,dask")
     p.add_argument("--workdir", type=Path, default=None,
                    help="scratch folder (default benchmarks/_work/, git-ignored)")
     p.add_argument("--keep", action="store_true", help="keep the scratch folder")
+    p.add_argument("--user-cache", action="store_true",
+                   help="use the user's stage-map cache folder (default: a folder of this run, warmed first)")
     p.add_argument("--json", type=Path, default=None, help="also write the results to this JSON file")
     return p.parse_args(argv)
 
@@ -431,7 +522,7 @@ def _print_machine(info: dict) -> None:
 def main(argv=None) -> int:
     args = parse_args(argv)
     skip = {s.strip() for s in args.skip.split(",") if s.strip()}
-    unknown = skip - {"parquet", "csv", "stream", "dask"}
+    unknown = skip - {"demo", "parquet", "csv", "stream", "dask"}
     if unknown:
         print(f"bench_pipeline: unknown part(s) in --skip: {', '.join(sorted(unknown))}", file=sys.stderr)
         return 2
@@ -444,11 +535,24 @@ def main(argv=None) -> int:
     _print_machine(info)
     results: dict = {"machine": info}
     t_start = time.perf_counter()
+    if not args.user_cache:   # the stage maps' on-disk cache of this run, warmed before any timing
+        os.environ["HRSTAGE_CACHE_DIR"] = str(work / "map_cache")
+    run_child(cli(DEMO, work / "warm_up.ecsv"))
+    print(f"  map cache: {os.environ.get('HRSTAGE_CACHE_DIR', 'the user cache folder')} (warm)")
     try:
+        if "demo" not in skip:
+            r = results["demo"] = bench_demo(work, max(args.repeats, 5))
+            print(f"\nDemo ECSV, {r['rows']:,} rows ({DEMO.name}), defaults (128 draws), ECSV out:")
+            print(f"  hrstage classify      median {r['cli']['median_s']:6.2f} s  peak {r['cli']['median_peak_MiB']:4d} MiB"
+                  f"   {r['cli']['s']}   ratio CLI / astropy = {r['ratio_cli_over_astropy']:.2f}   (bar: <= 1.5, <= 150 MB)")
+            print(f"  astropy read+write    median {r['astropy']['median_s']:6.2f} s  peak "
+                  f"{r['astropy']['median_peak_MiB']:4d} MiB   {r['astropy']['s']}")
+            print(f"  hrstage, empty map cache (builds and stores the maps): {r['cold_cache']['s']:.2f} s, peak "
+                  f"{r['cold_cache']['peak_MiB']} MiB; cache off: {r['cache_off']['s']:.2f} s, peak {r['cache_off']['peak_MiB']} MiB")
         if "parquet" not in skip:
             r = results["parquet"] = bench_format(work, args.rows, "parquet", args.repeats, args.workers,
                                                   args.add_columns)
-            _print_format("Parquet", r, "   (bar: <= 3)")
+            _print_format("Parquet", r, "   (bar: same output <= 1.5)")
         if "csv" not in skip:
             r = results["csv"] = bench_format(work, args.csv_rows or args.rows, "csv", args.repeats, args.workers,
                                               args.add_columns)

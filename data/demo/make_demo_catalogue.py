@@ -6,6 +6,8 @@ Teff and [Fe/H], a luminosity from an SED fit, their errors, and an MK type gath
 literature. As in any magnitude-limited sample, giants contaminate it, a few white dwarfs, hot
 subdwarfs and metal-poor subdwarfs slipped in, some catalogued MK types are wrong (a luminosity class
 V given to a giant and the reverse), some values are missing or carry fill values (-9999, 99.99).
+A few targets (the last rows) turned out to be young stars of an invented moving group crossing the
+field, still contracting towards the main sequence and typed as dwarfs.
 Nothing here is a real star; identifiers are ``KDF-nnnnnn``.
 
 The true positions come from a simple population model built on the project's own analytic
@@ -24,7 +26,7 @@ import argparse
 from pathlib import Path
 
 import numpy as np
-from astropy.table import MaskedColumn, Table
+from astropy.table import MaskedColumn, Table, vstack
 
 from hrstage.models import tout1996
 from hrstage.models.hpt2000 import l_bgb, ms_luminosity_radius, r_gb, t_ms, wd_radius
@@ -172,6 +174,48 @@ def build(seed=SEED, n=N_STARS) -> Table:
                              "Synthetic stars, no real objects.")
     t.meta["generator"] = f"data/demo/make_demo_catalogue.py, seed {seed}"
     t.meta["true_stage_counts"] = {k: int((kinds == k).sum()) for k in FRACTIONS}
+    young = young_block(seed, n + 1)
+    t = vstack([t, young], metadata_conflicts="silent")
+    t.meta["true_stage_counts"]["young"] = len(young)
+    return t
+
+
+# ---------------------------------------------------------------------------------------------
+# young stars (pre-main sequence): their own block and random stream, appended after the others
+N_YOUNG = 18
+
+
+def young_block(seed=SEED, first_id=N_STARS + 1, n=N_YOUNG) -> Table:
+    """Invented young stars of a moving group (ages of a few Myr), as extra rows.
+
+    A simple position model of our own, not a pre-main-sequence track: 0.35-1.3 Msun, a Teff 5-15 %
+    below the Tout et al. (1996) ZAMS Teff of the mass (contracting stars are cooler and larger)
+    and a luminosity 0.5-1.3 dex above the ZAMS luminosity, i.e. well above an equal-mass binary.
+    A separate random stream, so the rows above do not change when this block does.
+    """
+    rng = np.random.default_rng(seed + 13)
+    m = rng.uniform(0.35, 1.3, n)
+    feh_true = rng.normal(0.0, 0.05, n)
+    z = 0.02 * 10.0 ** feh_true
+    lz, rz = tout1996.zams_luminosity(m, z), tout1996.zams_radius(m, z)
+    teff_true = teff_from(np.log10(lz), rz) * rng.uniform(0.85, 0.95, n)
+    lum_true = lz * 10.0 ** rng.uniform(0.5, 1.3, n)
+    teff_err = np.round(0.02 * teff_true, 0)
+    teff = np.round(teff_true + rng.normal(0, teff_err), 0)
+    lum_rel = rng.uniform(0.05, 0.12, n)
+    lum = lum_true * (1 + rng.normal(0, lum_rel))
+    sptype = mk_type(np.full(n, "dwarf"), teff_true, rng)
+    sptype = np.char.add(sptype.astype(str), "e")          # emission lines, as young stars often show
+    t = Table()
+    t["target_id"] = [f"KDF-{i:06d}" for i in range(first_id, first_id + n)]
+    t["ra"] = MaskedColumn(np.round(rng.uniform(202.2, 202.6, n), 6), unit="deg")
+    t["dec"] = MaskedColumn(np.round(rng.uniform(-30.2, -29.8, n), 6), unit="deg")
+    t["teff"] = MaskedColumn(teff, unit="K")
+    t["teff_err"] = MaskedColumn(teff_err, unit="K")
+    t["lum"] = MaskedColumn(np.round(lum, 5), unit="solLum")
+    t["lum_err"] = MaskedColumn(np.round(lum * lum_rel, 5), unit="solLum")
+    t["feh"] = MaskedColumn(np.round(feh_true + rng.normal(0, 0.08, n), 2), unit="dex")
+    t["sptype"] = MaskedColumn(sptype)
     return t
 
 

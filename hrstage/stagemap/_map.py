@@ -684,6 +684,10 @@ class StageMap:
 
     @functools.cached_property
     def _ms_top_columns(self):
+        """:meth:`_ms_top_crossings`, kept in the on-disk cache with the rasters."""
+        return self.stored("ms_top_columns", StageMap._ms_top_crossings)
+
+    def _ms_top_crossings(self):
         """Crossings of the main-sequence upper edge with the vertical line through the centre of
         every raster column: (nx, K) log L values, ascending, NaN-padded.
 

@@ -73,4 +73,7 @@ def test_wheel_carries_demo_and_runs_without_checkout(tmp_path):
     res = _run([str(exe), "demo", "--out", "demo_out", "--draws", "8"], cwd=work, env=env)
     out = work / "demo_out"
     assert {p.name for p in out.iterdir()} >= {"hr_diagram.png", "report.html"}
-    assert "3000 rows classified" in res.stdout
+    from hrstage.catalog import read_table
+    from hrstage.cli.commands import demo_catalogue_path
+
+    assert f"{len(read_table(demo_catalogue_path()))} rows classified" in res.stdout
