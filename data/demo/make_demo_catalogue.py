@@ -6,6 +6,8 @@ Teff and [Fe/H], a luminosity from an SED fit, their errors, and an MK type gath
 literature. As in any magnitude-limited sample, giants contaminate it, a few white dwarfs, hot
 subdwarfs and metal-poor subdwarfs slipped in, some catalogued MK types are wrong (a luminosity class
 V given to a giant and the reverse), some values are missing or carry fill values (-9999, 99.99).
+A few faint targets had no spectroscopy at all: for them (``KDF-Pnnnnn``) the list gives only Gaia
+G, BP-RP, parallax and its error -- white dwarfs, hot main-sequence stars and hot subdwarfs.
 A few targets (the last rows) turned out to be young stars of an invented moving group crossing the
 field, still contracting towards the main sequence and typed as dwarfs.
 Nothing here is a real star; identifiers are ``KDF-nnnnnn``.
@@ -127,6 +129,59 @@ def mk_type(kind, teff, rng):
     return out
 
 
+# --- stars seen only through Gaia photometry (no spectroscopy): hot stars and white dwarfs -----------
+#: how many of each invented kind; drawn from their own random stream so that the rows above do not move
+PHOT_ONLY = {"white_dwarf": 8, "hot_dwarf": 6, "hot_subdwarf": 3}
+
+
+def photometric_block(seed=SEED):
+    """Invented Gaia-DR3-like G, BP-RP, parallax and parallax error for stars without spectroscopy.
+
+    White dwarfs: Teff and log g drawn, colours and M_G from the Montreal DA grid the package ships
+    (hrstage.models.montreal_wd), moved to the EDR3 passbands with the package's own offsets. Hot
+    dwarfs: B9V-A5V colours and M_G of the Pecaut & Mamajek (2013) sequence the package ships. Hot
+    subdwarfs: BP-RP -0.45..-0.30 and M_G 3.8..5.0 (typical sdB values, common practice). Gaussian
+    noise of the stated errors is added. Returns a dict of columns and the list of kinds.
+    """
+    from hrstage.models import montreal_wd, pecaut_mamajek2013
+
+    rng = np.random.default_rng([seed, 13])
+    kinds, bp_rp, abs_g, dist = [], [], [], []
+    loggs, xs, mags, lts, _, _ = montreal_wd.sequences("H", "gaia")
+    k8 = int(np.flatnonzero(loggs == 8.0)[0])
+    for _ in range(PHOT_ONLY["white_dwarf"]):
+        lt = np.log10(rng.uniform(6000.0, 30000.0))
+        c = np.interp(lt, lts[k8][::-1], xs[k8][::-1])
+        m = np.interp(lt, lts[k8][::-1], mags[k8][::-1]) + rng.normal(0.0, 0.15)  # a spread of masses
+        a, b = montreal_wd.EDR3_COLOUR_OFFSET
+        kinds.append("white_dwarf")
+        bp_rp.append(a + c * (1 + b))
+        abs_g.append(m + montreal_wd.EDR3_MAG_OFFSET)
+        dist.append(rng.uniform(15.0, 90.0))
+    seq = pecaut_mamajek2013.table()
+    ok = np.isfinite(seq["bp_rp"]) & np.isfinite(seq["m_g"]) & (seq["bp_rp"] > -0.1) & (seq["bp_rp"] < 0.2)
+    pick = rng.choice(np.flatnonzero(ok), size=PHOT_ONLY["hot_dwarf"], replace=True)
+    for i in pick:
+        kinds.append("hot_dwarf")
+        bp_rp.append(seq["bp_rp"][i])
+        abs_g.append(seq["m_g"][i] + rng.uniform(0.0, 0.6))     # on or just above the ZAMS
+        dist.append(rng.uniform(200.0, 700.0))
+    for _ in range(PHOT_ONLY["hot_subdwarf"]):
+        kinds.append("hot_subdwarf")
+        bp_rp.append(rng.uniform(-0.45, -0.30))
+        abs_g.append(rng.uniform(3.8, 5.0))
+        dist.append(rng.uniform(300.0, 900.0))
+    kinds = np.array(kinds, dtype=object)
+    bp_rp, abs_g, dist = np.array(bp_rp), np.array(abs_g), np.array(dist)
+    plx = 1000.0 / dist
+    g = abs_g + 5 * np.log10(dist) - 5
+    plx_err = np.round(np.clip(0.02 + 0.01 * 10 ** (0.2 * (g - 15.0)), 0.02, 0.3), 4)
+    cols = {"phot_g_mean_mag": np.round(g + rng.normal(0, 0.003, g.size), 4),
+            "bp_rp": np.round(bp_rp + rng.normal(0, 0.01, g.size), 4),
+            "parallax": np.round(plx + rng.normal(0, plx_err), 4), "parallax_error": plx_err}
+    return cols, kinds
+
+
 def build(seed=SEED, n=N_STARS) -> Table:
     rng = np.random.default_rng(seed)
     kinds, teff_true, logl_true, feh_true = draw_population(rng, n)
@@ -170,10 +225,30 @@ def build(seed=SEED, n=N_STARS) -> Table:
     t["lum_err"] = MaskedColumn(np.round(lum_err, 5), unit="solLum", description="1-sigma error of lum")
     t["feh"] = MaskedColumn(feh, mask=feh_mask, unit="dex", description="Spectroscopic [Fe/H] (99.99: failed)")
     t["sptype"] = MaskedColumn(sptype.astype(str), description="MK type from older literature (may be wrong)")
+    phot, phot_kinds = photometric_block(seed)
+    m = len(phot_kinds)
+    extra = Table()
+    extra["target_id"] = [f"KDF-P{i:05d}" for i in range(1, m + 1)]
+    prng = np.random.default_rng([seed, 14])
+    extra["ra"] = MaskedColumn(np.round(prng.uniform(201.0, 204.0, m), 6), unit="deg")
+    extra["dec"] = MaskedColumn(np.round(prng.uniform(-31.5, -28.5, m), 6), unit="deg")
+    for name in ("teff", "teff_err", "lum", "lum_err", "feh"):
+        extra[name] = MaskedColumn(np.zeros(m), mask=np.ones(m, dtype=bool), unit=t[name].unit)
+    extra["sptype"] = MaskedColumn([""] * m, mask=np.ones(m, dtype=bool))
+    for name, desc, unit in (("phot_g_mean_mag", "Gaia G (only for targets without spectroscopy)", "mag"),
+                             ("bp_rp", "Gaia BP-RP (only for targets without spectroscopy)", "mag"),
+                             ("parallax", "Gaia parallax (only for targets without spectroscopy)", "mas"),
+                             ("parallax_error", "1-sigma error of parallax", "mas")):
+        extra[name] = MaskedColumn(phot[name], unit=unit, description=desc)
+        t[name] = MaskedColumn(np.zeros(len(t)), mask=np.ones(len(t), dtype=bool), unit=unit, description=desc)
+    from astropy.table import vstack
+
+    t = vstack([t, extra], metadata_conflicts="silent")
     t.meta["description"] = ("Invented demo catalogue of hrstage: the fictional Kestrel Deep Field target list. "
                              "Synthetic stars, no real objects.")
     t.meta["generator"] = f"data/demo/make_demo_catalogue.py, seed {seed}"
     t.meta["true_stage_counts"] = {k: int((kinds == k).sum()) for k in FRACTIONS}
+    t.meta["photometry_only_counts"] = {k: int((phot_kinds == k).sum()) for k in PHOT_ONLY}
     young = young_block(seed, n + 1)
     t = vstack([t, young], metadata_conflicts="silent")
     t.meta["true_stage_counts"]["young"] = len(young)

@@ -145,8 +145,11 @@ PROFILES = {
              "logl": ("logl", "log_l", "loglum", "log_lum", "logl_lsun", "log_lbol", "logl_bol"),
              "logl_err": ("logl_err", "e_logl", "e_log_l", "logl_error", "e_loglum"),
              "radius": ("radius", "rad", "r_rsun", "radius_rsun", "rstar", "r_star"),
-             "radius_err": ("radius_err", "e_radius", "e_rad", "radius_error", "e_rstar", "s_radius")},
-            ("teff_lum", "teff_radius", "teff_logg"),
+             "radius_err": ("radius_err", "e_radius", "e_rad", "radius_error", "e_rstar", "s_radius"),
+             # rows without parameters may carry Gaia photometry (archive names only): the last route
+             "g": ("phot_g_mean_mag",), "bp_rp": ("bp_rp",), "parallax": ("parallax",),
+             "parallax_err": ("parallax_error",)},
+            ("teff_lum", "teff_radius", "teff_logg", "gaia"),
         ),
         Profile(
             "gaia", "Gaia-like photometry G, BP-RP and parallax, optionally astrophysical parameters",

@@ -32,7 +32,8 @@ class HRPosition:
         Short text per row: how Teff and L were obtained.
     extra : dict of str -> numpy.ndarray
         Intermediate quantities (``distance_pc``, ``abs_mag``, ``bc``, ``extinction``,
-        ``mass_used`` ...), one entry per row.
+        ``mass_used`` ...), one entry per row; except ``white_dwarf`` and ``other_reading`` of the
+        photometric paths, dicts of arrays on the rows they concern (their ``rows``).
     source_codes : tuple or None
         ``(texts, codes)`` with ``source == texts[codes]``: the distinct provenance texts and an
         index per row (lets a writer store ``source`` dictionary-encoded without hashing strings).
@@ -86,5 +87,6 @@ class HRPosition:
         }
         if extra:
             for k, v in self.extra.items():
-                cols.setdefault(k, v)
+                if not isinstance(v, dict):   # per-reading results (rows + values) are not columns
+                    cols.setdefault(k, v)
         return cols

@@ -24,12 +24,13 @@ probabilities of both (see ``docs/derive.md``).
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 
 from ..models import bolometric, montreal_wd, pecaut_mamajek2013
 from ._constants import LN10
-from ._errors import Propagator, derivative
+from ._errors import Propagator
 
 #: minimum probability of the other reading for it to be reported (and TWO_READINGS flagged)
 P_AMBIGUOUS = 0.05
@@ -56,26 +57,82 @@ def _ndtr(x):
     return ndtr(x)
 
 
-def edge_screen(colour, abs_mag, sig_m):
-    """Cheap pre-selection of the rows that may have a white-dwarf reading (a linear bound under
-    the bright edge, 1 mag or 3 sigma of margin): only these are read through the grid."""
-    bound = 9.6 + 3.0 * colour - np.maximum(1.0, 3.0 * sig_m)
-    return (abs_mag > bound) & (colour < 1.7) & (colour > -0.8)
+@lru_cache(maxsize=None)
+def _edge_nodes(system):
+    """The bright edge of the white-dwarf reading (log g 6.5, brighter of DA and DB) on a colour grid."""
+    c = np.linspace(-0.7, 1.8, 101)
+    m = np.fmin(montreal_wd.sequence_mag(c, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere="H", system=system),
+                montreal_wd.sequence_mag(c, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere="He", system=system))
+    ok = np.isfinite(m)
+    return c[ok], m[ok]
 
 
-def _position(logt_fn, bc_fn, c, m, sig_c, sig_m, sig_lt_sys, sig_bc_sys, mbol_sun):
-    """(logt, logl, logt_err, logl_err, corr) of a reading given as functions of (colour, M)."""
-    logt = logt_fn(c, m)
-    bc = bc_fn(c, m)
+def quick_screen(colour, abs_mag, p_sig, plx, sig_m_dist=None, system="gaia"):
+    """Rows that may need another reading, from a bound that costs a few passes over the arrays:
+    Gaia (BP-RP)_0 < 0.20 (the hot-star and hot-subdwarf readings), or fainter than a line under
+    the white-dwarf edge (Gaia: M_G > 9.8 + 2.7 (BP-RP)_0, below the log g 6.5 sequences of both
+    grids for 0.2 <= BP-RP <= 1.8; Johnson: M_V > 8.0 + 4.0 (B-V)_0, and > 4.5 bluer than -0.25, under
+    the edge at every B-V of the grids) minus a margin
+    of max(1 mag, 3 sigma of the distance term). ``sig_m_dist``: that sigma if known on every row,
+    else it follows from the parallax error ``p_sig`` and parallax ``plx`` (mas). NaN rows are never
+    selected."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        if system == "gaia":
+            gap = 2.7 * colour
+            gap += 9.8
+        else:
+            gap = 4.0 * colour
+            gap += 8.0
+            np.copyto(gap, 4.5, where=colour < -0.25)
+        gap -= abs_mag                       # > 0: brighter than the line by that much
+        near = gap < 1.0
+        if sig_m_dist is not None:
+            near |= gap < 3.0 * sig_m_dist
+        else:                                # gap < 3 (5 / ln 10) p_sig / plx, without dividing
+            gap *= plx
+            near |= gap < (3.0 * 5.0 / math.log(10.0)) * p_sig
+        if system == "gaia":
+            near |= colour < HOT_GAIA_LIMIT
+        return near
+
+
+def edge_screen(colour, abs_mag, sig_m, system="gaia"):
+    """Cheap pre-selection of the rows that may have a white-dwarf reading: fainter than the bright
+    edge of the reading minus 1 mag or 3 sigma, inside its colour span. Only these rows are read
+    through the grid (one interpolation per row)."""
+    c, m = _edge_nodes(system)
+    edge = np.interp(colour, c, m)
+    return (abs_mag > edge - np.maximum(1.0, 3.0 * sig_m)) & (colour >= c[0] - 0.1) & (colour <= c[-1])
+
+
+def _slopes(fn, c, m, h=1e-3):
+    """``fn(c, m) -> (logt, bc)`` and its partial derivatives by central differences (one-sided at
+    the edge of a table, 0 where neither side exists), in one batched evaluation of 5 n points."""
+    n = c.size
+    cc = np.concatenate([c, c + h, c - h, c, c])
+    mm = np.concatenate([m, m, m, m + h, m - h])
+    outs = []
+    for v in fn(cc, mm):
+        v0, cp, cm, mp, mn = (v[i * n:(i + 1) * n] for i in range(5))
+        dc = _one_slope(v0, cp, cm, h)
+        dm = _one_slope(v0, mp, mn, h)
+        outs.append((v0, dc, dm))
+    return outs
+
+
+def _one_slope(v0, vp, vm, h):
+    both = np.isfinite(vp) & np.isfinite(vm)
+    d = np.where(both, (vp - vm) / (2 * h), np.where(np.isfinite(vp), (vp - v0) / h, (v0 - vm) / h))
+    return np.where(np.isfinite(d), d, 0.0)
+
+
+def _position(fn, c, m, sig_c, sig_m, sig_lt_sys, sig_bc_sys, mbol_sun):
+    """(logt, logl, logt_err, logl_err, corr) of a reading given as ``fn(colour, M) -> (logt, bc)``."""
+    (logt, dlt_dc, dlt_dm), (bc, dbc_dc, dbc_dm) = _slopes(fn, c, m)
     logl = bolometric.logl_from_mbol(m + bc, mbol_sun)
-    dlt_dc = derivative(lambda x: logt_fn(x, m), c, 1e-3, f0=logt)
-    dlt_dm = derivative(lambda x: logt_fn(c, x), m, 1e-3, f0=logt)
-    dbc_dc = derivative(lambda x: bc_fn(x, m), c, 1e-3, f0=bc)
-    dbc_dm = derivative(lambda x: bc_fn(c, x), m, 1e-3, f0=bc)
-    fix = lambda a: np.where(np.isfinite(a), a, 0.0)  # noqa: E731 - edge of a table: no slope known
     prop = Propagator(c.size)
-    prop.add(sig_c, fix(dlt_dc), -0.4 * fix(dbc_dc))
-    prop.add(sig_m, fix(dlt_dm), -0.4 * (1.0 + fix(dbc_dm)))
+    prop.add(sig_c, dlt_dc, -0.4 * dbc_dc)
+    prop.add(sig_m, dlt_dm, -0.4 * (1.0 + dbc_dm))
     prop.add(sig_lt_sys, 1.0, 0.0)
     prop.add(sig_bc_sys, 0.0, -0.4)
     elt, ell, corr = prop.result()
@@ -92,15 +149,16 @@ def white_dwarf(c, m, sig_c, sig_m, *, system, release, atmosphere):
     else:
         cg, mg = c, m
 
-    def logt_fn(x, y):
-        return np.log10(montreal_wd.read(x, y, atmosphere=atmosphere, system=system)["teff"])
+    base = {}
 
-    def bc_fn(x, y):
-        return montreal_wd.read(x, y, atmosphere=atmosphere, system=system)["bc"]
+    def fn(x, y):
+        r = montreal_wd.read(x, y, atmosphere=atmosphere, system=system)
+        base.update(mass=r["mass"][:x.size // 5], logg=r["logg"][:x.size // 5],
+                    extrapolated=r["extrapolated"][:x.size // 5])
+        return np.log10(r["teff"]), r["bc"]
 
-    base = montreal_wd.read(cg, mg, atmosphere=atmosphere, system=system)
     out = dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
-                   _position(logt_fn, bc_fn, cg, mg, sig_c, sig_m, montreal_wd.SIGMA_TEFF_FRAC / LN10,
+                   _position(fn, cg, mg, sig_c, sig_m, montreal_wd.SIGMA_TEFF_FRAC / LN10,
                              montreal_wd.SIGMA_BC, bolometric.IAU_MBOL_SUN)))
     edge = montreal_wd.sequence_mag(cg, montreal_wd.LOGG_EXTRAPOLATE[0], atmosphere=atmosphere, system=system)
     s = np.hypot(sig_m, _EDGE_SLOPE * sig_c)
@@ -116,15 +174,12 @@ def hot_star(c, m, sig_c, sig_m):
     """Gaia hot-star reading (Pecaut & Mamajek 2013 dwarf sequence) on the given rows."""
     pm = pecaut_mamajek2013
 
-    def logt_fn(x, y):
-        return np.log10(pm.teff_from_bp_rp(x))
-
-    def bc_fn(x, y):
-        return pm.bc_g(x)
+    def fn(x, y):
+        return np.log10(pm.teff_from_bp_rp(x)), pm.bc_g(x)
 
     sig_bc = math.hypot(pm.SIGMA_BC, pm.SIGMA_GV)
     return dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
-                    _position(logt_fn, bc_fn, c, m, sig_c, sig_m, pm.SIGMA_TEFF_FRAC / LN10, sig_bc,
+                    _position(fn, c, m, sig_c, sig_m, pm.SIGMA_TEFF_FRAC / LN10, sig_bc,
                               bolometric.IAU_MBOL_SUN)))
 
 
@@ -132,12 +187,10 @@ def hot_subdwarf(c, m, sig_c, sig_m, *, release):
     """Gaia hot-subdwarf reading: colour scale of the log g = 7 DA sequence (approximate)."""
     cg, mg = montreal_wd.to_grid_passbands(c, m, release)
 
-    def logt_fn(x, y):
-        return np.log10(montreal_wd.at_logg(x, 7.0)[0])
-
-    def bc_fn(x, y):
-        return montreal_wd.at_logg(x, 7.0)[1]
+    def fn(x, y):
+        t, bc = montreal_wd.at_logg(x, 7.0)
+        return np.log10(t), bc
 
     return dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
-                    _position(logt_fn, bc_fn, cg, mg, sig_c, sig_m, SUBDWARF_SIGMA_TEFF_FRAC / LN10,
+                    _position(fn, cg, mg, sig_c, sig_m, SUBDWARF_SIGMA_TEFF_FRAC / LN10,
                               SUBDWARF_SIGMA_BC, bolometric.IAU_MBOL_SUN)))

@@ -65,7 +65,8 @@ def _distance(a, n, flags, flags_pre, p_sig, plx_c, dist_pc, mu_term):
     """Published distances (median, 16th/84th percentiles, pc) where a row has one, else the parallax.
 
     Returns ``(dist_pc, mu_term, sig_m_dist, dist_rows, d_lo, d_hi)``: ``sig_m_dist`` is the distance
-    share of the absolute-magnitude error (mag) on every row (parallax or distance), ``dist_rows`` the
+    share of the absolute-magnitude error (mag) on every row (parallax or distance; None without
+    distance input: :func:`_sig_m_distance` computes it on the rows that need it), ``dist_rows`` the
     rows that use a published distance (None: no distance input), ``d_lo``/``d_hi`` the half-widths in
     log10 d below and above the median (0 where no interval). In log d the 16-84 % interval is used as
     a Gaussian of 1-sigma (log d_hi - log d_lo) / 2 for the covariance; each side's own width gives the
@@ -74,11 +75,11 @@ def _distance(a, n, flags, flags_pre, p_sig, plx_c, dist_pc, mu_term):
     flags before the parallax was read); an interval that does not bracket the median is BAD_INPUT
     (ignored). LOW_PARALLAX_SNR stays: such a distance leans on its prior.
     """
+    d = a.get("dist")
+    if d is None:    # parallaxes only: the distance share of sigma_M is computed where needed
+        return dist_pc, mu_term, None, None, None, None
     with np.errstate(divide="ignore", invalid="ignore"):
         sig_m_plx = np.where(p_sig > 0, 5.0 / LN10 * p_sig / plx_c, 0.0)
-    d = a.get("dist")
-    if d is None:
-        return dist_pc, mu_term, sig_m_plx, None, None, None
     use = np.isfinite(d) & (d > 0)
     plx_bits = np.int64(F.NONPOSITIVE_PARALLAX | F.MISSING_INPUT | F.BAD_INPUT)
     flags[use] = flags_pre[use] | (flags[use] & ~plx_bits)
@@ -116,6 +117,16 @@ def _distance_raw(distance, distance_lo, distance_hi):
     if "dist" not in out and out:
         raise HrstageInputError("distance_lo / distance_hi given without distance (the median)")
     return out
+
+
+def _sig_m_distance(dist_err, idx):
+    """The distance share of the absolute-magnitude error (mag) on rows ``idx``."""
+    p_sig, plx_c, sig_m_dist = dist_err
+    if sig_m_dist is not None:
+        return sig_m_dist[idx]
+    ps, pc = p_sig[idx], plx_c[idx]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(ps > 0, 5.0 / LN10 * ps / pc, 0.0)
 
 
 def _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows):
@@ -272,9 +283,10 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
     near the white-dwarf sequence, the hot-star reading (Pecaut & Mamajek 2013) for
     -0.12 <= (BP-RP)_0 < 0.20 and the hot-subdwarf reading bluer than that and fainter than
     M_G = 2. The more probable reading gives Teff and L; the other, where it keeps >= 5 % of the
-    probability, is returned in ``extra`` (``other_logt``, ``other_logl``, ... ``p_other``) and the
-    row is flagged TWO_READINGS. ``extra`` also holds ``wd_prob``, ``wd_mass``, ``wd_logg`` and
-    ``radius`` (Rsun) of the white-dwarf reading.
+    probability, is returned in ``extra["other_reading"]`` (a dict: ``rows``, ``logt``, ``logl``,
+    ``logt_err``, ``logl_err``, ``corr`` and its probability ``p``, on those rows only) and the row is
+    flagged TWO_READINGS. ``extra["white_dwarf"]`` holds, for the rows read as white dwarfs,
+    ``rows``, the reading probability ``p``, ``mass`` (Msun), ``logg`` and ``radius`` (Rsun).
 
     Teff: (BP-RP)_0 through the chosen relation. Where log g is not given it is estimated from
     (Teff, L) assuming 1 Msun, updated twice starting from 4.4 (the relations depend on log g by
@@ -445,7 +457,8 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
 
     # --- blue and faint stars: the white-dwarf, hot-star and hot-subdwarf readings -------------
     extra_readings = {}
-    replace, tcode, lcode = _gaia_other_readings(c0, abs_g, c_sig, g_sig, sig_m_dist, need_colour, tcode, lcode,
+    replace, tcode, lcode = _other_readings("gaia", c0, abs_g, c_sig, g_sig, (p_sig, plx_c, sig_m_dist), need_colour,
+                                            tcode, lcode,
                                                  flags, gaia_release, wd_atmosphere, extra_readings,
                                                  (teff_out, logl, prop))
 
@@ -482,32 +495,42 @@ _GAIA_READING_TEFF = ["Teff: Pecaut+Mamajek 2013 dwarf sequence (BP-RP)0",
 _GAIA_READING_LUM = ["L: G+BC_G(Pecaut+Mamajek 2013)+parallax",
                      "L: G+BC_G(Montreal white-dwarf grid)+parallax",
                      "L: G+BC_G(log g=7 DA grid, approximate)+parallax"]
-_READING_CODES = {"hot": (7, 3), "wd_H": (8, 4), "wd_He": (9, 4), "subdwarf": (10, 5)}
+_READING_CODES = {"gaia": {"hot": (7, 3), "wd_H": (8, 4), "wd_He": (9, 4), "subdwarf": (10, 5)},
+                  "johnson": {"wd_H": (6, 2), "wd_He": (7, 2), "hot": (-1, -1), "subdwarf": (-1, -1)}}
+_JOHNSON_READING_TEFF = ["Teff: white dwarf, Montreal DA grid in (B-V)0 and M_V",
+                         "Teff: white dwarf, Montreal DB grid in (B-V)0 and M_V"]
+_JOHNSON_READING_LUM = ["L: V+BC_V(Montreal white-dwarf grid, Mbol_sun=4.74)+parallax"]
 #: bits a reading replaces (they described the cool relations' failure on these rows)
 _READING_CLEARS = F.COLOUR_OUT_OF_RANGE | F.OUTSIDE_VALIDITY | F.BC_FALLBACK | F.MISSING_INPUT
 
 
-def _gaia_other_readings(c0, abs_g, c_sig, g_sig, sig_m_dist, need_colour, tcode, lcode, flags, release,
-                         atmosphere, extra, cool_reading):
+def _other_readings(system, c0, abs_g, c_sig, g_sig, dist_err, need_colour, tcode, lcode, flags, release,
+                    atmosphere, extra, cool_reading):
     """Rows read as white dwarfs, hot stars or hot subdwarfs (see :mod:`._readings`): returns the
     ``replace`` tuple for :func:`_finish` (or None) and the updated provenance codes; fills
     ``extra`` and ``flags`` in place. Only the rows that can have another reading are evaluated."""
     n = c0.size
-    sig_m = np.hypot(g_sig, sig_m_dist)
-    fin = need_colour & np.isfinite(c0) & np.isfinite(abs_g)
-    blue = fin & (c0 < _readings.HOT_GAIA_LIMIT)
-    cand = np.flatnonzero(blue | (fin & _readings.edge_screen(c0, abs_g, np.where(np.isfinite(sig_m), sig_m, 0.0))))
+    # candidates: a cheap bound on every row, then the reading's own edge on the few left
+    p_sig, plx_c, sig_m_dist = dist_err
+    cand = np.flatnonzero(_readings.quick_screen(c0, abs_g, p_sig, plx_c, sig_m_dist, system) & need_colour)
+    c, m = c0[cand], abs_g[cand]
+    sm = np.hypot(g_sig[cand], _sig_m_distance(dist_err, cand))
+    sm = np.where(np.isfinite(sm), sm, 0.0)
+    keep = np.isfinite(c) & np.isfinite(m)
+    keep &= _readings.edge_screen(c, m, sm, system) | ((c < _readings.HOT_GAIA_LIMIT) & (system == "gaia"))
+    cand, c, m, sm = cand[keep], c[keep], m[keep], sm[keep]
     if cand.size == 0:
         return None, tcode, lcode
-    c, m, sc = c0[cand], abs_g[cand], c_sig[cand]
-    sm = np.where(np.isfinite(sig_m[cand]), sig_m[cand], 0.0)
-    wd = _readings.white_dwarf(c, m, sc, sm, system="gaia", release=release, atmosphere=atmosphere)
+    sc = c_sig[cand]
+    wd = _readings.white_dwarf(c, m, sc, sm, system=system, release=release, atmosphere=atmosphere)
     # the non-white-dwarf reading of these rows: the cool relation (already computed), else hot star / subdwarf
     k = cand.size
     star = {key: np.full(k, np.nan) for key in ("logt", "logl", "logt_err", "logl_err", "corr")}
     kind = np.full(k, "", dtype=object)
     hot = (c >= pecaut_mamajek2013.BP_RP_RANGE[0]) & (c < _readings.HOT_GAIA_LIMIT)
     sub = (c < pecaut_mamajek2013.BP_RP_RANGE[0]) & (m > _readings.SUBDWARF_MIN_ABS_G)
+    if system != "gaia":
+        hot = sub = np.zeros(k, dtype=bool)
     for mask, name, fn in ((hot, "hot", lambda i: _readings.hot_star(c[i], m[i], sc[i], sm[i])),
                            (sub, "subdwarf", lambda i: _readings.hot_subdwarf(c[i], m[i], sc[i], sm[i],
                                                                                release=release))):
@@ -539,37 +562,33 @@ def _gaia_other_readings(c0, abs_g, c_sig, g_sig, sig_m_dist, need_colour, tcode
     rows = cand[take]
     pick = {key: np.where(use_wd, wd[key], star[key])[take] for key in star}
     # provenance codes
-    wd_codes = _READING_CODES["wd_" + atmosphere]
-    tnew = np.where(use_wd, wd_codes[0], np.where(kind == "hot", 7, 10))
-    lnew = np.where(use_wd, wd_codes[1], np.where(kind == "hot", 3, 5))
+    codes = _READING_CODES[system]
+    wd_codes = codes["wd_" + atmosphere]
+    tnew = np.where(use_wd, wd_codes[0], np.where(kind == "hot", codes["hot"][0], codes["subdwarf"][0]))
+    lnew = np.where(use_wd, wd_codes[1], np.where(kind == "hot", codes["hot"][1], codes["subdwarf"][1]))
     tcode = tcode.copy()
     lcode = lcode.copy()
     tcode[rows] = tnew[take]
     lcode[rows] = lnew[take]
     flags[rows] &= ~np.int64(_READING_CLEARS)
-    or_flag(flags, np.isin(np.arange(n), cand[(use_wd & wd["extrapolated"]) | (use_star & (kind == "subdwarf"))]),
-            F.OUTSIDE_VALIDITY)
+    flags[cand[(use_wd & wd["extrapolated"]) | (use_star & (kind == "subdwarf"))]] |= np.int64(F.OUTSIDE_VALIDITY)
     # the other reading, where it keeps at least P_AMBIGUOUS of the probability
     p_chosen = np.where(use_wd, p, 1.0 - p)
     other_ok = np.where(use_wd, star_ok, wd_ok)
     amb = (use_wd | use_star) & other_ok & (1.0 - p_chosen >= _readings.P_AMBIGUOUS)
-    full = lambda: np.full(n, np.nan)  # noqa: E731
-    wd_prob = full()
-    wd_prob[cand] = np.where(wd_ok, p, np.nan)
-    extra["wd_prob"] = wd_prob
-    for key, src in (("wd_mass", "mass"), ("wd_logg", "logg")):
-        a = full()
-        a[cand[use_wd]] = wd[src][use_wd]
-        extra[key] = a
+    # per-reading results on the rows concerned only (row indices + values: no full-length arrays)
+    iw = np.flatnonzero(use_wd)
+    with np.errstate(invalid="ignore"):
+        radius = 10.0 ** (0.5 * wd["logl"][iw] - 2.0 * (wd["logt"][iw] - np.log10(TEFF_SUN)))
+    extra["white_dwarf"] = {"rows": cand[iw], "p": p[iw], "mass": wd["mass"][iw], "logg": wd["logg"][iw],
+                            "radius": radius}
     if amb.any():
         ia = np.flatnonzero(amb)
-        other = {key: full() for key in ("other_logt", "other_logl", "other_logt_err", "other_logl_err",
-                                          "other_corr", "p_other")}
+        other = {"rows": cand[ia], "p": 1.0 - p_chosen[ia]}
         for key in star:
-            other["other_" + key][cand[ia]] = np.where(use_wd, star[key], wd[key])[ia]
-        other["p_other"][cand[ia]] = 1.0 - p_chosen[ia]
-        or_flag(flags, np.isin(np.arange(n), cand[ia]), F.TWO_READINGS)
-        extra.update(other)
+            other[key] = np.where(use_wd, star[key], wd[key])[ia]
+        flags[cand[ia]] |= np.int64(F.TWO_READINGS)
+        extra["other_reading"] = other
     return (rows, pick["logt"], pick["logl"], pick["logt_err"], pick["logl_err"], pick["corr"]), tcode, lcode
 
 
@@ -580,7 +599,7 @@ def _gaia_other_readings(c0, abs_g, c_sig, g_sig, sig_m_dist, need_colour, tcode
 def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=None, v_ks=None, v_ks_err=None,
                  e_b_v=None, a_v=None, r_v=3.1, feh=None, teff=None, teff_err=None, parallax_zp=0.0,
                  min_parallax_snr=5.0, extinction_curve="G23", distance=None, distance_lo=None,
-                 distance_hi=None) -> HRPosition:
+                 distance_hi=None, wd_atmosphere="H") -> HRPosition:
     """(Teff, L) from Johnson V, B-V (and V-Ks) and parallax.
 
     Parameters
@@ -601,7 +620,7 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
         [Fe/H] (default 0) for Casagrande et al. 2010.
     teff, teff_err : array_like or Quantity [K], optional
         Teff to use where given instead of the colours.
-    parallax_zp, min_parallax_snr, extinction_curve, distance, distance_lo, distance_hi
+    parallax_zp, min_parallax_snr, extinction_curve, distance, distance_lo, distance_hi, wd_atmosphere
         As in :func:`from_gaia`.
 
     Returns
@@ -616,7 +635,12 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     Flower. Giants take Flower's dwarf/giant branch; cool stars ((B-V)_0 >= 0.3) with log L >= 4
     take Flower's supergiant branch. Dwarfs left with Flower's Teff at (B-V)_0 > 1.40 (M dwarfs, where
     B-V saturates) are flagged COLOUR_OUT_OF_RANGE. L: -2.5 log L = M_V + BC_V(Flower/Torres) - 4.73.
+    Stars on or near the white-dwarf sequence (no ``teff`` given) get the white-dwarf reading of the
+    Montreal grids in ((B-V)_0, M_V), with the reading probability and the other reading as in
+    :func:`from_gaia` (``docs/derive.md``).
     """
+    if wd_atmosphere not in ("H", "He"):
+        raise HrstageInputError(f"wd_atmosphere must be 'H' or 'He', got {wd_atmosphere!r}")
     mas = u.mas
     raw = {
         "v": to_float(v, "v", u.mag), "b_v": to_float(b_v, "b_v", u.mag), "plx": to_float(parallax, "parallax", mas),
@@ -725,17 +749,24 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
     _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows)
 
+    # --- faint stars: the white-dwarf reading (Montreal grids in (B-V)_0, M_V) ----------------------
+    extra_readings = {}
+    replace, tcode, lcode = _other_readings("johnson", bv0, abs_v, bv_sig, v_sig, (p_sig, plx_c, sig_m_dist),
+                                            need_colour, tcode,
+                                            lcode, flags, "dr2", wd_atmosphere, extra_readings,
+                                            (teff_out, logl, prop))
+
     teff_labels = ["Teff: none", "Teff: input", "Teff: Casagrande+2010 (V-Ks)0 dwarf",
                    "Teff: Casagrande+2010 (B-V)0 dwarf", "Teff: Flower 1996 (B-V)0",
-                   "Teff: Flower 1996 supergiant (B-V)0"]
-    lum_labels = ["L: none", "L: V+BC_V(Flower/Torres, Mbol_sun=4.73)+parallax"]
+                   "Teff: Flower 1996 supergiant (B-V)0", *_JOHNSON_READING_TEFF]
+    lum_labels = ["L: none", "L: V+BC_V(Flower/Torres, Mbol_sun=4.73)+parallax", *_JOHNSON_READING_LUM]
     ext_labels, dcode = _distance_labels(ext_label, dist_rows)
     table = _source_table(teff_labels, lum_labels, ext_labels)
     source = (table, (tcode * len(lum_labels) + lcode) * len(ext_labels) + dcode)
     extra = {
         "distance_pc": dist_pc, "parallax_corrected": plx_c, "parallax_snr": np.where(np.isfinite(snr), snr, np.nan),
         "abs_mag": abs_v, "bc": bc, "extinction": av_arr, "colour_excess": ebv_arr, "colour0": bv0,
-        "logg_estimate": g_est, "feh_used": feh_used,
+        "logg_estimate": g_est, "feh_used": feh_used, **extra_readings,
     }
-    return _asymmetric_logl(_finish(n, teff_out, logl, prop, flags, source, extra), sig_m_dist, dist_rows,
-                            d_lo, d_hi)
+    return _asymmetric_logl(_finish(n, teff_out, logl, prop, flags, source, extra, replace), sig_m_dist,
+                            dist_rows, d_lo, d_hi)

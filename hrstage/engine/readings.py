@@ -15,17 +15,21 @@ import numpy as np
 
 from ..stages import STAGES
 
-OTHER_KEYS = ("other_logt", "other_logl", "other_logt_err", "other_logl_err", "other_corr", "p_other")
+KEYS = ("logt", "logl", "logt_err", "logl_err", "corr", "p")
 
 
-def carry_other(out, pos, ok_rows, good):
-    """Copy the other-reading extras of a route's rows (``good`` of its subset) into ``out.extra``."""
-    if not pos.extra or "p_other" not in pos.extra:
+def carry_other(out, pos, idx, good):
+    """Keep the other reading of a route's rows (``idx``: their rows in the chunk; ``good``: those
+    the route placed) in ``out.extra["other_reading"]`` with chunk row numbers."""
+    other = pos.extra.get("other_reading") if pos.extra else None
+    if other is None:
         return
-    n = len(out)
-    for key in OTHER_KEYS:
-        full = out.extra.setdefault(key, np.full(n, np.nan))
-        full[ok_rows] = np.asarray(pos.extra[key], dtype=float)[good]
+    keep = good[other["rows"]]
+    add = {"rows": idx[other["rows"][keep]], **{k: np.asarray(other[k], dtype=float)[keep] for k in KEYS}}
+    have = out.extra.get("other_reading")
+    if have is not None:
+        add = {k: np.concatenate([have[k], add[k]]) for k in add}
+    out.extra["other_reading"] = add
 
 
 def mix_other_reading(cols, pos, classify):
@@ -34,16 +38,16 @@ def mix_other_reading(cols, pos, classify):
     ``classify(rows, logt, logl, logt_err, logl_err, corr)`` classifies the other reading of those
     rows and returns a :class:`~hrstage.classifier.ClassificationResult`.
     """
-    p = pos.extra.get("p_other") if pos.extra else None
-    if p is None:
+    other = pos.extra.get("other_reading") if pos.extra else None
+    if other is None:
         return
-    rows = np.flatnonzero(np.isfinite(p) & np.isfinite(pos.extra["other_logt"]) & np.isfinite(pos.logt))
+    ok = np.isfinite(other["p"]) & np.isfinite(other["logt"]) & np.isfinite(other["logl"])
+    rows = other["rows"][ok]
     if rows.size == 0:
         return
-    e = pos.extra
-    res = classify(rows, e["other_logt"][rows], e["other_logl"][rows], e["other_logt_err"][rows],
-                   e["other_logl_err"][rows], np.nan_to_num(e["other_corr"][rows]))
-    w = p[rows]
+    res = classify(rows, other["logt"][ok], other["logl"][ok], other["logt_err"][ok], other["logl_err"][ok],
+                   np.nan_to_num(other["corr"][ok]))
+    w = other["p"][ok]
     for k, s in enumerate(STAGES):
         col = f"prob_{s}"
         if col not in cols:
@@ -51,10 +55,9 @@ def mix_other_reading(cols, pos, classify):
         mixed = np.asarray(cols[col], dtype=float).copy()
         mixed[rows] = (1.0 - w) * mixed[rows] + w * res.proba[:, k]
         cols[col] = mixed.astype(np.asarray(cols[col]).dtype)
-    if "stage_prob" in cols and "stage" in cols:
-        codes = np.asarray(cols["stage"].codes)[rows] if hasattr(cols["stage"], "codes") else None
-        if codes is not None:
-            sp = np.asarray(cols["stage_prob"], dtype=float).copy()
-            probs = np.stack([np.asarray(cols[f"prob_{s}"], dtype=float)[rows] for s in STAGES], axis=1)
-            sp[rows] = probs[np.arange(rows.size), codes]
-            cols["stage_prob"] = sp.astype(np.asarray(cols["stage_prob"]).dtype)
+    if "stage_prob" in cols and hasattr(cols.get("stage"), "codes"):
+        codes = np.asarray(cols["stage"].codes)[rows]
+        sp = np.asarray(cols["stage_prob"], dtype=float).copy()
+        probs = np.stack([np.asarray(cols[f"prob_{s}"], dtype=float)[rows] for s in STAGES], axis=1)
+        sp[rows] = probs[np.arange(rows.size), codes]
+        cols["stage_prob"] = sp.astype(np.asarray(cols["stage_prob"]).dtype)

@@ -180,7 +180,7 @@ def positions(values, status, mapping, opts, feh, n):
             for name in ("teff", "logt", "logl", "logt_err", "logl_err", "corr"):
                 getattr(out, name)[ok_rows] = np.asarray(getattr(pos, name), dtype=float)[good]
             out.flags[ok_rows] = np.asarray(pos.flags, dtype=np.int64)[good]
-        carry_other(out, pos, ok_rows, good)      # a second photometric reading (engine/readings.py)
+        carry_other(out, pos, idx, good)      # a second photometric reading (engine/readings.py)
         if pos.source_codes is not None:
             texts, codes = pos.source_codes
             texts = np.asarray(texts, dtype=object)

@@ -86,12 +86,25 @@ def sequences(atmosphere: str = "H", system: str = "gaia"):
 
 def _along(colour, xs, ys):
     """Each sequence k interpolated at ``colour``: array (n_logg, n); NaN outside its colour span."""
-    out = np.empty((xs.shape[0], colour.size))
-    for k in range(xs.shape[0]):
-        v = np.interp(colour, xs[k], ys[k])
-        v[(colour < xs[k, 0]) | (colour > xs[k, -1])] = np.nan
-        out[k] = v
-    return out
+    return _along_many(colour, xs, (ys,))[0]
+
+
+def _along_many(colour, xs, ys_list):
+    """Several quantities of every sequence interpolated at ``colour`` with one bracket search per
+    sequence: a list of arrays (n_logg, n), NaN outside each sequence's colour span."""
+    nk = xs.shape[0]
+    outs = [np.empty((nk, colour.size)) for _ in ys_list]
+    for k in range(nk):
+        x = xs[k]
+        j = np.clip(np.searchsorted(x, colour, side="right") - 1, 0, x.size - 2)
+        x0 = x[j]
+        t = (colour - x0) / (x[j + 1] - x0)
+        t[(colour < x[0]) | (colour > x[-1]) | np.isnan(colour)] = np.nan
+        for out, ys in zip(outs, ys_list):
+            y = ys[k]
+            y0 = y[j]
+            out[k] = y0 + t * (y[j + 1] - y0)
+    return outs
 
 
 def sequence_mag(colour, logg, *, atmosphere="H", system="gaia"):
@@ -127,7 +140,7 @@ def read(colour, abs_mag, *, atmosphere="H", system="gaia"):
     c = np.asarray(colour, dtype=float).reshape(-1)
     mg = np.asarray(abs_mag, dtype=float).reshape(-1)
     c, mg = np.broadcast_arrays(c, mg)
-    m = _along(c, xs, mags)                         # (5, n), increasing with log g
+    m, lt, ms, bc = _along_many(c, xs, (mags, lts, masses, bcs))   # (5, n) each; m grows with log g
     nk = len(loggs)
     # bracket: k = number of sequences brighter than the star, minus 1, clipped to the end pairs
     k = np.clip(np.sum(m <= mg, axis=0) - 1, 0, nk - 2)
@@ -137,8 +150,7 @@ def read(colour, abs_mag, *, atmosphere="H", system="gaia"):
         w = (mg - m_lo) / (m_hi - m_lo)
     logg = loggs[k] + w * (loggs[k + 1] - loggs[k])
     out = {"logg": logg}
-    for name, ys in (("logt", lts), ("mass", masses), ("bc", bcs)):
-        v = _along(c, xs, ys)
+    for name, v in (("logt", lt), ("mass", ms), ("bc", bc)):
         lo, hi = v[k, rows], v[k + 1, rows]
         out[name] = lo + w * (hi - lo)
     ok = np.isfinite(logg) & (logg >= LOGG_EXTRAPOLATE[0]) & (logg <= LOGG_EXTRAPOLATE[1])

@@ -175,6 +175,9 @@ def test_demo(tmp_path, capsys):
 
     n_demo = len(read_table(demo_catalogue_path()))  # 3000 invented targets plus the added blocks
     assert len(tagged) == n_demo >= 3000 and str(tagged["target_id"][0]).startswith("KDF-")
+    # the targets seen only through Gaia photometry (hot stars, white dwarfs) are all placed
+    phot = np.char.startswith(np.asarray(tagged["target_id"], dtype=str), "KDF-P")
+    assert phot.sum() >= 10 and np.all(np.asarray(tagged["stage"])[phot] != "unclassified")
     # MISSING_INPUT ("a required input is missing") only on rows left unclassified: a masked [Fe/H]
     # or MK type is optional (NO_METALLICITY / not checked), not a missing required input
     from hrstage import flags as F

@@ -218,3 +218,29 @@ def test_johnson_m_dwarf_b_v_flagged():
     # with V-Ks inside Casagrande 2010's range the dwarf uses it
     r = from_johnson(6.0, 1.0, 100.0, v_ks=2.3)
     assert "V-Ks" in r.source[0] and not r.flags[0] & F.COLOUR_OUT_OF_RANGE
+
+
+def test_white_dwarf_reading_on_both_paths():
+    # a DA white dwarf of the Montreal grid (10 000 K, log g 8.0, 0.600 Msun; M_V 11.594 and
+    # M_G 12.156 in the compiled table) at 20 pc, seen through Johnson and through Gaia DR2 photometry
+    from hrstage.models import montreal_wd
+
+    t = montreal_wd._table()
+    s = (t["atmosphere"] == "H") & (t["teff"] == 10000.0) & (t["logg"] == 8.0)
+    mu = 5 * np.log10(20.0) - 5
+    j = from_johnson(t["m_v"][s] + mu, (t["m_b"] - t["m_v"])[s], 50.0)
+    g = from_gaia(t["m_g"][s] + mu, (t["m_bp"] - t["m_rp"])[s], 50.0, gaia_release="dr2")
+    for r in (j, g):
+        assert r.teff[0] == pytest.approx(10000.0, rel=1e-6)
+        assert r.extra["white_dwarf"]["mass"][0] == pytest.approx(0.600, abs=1e-6)
+        assert list(r.extra["white_dwarf"]["rows"]) == [0]
+        assert "white dwarf" in r.source[0]
+        assert not r.flags[0] & (F.OUTSIDE_VALIDITY | F.COLOUR_OUT_OF_RANGE)
+    # L = -0.4 (M_bol - 4.74) with the grid's M_bol
+    assert j.logl[0] == pytest.approx(-0.4 * (t["mbol"][s][0] - 4.74), abs=1e-9)
+    assert g.logl[0] == pytest.approx(j.logl[0], abs=1e-9)
+    # the DB grid as the reading's atmosphere
+    h = from_gaia(t["m_g"][s] + mu, (t["m_bp"] - t["m_rp"])[s], 50.0, gaia_release="dr2", wd_atmosphere="He")
+    assert "DB grid" in h.source[0] and h.teff[0] != g.teff[0]
+    with pytest.raises(HrstageInputError):
+        from_gaia(12.0, 0.1, 50.0, wd_atmosphere="DA")

@@ -23,11 +23,11 @@ def test_two_readings_are_mixed():
     t = _edge_star(0.3)
     pos = from_gaia(t["phot_g_mean_mag"], t["bp_rp"], t["parallax"], parallax_err=t["parallax_error"])
     assert pos.flags[0] & F.TWO_READINGS
-    p_other = pos.extra["p_other"][0]
+    p_other = pos.extra["other_reading"]["p"][0]
     assert 0.05 <= p_other < 0.5
     # both readings of this red star give nearly the same HR position (the colour sets Teff either
     # way): the white-dwarf stage keeps all the probability, through the mixture
-    assert abs(pos.extra["other_logt"][0] - pos.logt[0]) < 0.02
+    assert abs(pos.extra["other_reading"]["logt"][0] - pos.logt[0]) < 0.02
     out = hrstage.classify(t, seed=3)
     assert out["flags"][0] & F.TWO_READINGS
     assert out["stage"][0] == "white_dwarf"
@@ -49,10 +49,9 @@ def test_mixture_formula():
     cols["prob_white_dwarf"][:] = 1.0
     cols["stage"] = CodedText(STAGES, np.array([CODE["white_dwarf"]] * n))
     cols["stage_prob"] = np.ones(n, dtype="f4")
-    nan = np.full(n, np.nan)
-    extra = {"p_other": np.array([0.3, np.nan]), "other_logt": np.array([4.4, np.nan]),
-             "other_logl": np.array([1.3, np.nan]), "other_logt_err": nan, "other_logl_err": nan,
-             "other_corr": nan}
+    extra = {"other_reading": {"rows": np.array([0]), "p": np.array([0.3]), "logt": np.array([4.4]),
+                               "logl": np.array([1.3]), "logt_err": np.array([0.02]),
+                               "logl_err": np.array([0.1]), "corr": np.array([0.0])}}
     pos = SimpleNamespace(extra=extra, logt=np.array([4.3, 4.0]))
     proba = np.zeros((1, len(STAGES)))
     proba[0, CODE["hot_subdwarf"]] = 1.0
@@ -72,5 +71,5 @@ def test_precise_parallax_single_reading():
     t = _edge_star(0.01)
     pos = from_gaia(t["phot_g_mean_mag"], t["bp_rp"], t["parallax"], parallax_err=t["parallax_error"])
     assert not pos.flags[0] & F.TWO_READINGS
-    assert np.isnan(pos.extra["p_other"][0]) if "p_other" in pos.extra else True
+    assert "other_reading" not in pos.extra
     assert "white dwarf" in pos.source[0]
