@@ -106,24 +106,27 @@ def edge_screen(colour, abs_mag, sig_m, system="gaia"):
 
 
 def _slopes(fn, c, m, h=1e-3):
-    """``fn(c, m) -> (logt, bc)`` and its partial derivatives by central differences (one-sided at
-    the edge of a table, 0 where neither side exists), in one batched evaluation of 5 n points."""
+    """``fn(c, m) -> (logt, bc)`` and its partial derivatives, in one batched evaluation of 3 n
+    points (forward differences: exact inside a segment of the interpolated tables); where the
+    forward point falls off a table, the backward difference on those rows; 0 where neither exists."""
     n = c.size
-    cc = np.concatenate([c, c + h, c - h, c, c])
-    mm = np.concatenate([m, m, m, m + h, m - h])
+    vals = fn(np.concatenate([c, c + h, c]), np.concatenate([m, m, m + h]))
     outs = []
-    for v in fn(cc, mm):
-        v0, cp, cm, mp, mn = (v[i * n:(i + 1) * n] for i in range(5))
-        dc = _one_slope(v0, cp, cm, h)
-        dm = _one_slope(v0, mp, mn, h)
-        outs.append((v0, dc, dm))
-    return outs
-
-
-def _one_slope(v0, vp, vm, h):
-    both = np.isfinite(vp) & np.isfinite(vm)
-    d = np.where(both, (vp - vm) / (2 * h), np.where(np.isfinite(vp), (vp - v0) / h, (v0 - vm) / h))
-    return np.where(np.isfinite(d), d, 0.0)
+    for v in vals:
+        v0, vc, vm = v[:n], v[n:2 * n], v[2 * n:]
+        outs.append([v0, (vc - v0) / h, (vm - v0) / h])
+    fin0 = np.isfinite(outs[0][0])
+    redo_c = np.flatnonzero(fin0 & ~(np.isfinite(outs[0][1]) & np.isfinite(outs[1][1])))
+    redo_m = np.flatnonzero(fin0 & ~(np.isfinite(outs[0][2]) & np.isfinite(outs[1][2])))
+    if redo_c.size or redo_m.size:
+        back = fn(np.concatenate([c[redo_c] - h, c[redo_m]]), np.concatenate([m[redo_c], m[redo_m] - h]))
+        for o, v in zip(outs, back):
+            o[1][redo_c] = (o[0][redo_c] - v[:redo_c.size]) / h
+            o[2][redo_m] = (o[0][redo_m] - v[redo_c.size:]) / h
+    for o in outs:
+        o[1] = np.where(np.isfinite(o[1]), o[1], 0.0)
+        o[2] = np.where(np.isfinite(o[2]), o[2], 0.0)
+    return [tuple(o) for o in outs]
 
 
 def _position(fn, c, m, sig_c, sig_m, sig_lt_sys, sig_bc_sys, mbol_sun):
@@ -149,13 +152,13 @@ def white_dwarf(c, m, sig_c, sig_m, *, system, release, atmosphere):
     else:
         cg, mg = c, m
 
-    base = {}
-
     def fn(x, y):
         r = montreal_wd.read(x, y, atmosphere=atmosphere, system=system)
-        base.update(mass=r["mass"][:x.size // 5], logg=r["logg"][:x.size // 5],
-                    extrapolated=r["extrapolated"][:x.size // 5])
         return np.log10(r["teff"]), r["bc"]
+
+    def grid_values(x, y):
+        r = montreal_wd.read(x, y, atmosphere=atmosphere, system=system)
+        return r["mass"], r["logg"], r["extrapolated"]
 
     out = dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
                    _position(fn, cg, mg, sig_c, sig_m, montreal_wd.SIGMA_TEFF_FRAC / LN10,
@@ -166,7 +169,35 @@ def white_dwarf(c, m, sig_c, sig_m, *, system, release, atmosphere):
         z = np.where(s > 0, (mg - edge) / s, np.where(mg >= edge, np.inf, -np.inf))
     p = _ndtr(z)
     out["p"] = np.where(np.isfinite(edge), p, np.where(np.isfinite(out["logt"]), 1.0, 0.0))
-    out.update(mass=base["mass"], logg=base["logg"], extrapolated=base["extrapolated"])
+    mass, logg, extrapolated = grid_values(cg, mg)
+    out.update(mass=mass, logg=logg, extrapolated=extrapolated)
+    # brighter than the edge, yet within the errors of it: the white-dwarf share of the probability
+    # lies on the white-dwarf side, near the edge; its position is read at the edge ("clamped"), to
+    # serve only as the other reading
+    out["clamped"] = np.zeros(c.size, dtype=bool)
+    missing = ~np.isfinite(out["logt"]) & np.isfinite(edge)
+    near = np.flatnonzero(missing & (mg < edge) & (out["p"] >= P_AMBIGUOUS))
+    # fainter than the log g 9.5 sequence (beyond the grid's extrapolation): read at that faint edge,
+    # flagged as extrapolated -- still a white dwarf, not a reason to try a main-sequence relation
+    faint_edge = montreal_wd.sequence_mag(cg, montreal_wd.LOGG_EXTRAPOLATE[1], atmosphere=atmosphere, system=system)
+    faint = np.flatnonzero(missing & np.isfinite(faint_edge) & (mg > faint_edge))
+    for rows, at, clamp in ((near, edge, True), (faint, faint_edge, False)):
+        if not rows.size:
+            continue
+        shift = 1e-6 if clamp else -1e-6
+        r = dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
+                     _position(fn, cg[rows], at[rows] + shift, sig_c[rows], sig_m[rows],
+                               montreal_wd.SIGMA_TEFF_FRAC / LN10, montreal_wd.SIGMA_BC, bolometric.IAU_MBOL_SUN)))
+        if not clamp:   # L from the star's own magnitude, with the BC at the faint edge
+            r["logl"] = r["logl"] - 0.4 * (mg[rows] - at[rows] - shift)
+            mass, logg, _ = grid_values(cg[rows], at[rows] + shift)
+            out["mass"][rows] = mass
+            out["logg"][rows] = logg
+            out["extrapolated"][rows] = True
+        for key, val in r.items():
+            out[key][rows] = val
+        if clamp:
+            out["clamped"][rows] = np.isfinite(r["logt"])
     return out
 
 

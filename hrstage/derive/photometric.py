@@ -556,7 +556,9 @@ def _other_readings(system, c0, abs_g, c_sig, g_sig, dist_err, need_colour, tcod
     wd_ok = np.isfinite(wd["logt"]) & np.isfinite(wd["logl"])
     star_ok = np.isfinite(star["logt"]) & np.isfinite(star["logl"])
     p = np.where(wd_ok, wd["p"], 0.0)
-    use_wd = wd_ok & ((p >= 0.5) | (~star_ok & ~cool))
+    # the white-dwarf reading leads where it is the more probable one, or is the only one (never a
+    # position clamped at the edge of the reading)
+    use_wd = wd_ok & ((p >= 0.5) | (~star_ok & ~cool)) & ~wd["clamped"]
     use_star = ~use_wd & star_ok
     take = use_wd | (use_star & ~cool)
     rows = cand[take]

@@ -109,13 +109,14 @@ def _along_many(colour, xs, ys_list):
 
 def sequence_mag(colour, logg, *, atmosphere="H", system="gaia"):
     """Absolute magnitude of the white-dwarf sequence of gravity ``logg`` (scalar, inside
-    :data:`LOGG_EXTRAPOLATE`) at ``colour``: the bright/faint edge of the white-dwarf reading."""
+    :data:`LOGG_EXTRAPOLATE`) at ``colour``: the bright/faint edge of the white-dwarf reading
+    (linear in log g between, or beyond, the two nearest tabulated sequences)."""
     loggs, xs, mags, *_ = sequences(atmosphere, system)
     c = np.asarray(colour, dtype=float).reshape(-1)
-    m = _along(c, xs, mags)
     k = int(np.clip(np.searchsorted(loggs, logg) - 1, 0, len(loggs) - 2))
+    m = _along(c, xs[k:k + 2], mags[k:k + 2])
     w = (logg - loggs[k]) / (loggs[k + 1] - loggs[k])
-    return (m[k] + w * (m[k + 1] - m[k])).reshape(np.shape(colour))
+    return (m[0] + w * (m[1] - m[0])).reshape(np.shape(colour))
 
 
 def read(colour, abs_mag, *, atmosphere="H", system="gaia"):
@@ -140,18 +141,39 @@ def read(colour, abs_mag, *, atmosphere="H", system="gaia"):
     c = np.asarray(colour, dtype=float).reshape(-1)
     mg = np.asarray(abs_mag, dtype=float).reshape(-1)
     c, mg = np.broadcast_arrays(c, mg)
-    m, lt, ms, bc = _along_many(c, xs, (mags, lts, masses, bcs))   # (5, n) each; m grows with log g
-    nk = len(loggs)
+    nk, nn = xs.shape
+    n = c.size
+    # one bracket search per sequence: segment j and fraction t; the magnitude of every sequence
+    jj = np.empty((nk, n), dtype=np.intp)
+    tt = np.empty((nk, n))
+    m = np.empty((nk, n))
+    for q in range(nk):
+        x = xs[q]
+        j = np.clip(np.searchsorted(x, c, side="right") - 1, 0, nn - 2)
+        x0 = x[j]
+        t = (c - x0) / (x[j + 1] - x0)
+        t[(c < x[0]) | (c > x[-1]) | np.isnan(c)] = np.nan
+        jj[q], tt[q] = j, t
+        y0 = mags[q][j]
+        m[q] = y0 + t * (mags[q][j + 1] - y0)        # grows with log g
     # bracket: k = number of sequences brighter than the star, minus 1, clipped to the end pairs
     k = np.clip(np.sum(m <= mg, axis=0) - 1, 0, nk - 2)
-    rows = np.arange(c.size)
+    rows = np.arange(n)
     m_lo, m_hi = m[k, rows], m[k + 1, rows]
     with np.errstate(divide="ignore", invalid="ignore"):
         w = (mg - m_lo) / (m_hi - m_lo)
     logg = loggs[k] + w * (loggs[k + 1] - loggs[k])
     out = {"logg": logg}
-    for name, v in (("logt", lt), ("mass", ms), ("bc", bc)):
-        lo, hi = v[k, rows], v[k + 1, rows]
+    # the other quantities only on the two bracketing sequences, by flat gathers
+    b_lo = k * nn + jj[k, rows]
+    b_hi = (k + 1) * nn + jj[k + 1, rows]
+    t_lo, t_hi = tt[k, rows], tt[k + 1, rows]
+    for name, tab in (("logt", lts), ("mass", masses), ("bc", bcs)):
+        flat = tab.reshape(-1)
+        y0 = flat[b_lo]
+        lo = y0 + t_lo * (flat[b_lo + 1] - y0)
+        y0 = flat[b_hi]
+        hi = y0 + t_hi * (flat[b_hi + 1] - y0)
         out[name] = lo + w * (hi - lo)
     ok = np.isfinite(logg) & (logg >= LOGG_EXTRAPOLATE[0]) & (logg <= LOGG_EXTRAPOLATE[1])
     res = {key: np.where(ok, val, np.nan) for key, val in out.items()}

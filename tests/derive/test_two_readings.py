@@ -1,6 +1,7 @@
 """Rows whose photometry fits the white-dwarf reading and another one: both carried, probabilities mixed."""
 
 import numpy as np
+import pytest
 from astropy.table import Table
 
 import hrstage
@@ -73,3 +74,33 @@ def test_precise_parallax_single_reading():
     assert not pos.flags[0] & F.TWO_READINGS
     assert "other_reading" not in pos.extra
     assert "white dwarf" in pos.source[0]
+
+
+def test_just_brighter_than_the_edge_keeps_the_white_dwarf_share():
+    # invented blue star (BP-RP)0 = -0.3 (DR2), 0.3 mag brighter than the white-dwarf edge, with a
+    # 15 % parallax (sigma_M = 0.33 mag): read as a hot subdwarf, the white-dwarf reading (at the edge)
+    # keeps Phi(-0.3/0.33) = 18 % (common practice: the normal distribution)
+    c = -0.3
+    m = float(montreal_wd.sequence_mag(c, 6.5)) - 0.3
+    pos = from_gaia(m + 5.0, c, 10.0, parallax_err=1.5, gaia_release="dr2")
+    assert "hot subdwarf" in pos.source[0]
+    assert pos.flags[0] & F.TWO_READINGS
+    other = pos.extra["other_reading"]
+    assert list(other["rows"]) == [0]
+    assert 0.1 < other["p"][0] < 0.3
+    assert np.isfinite(other["logt"][0]) and other["logl"][0] < pos.logl[0]
+    # a precise parallax: one reading only
+    pos = from_gaia(m + 5.0, c, 10.0, parallax_err=0.05, gaia_release="dr2")
+    assert not pos.flags[0] & F.TWO_READINGS and "other_reading" not in pos.extra
+
+
+def test_fainter_than_the_grid_is_still_a_white_dwarf():
+    # invented star 1 mag fainter than the log g 9.5 extrapolation of the grid at (BP-RP)0 = 0.3:
+    # white-dwarf reading at that faint edge, flagged as extrapolated; L from its own magnitude
+    c = 0.3
+    m = float(montreal_wd.sequence_mag(c, 9.5)) + 1.0
+    pos = from_gaia(m + 5.0, c, 10.0, gaia_release="dr2")
+    assert "white dwarf" in pos.source[0] and pos.flags[0] & F.OUTSIDE_VALIDITY
+    edge = from_gaia(m + 5.0 - 1.0 + 1e-6, c, 10.0, gaia_release="dr2")
+    assert pos.teff[0] == pytest.approx(edge.teff[0], rel=1e-4)
+    assert pos.logl[0] == pytest.approx(edge.logl[0] - 0.4, abs=1e-4)
