@@ -196,10 +196,9 @@ def cmd_plot(args) -> int:
     check_output_path(args.output, overwrite=args.overwrite, inputs=[args.input])
     table = _tagged_table(args)
     feh = args.feh if args.feh is not None else 0.0
-    if args.color_by == "stage":
-        ax = hr_diagram(feh=feh, title=args.title or Path(args.input).name, **_plot_arrays(table))
-    else:
-        ax = hr_diagram(table, feh=feh, color_by=args.color_by, title=args.title or Path(args.input).name)
+    errors = {"bars": True, "ellipse": "ellipse"}.get(args.errors, False)
+    ax = hr_diagram(table, feh=feh, color_by=args.color_by, error_bars=errors,
+                    title=args.title or Path(args.input).name, **_plot_arrays(table))
     write_figure(ax, args.output, overwrite=args.overwrite)
     _say(args, f"HR diagram of {len(table)} stars written to {args.output}")
     _say(args, CAUTION_LINE)
@@ -354,7 +353,7 @@ def _settings_of(table, extra: dict) -> dict:
 
 
 def _figure_and_report(table, *, title: str, figure_path, report_path, settings: dict, feh: float,
-                       overwrite: bool):
+                       overwrite: bool, catalogue=None):
     """Draw the HR diagram of a tagged table, write it to ``figure_path`` (if given) and the HTML
     report (the same figure embedded) to ``report_path`` (if given)."""
     from ..plot import hr_diagram, write_figure
@@ -364,7 +363,8 @@ def _figure_and_report(table, *, title: str, figure_path, report_path, settings:
     if figure_path is not None:
         write_figure(ax, figure_path, overwrite=overwrite)
     if report_path is not None:
-        write_report(table, report_path, title=title, settings=settings, overwrite=overwrite, figure=ax)
+        write_report(table, report_path, title=title, settings=settings, overwrite=overwrite, figure=ax,
+                     catalogue=catalogue)
 
 
 def _title_of(path) -> str:
@@ -442,7 +442,8 @@ def cmd_demo(args) -> int:
     title = "hrstage demo: Kestrel Deep Field target list (invented)" if own else f"hrstage demo: {src.name}"
     settings = {"catalogue": src.name, "draws": args.draws, "seed": args.seed, "columns": summary["mapping"]}
     _figure_and_report(tagged, title=title, figure_path=targets["figure"], report_path=targets["report"],
-                       settings=settings, feh=0.0, overwrite=args.overwrite)
+                       settings=settings, feh=0.0, overwrite=args.overwrite,
+                       catalogue=targets["table"])
     print(f"demo catalogue: {src.name}" + (" (an invented target list; no real stars)" if own else ""))
     for line in _summary_lines(summary)[:-1]:
         print(line)
@@ -498,7 +499,13 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("input", help=INPUT_HELP)
     pl.add_argument("-o", "--output", required=True, help="figure file (.png, .pdf, .svg)")
     pl.add_argument("--overwrite", action="store_true", help="replace the figure if it exists")
-    pl.add_argument("--color-by", default="stage", help="column that sets the colours (default stage)")
+    pl.add_argument("--color-by", default="stage", metavar="stage|teff|COLUMN",
+                    help="fill colour of the points: 'stage' (default), 'teff' (the colour of a blackbody "
+                         "at the star's Teff) or the name of any numeric column (colour scale with a "
+                         "colour bar); the marker always shows the stage")
+    pl.add_argument("--errors", choices=["bars", "ellipse"], default=None,
+                    help="draw the 1-sigma uncertainties: error bars in log Teff and log L, or ellipses "
+                         "that follow their correlation (default: none)")
     pl.add_argument("--title", default=None, help="title of the figure (default: the input's file name)")
     pl.add_argument("-q", "--quiet", action="store_true", help=QUIET_HELP)
     _add_column_options(pl)

@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import numpy as np
 from matplotlib.patches import Polygon
-from matplotlib.path import Path as MplPath
 
 from .. import flags as F
 from ..errors import HrstageInputError, HrstageWarning
@@ -29,7 +28,8 @@ from .colour import blackbody_colour
 from .labels import place_labels
 from .palette import FLAG_MARKS, get_palette
 
-__all__ = ["hr_diagram", "kiel_diagram", "colour_magnitude_diagram", "DEFAULT_RADII", "DEFAULT_CURVES", "CURVE_SHORT"]
+__all__ = ["hr_diagram", "kiel_diagram", "colour_magnitude_diagram", "DEFAULT_RADII", "DEFAULT_CURVES", "CURVE_SHORT",
+           "CBM_MARKED_STAGES"]
 
 LOGT_SUN = np.log10(5772.0)  # IAU 2015 B3 nominal solar Teff
 #: Radii (R_sun) of the default constant-radius lines.
@@ -71,6 +71,10 @@ CURVE_SHORT = {
     "wd_min": "WD edge (1.35 M$_\\odot$)",
     "wd_max": "WD edge (0.2 M$_\\odot$)",
 }
+
+#: Stages on which the "cool but massive" flag is marked on the figures and listed in the report:
+#: there it contradicts the label; on a giant or brighter label it adds nothing.
+CBM_MARKED_STAGES = tuple(s for s in ("main_sequence", "subgiant") if s in STAGES)
 
 FLAG_GROUPS = {
     "cool_but_massive": F.COOL_BUT_MASSIVE,
@@ -122,117 +126,11 @@ def _limits(values, default, margin, hard):
     return (hi, lo) if default[0] > default[1] else (lo, hi)
 
 
-def _to_axes_frac(ax, xy):
-    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
-    xy = np.asarray(xy, dtype=float)
-    return np.column_stack([(xy[:, 0] - x0) / (x1 - x0), (xy[:, 1] - y0) / (y1 - y0)])
-
-
-def _from_axes_frac(ax, uv):
-    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
-    return np.column_stack([x0 + uv[:, 0] * (x1 - x0), y0 + uv[:, 1] * (y1 - y0)])
-
-
 def _darker(colour, factor=0.55):
     from matplotlib.colors import to_rgb
 
     r, g, b = to_rgb(colour)
     return (r * factor, g * factor, b * factor)
-
-
-def _segment_distance(p, a, b):
-    """Distance from points p (n, 2) to segments a->b (m, 2): returns (n,) minimum."""
-    ab = b - a
-    denom = np.einsum("ij,ij->i", ab, ab)
-    denom = np.where(denom > 0, denom, 1.0)
-    ap = p[:, None, :] - a[None, :, :]
-    t = np.clip(np.einsum("nmj,mj->nm", ap, ab) / denom[None, :], 0.0, 1.0)
-    closest = a[None, :, :] + t[..., None] * ab[None, :, :]
-    return np.sqrt(((p[:, None, :] - closest) ** 2).sum(axis=2)).min(axis=1)
-
-
-def _interior_point(ax, polygons, n_grid=70, blocked=None, half_size=(0.0, 0.0)):
-    """A point well inside the union of ``polygons`` (data coords) and inside the view.
-
-    Grid search in axes-fraction space for the point farthest from the polygon edges and the
-    axes frame. Returns (x, y, clearance) in data / axes-fraction units, or None.
-    """
-    u = (np.arange(n_grid) + 0.5) / n_grid
-    grid = np.array(np.meshgrid(u, u)).reshape(2, -1).T
-    best = None
-    for poly in polygons:
-        poly = np.asarray(poly, dtype=float)
-        poly = poly[np.all(np.isfinite(poly), axis=1)]
-        if len(poly) < 3:
-            continue
-        frac = _to_axes_frac(ax, poly)
-        inside = MplPath(frac).contains_points(grid)
-        if len(frac) > 400:  # distances only: a decimated outline is accurate enough
-            frac = frac[:: int(np.ceil(len(frac) / 400))]
-        if not inside.any():
-            continue
-        if blocked is not None and len(blocked):
-            px, py = half_size[0] + 0.01, half_size[1] + 0.01
-            hit = (
-                (grid[:, None, 0] > blocked[None, :, 0] - px) & (grid[:, None, 0] < blocked[None, :, 2] + px)
-                & (grid[:, None, 1] > blocked[None, :, 1] - py) & (grid[:, None, 1] < blocked[None, :, 3] + py)
-            ).any(axis=1)
-            inside &= ~hit
-            if not inside.any():
-                continue
-        p = grid[inside]
-        edges_a, edges_b = frac, np.roll(frac, -1, axis=0)
-        d = _segment_distance(p, edges_a, edges_b)
-        d = np.minimum(d, np.minimum(np.minimum(p[:, 0], 1 - p[:, 0]), np.minimum(p[:, 1], 1 - p[:, 1])))
-        k = int(np.argmax(d))
-        if best is None or d[k] > best[2]:
-            best = (p[k, 0], p[k, 1], d[k])
-    if best is None:
-        return None
-    xy = _from_axes_frac(ax, np.array([[best[0], best[1]]]))[0]
-    return xy[0], xy[1], best[2]
-
-
-def _along_line_label(ax, x, y, text, *, prefer=0.5, avoid=(), gid=None, **kw):
-    """Put ``text`` on the curve (x, y) inside the view, rotated along it; returns the Text or None."""
-    x = np.asarray(x, dtype=float)
-    y = np.asarray(y, dtype=float)
-    ok = np.isfinite(x) & np.isfinite(y)
-    if ok.sum() < 2:
-        return None
-    xy = np.column_stack([x[ok], y[ok]])
-    frac = _to_axes_frac(ax, xy)
-    vis = np.all((frac > 0.04) & (frac < 0.96), axis=1)
-    if vis.sum() < 2:
-        return None
-    idx = np.flatnonzero(vis)
-    # position along the visible part (arc length in axes fraction)
-    seg = np.r_[0.0, np.cumsum(np.hypot(*np.diff(frac[idx], axis=0).T))]
-    if seg[-1] <= 0.04:
-        return None
-    s = seg / seg[-1]
-    cost = np.abs(s - prefer)
-    for other in avoid:
-        dist = np.hypot(frac[idx, 0] - other[0], frac[idx, 1] - other[1])
-        cost = cost + 0.6 * np.clip(0.12 - dist, 0, None) / 0.12 * 2.0
-    j = int(np.argmin(cost))
-    k = idx[j]
-    k0, k1 = max(idx[max(j - 1, 0)], 0), idx[min(j + 1, len(idx) - 1)]
-    dx, dy = xy[k1, 0] - xy[k0, 0], xy[k1, 1] - xy[k0, 1]
-    # direction that reads left-to-right on screen
-    sx = np.sign(ax.get_xlim()[1] - ax.get_xlim()[0])
-    sy = np.sign(ax.get_ylim()[1] - ax.get_ylim()[0])
-    if sx * dx < 0 or (dx == 0 and sy * dy < 0):
-        dx, dy = -dx, -dy
-    angle = np.degrees(np.arctan2(dy, dx))
-    t = ax.text(
-        xy[k, 0], xy[k, 1], text, rotation=angle, transform_rotates_text=True, rotation_mode="anchor",
-        ha="center", va="center", zorder=4, **kw,
-    )
-    if gid:
-        t.set_gid(gid)
-    t._hrstage_frac = (frac[k, 0], frac[k, 1])
-    return t
 
 
 def _marker_size(n):
@@ -282,39 +180,104 @@ def _stage_or_locate(stars, sm, x, y):
     return names
 
 
-def _draw_points(ax, x, y, stage, teff_colours, pal, color_by, size, rasterize):
-    """Scatter the stars by stage (one collection per stage present); returns legend handles."""
+def _draw_points(ax, x, y, stage, teff_colours, pal, color_by, size, rasterize, values=None, norm=None,
+                 cmap=None):
+    """Scatter the stars by stage (one collection per stage present); returns legend handles.
+
+    The legend counts every row of a stage, with or without a position, so it agrees with the
+    catalogue's summary; rows that cannot be drawn are counted in the entry ("n without a
+    position, not drawn"). With ``values`` (colour by a numeric column) the points are filled
+    from ``cmap``/``norm`` and the legend swatches are neutral: the marker tells the stage.
+    """
+    from matplotlib.lines import Line2D
+
     handles = []
     ok = np.isfinite(x) & np.isfinite(y)
     if stage is None:
         stage = np.full(x.size, "unclassified", dtype=object)
     stage = np.where(stage == "", "unclassified", stage)
+    neutral = color_by != "stage"
     for name in STAGES:
-        m = ok & (stage == name)
-        count = int(m.sum())
-        if count == 0:
+        rows = stage == name
+        total = int(rows.sum())
+        if total == 0:
             continue
+        m = ok & rows
+        count = int(m.sum())
         style = pal[name]
-        colour_kw = {"c": teff_colours[m]} if color_by == "teff" else {"color": style.colour}
-        coll = ax.scatter(
-            x[m], y[m], s=size * (1.6 if style.marker == "*" else 1.0), marker=style.marker,
-            edgecolors=pal.edge, linewidths=0.4, zorder=3, label=f"{style.label} ({count})",
-            rasterized=rasterize, **colour_kw,
-        )
-        coll.set_gid(f"stars:{name}" if color_by == "stage" else f"stars:teff:{name}")
-        if color_by == "teff":
-            # legend swatch in a neutral colour so the marker (the stage) is what it explains
-            from matplotlib.lines import Line2D
-
-            h = Line2D([], [], ls="", marker=style.marker, markerfacecolor="#d9d9d9", markeredgecolor=pal.edge,
-                       markersize=6, label=f"{style.label} ({count})")
+        label = f"{style.label} ({total})" if count == total else f"{style.label} ({total}; {total - count} not drawn)"
+        if count:
+            if values is not None:
+                colour_kw = {"c": values[m], "cmap": cmap, "norm": norm, "plotnonfinite": True}
+            elif color_by == "teff":
+                colour_kw = {"c": teff_colours[m]}
+            else:
+                colour_kw = {"color": style.colour}
+            coll = ax.scatter(
+                x[m], y[m], s=size * (1.6 if style.marker == "*" else 1.0), marker=style.marker,
+                edgecolors=pal.edge, linewidths=0.4, zorder=3, label=label,
+                rasterized=rasterize, **colour_kw,
+            )
+            coll.set_gid(f"stars:{name}" if color_by == "stage" else f"stars:{color_by}:{name}")
+        if neutral or not count:
+            # a neutral swatch (the marker is what it explains), or a stage with no drawable row
+            face = "#d9d9d9" if neutral else style.colour
+            h = Line2D([], [], ls="", marker=style.marker, markerfacecolor=face, markeredgecolor=pal.edge,
+                       markersize=6, label=label)
             handles.append(h)
         else:
             handles.append(coll)
     return handles
 
 
-def _draw_flags(ax, x, y, stars, mark_flagged, size):
+def _colour_values(data, color_by, n):
+    """Numbers of the column ``color_by`` for colouring the points, with a one-line error."""
+    from ._data import _colnames, _find
+
+    name = _find(data, (color_by,)) if data is not None else None
+    if name is None:
+        numeric = []
+        for c in _colnames(data):
+            try:
+                if np.issubdtype(np.asarray(np.ma.getdata(data[c])).dtype, np.number):
+                    numeric.append(c)
+            except Exception:  # a column we cannot read as an array is simply not offered
+                pass
+        hint = f"; numeric columns: {', '.join(numeric[:12])}{' ...' if len(numeric) > 12 else ''}" if numeric else ""
+        raise HrstageInputError(
+            f"colour by {color_by!r}: no such column (use 'stage', 'teff' or the name of a numeric column{hint})")
+    raw = np.asarray(np.ma.getdata(data[name]))
+    if raw.dtype.kind not in "biuf":
+        raise HrstageInputError(f"colour by {color_by!r}: column {name!r} holds {'text' if raw.dtype.kind in 'USO' else raw.dtype}, not numbers; "
+                                "colour by a column of numbers")
+    values = np.atleast_1d(column(data, (name,)))
+    if values.size != n:
+        raise HrstageInputError(f"colour by {color_by!r}: column has {values.size} values for {n} stars")
+    unit = getattr(data[name], "unit", None)
+    return name, values, (f"{name} ({unit})" if unit not in (None, "") else name)
+
+
+def _colour_scale(ax, values, label, own):
+    """Norm, colour map (NaN in grey) and colour bar for a numeric colour column."""
+    from matplotlib import colormaps
+    from matplotlib.cm import ScalarMappable
+    from matplotlib.colors import Normalize
+
+    finite = values[np.isfinite(values)]
+    lo, hi = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 1.0)
+    if hi <= lo:
+        lo, hi = lo - 0.5, hi + 0.5
+    norm = Normalize(lo, hi)
+    cmap = colormaps["viridis"].with_extremes(bad="#bdbdbd")
+    mappable = ScalarMappable(norm=norm, cmap=cmap)
+    cb = ax.figure.colorbar(mappable, ax=ax, location="right", pad=0.02, fraction=0.04, aspect=35, shrink=0.85)
+    n_bad = int((~np.isfinite(values)).sum())
+    cb.set_label(label + (f"; grey: no value ({n_bad})" if n_bad else ""))
+    cb.ax.set_gid("hrstage:colour_bar")
+    return norm, cmap
+
+
+def _draw_flags(ax, x, y, stars, mark_flagged, size, stage=None):
     if mark_flagged is False or mark_flagged is None:
         return []
     groups = list(FLAG_GROUPS) if mark_flagged is True else list(mark_flagged)
@@ -327,9 +290,15 @@ def _draw_flags(ax, x, y, stars, mark_flagged, size):
         m = ok & ((stars.flags & FLAG_GROUPS[g]) != 0)
         if g == "sptype_conflict" and stars.verdict is not None:
             m |= ok & np.isin(stars.verdict, ("lumclass_conflict", "tclass_conflict"))
+        marker, edge, lw, text = FLAG_MARKS[g]
+        if g == "cool_but_massive":
+            # on a star labelled giant or brighter the flag only repeats the label: mark it
+            # where the label says main sequence or subgiant (and when no label is known)
+            if stage is not None:
+                m &= np.isin(stage, CBM_MARKED_STAGES) | (stage == "")
+            text = f"{text}, labelled {' or '.join(LABELS[s].lower() for s in CBM_MARKED_STAGES)}"
         if not m.any():
             continue
-        marker, edge, lw, text = FLAG_MARKS[g]
         coll = ax.scatter(x[m], y[m], s=size * 3.2, marker=marker, facecolors="none", edgecolors=edge,
                           linewidths=lw, zorder=3.5, label=f"{text} ({int(m.sum())})")
         coll.set_gid(f"flagged:{g}")
@@ -372,10 +341,15 @@ def _draw_errors(ax, x, y, ex, ey, corr, mode):
 
 
 def _legend(ax, handles, own_figure):
+    for old in list(ax.figure.legends) + ([ax.get_legend()] if ax.get_legend() is not None else []):
+        if old.get_gid() == "hrstage:legend":
+            old.remove()
     if not handles:
         return None
     if own_figure:
-        leg = ax.figure.legend(handles=handles, loc="outside lower center", ncols=min(3, len(handles)),
+        longest = max(len(h.get_label()) for h in handles)
+        leg = ax.figure.legend(handles=handles, loc="outside lower center",
+                               ncols=min(3 if longest < 34 else 2, len(handles)),
                                fontsize="small", frameon=False)
     else:
         leg = ax.legend(handles=handles, loc="best", fontsize="small", framealpha=0.85)
@@ -445,9 +419,11 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
         Metallicity of the stage map drawn; ``"median"`` takes the median ``feh_used`` of the table.
     stage_map : hrstage.stagemap.StageMap, optional
         Use this stage map instead of building one for ``feh``.
-    color_by : {"stage", "teff"}
-        Face colour of the points: the stage colour of ``palette``, or the blackbody display colour
-        of the star's Teff (:func:`hrstage.plot.blackbody_colour`); the marker always shows the stage.
+    color_by : str
+        Face colour of the points: ``"stage"`` (the stage colour of ``palette``), ``"teff"`` (the
+        blackbody display colour of the star's Teff, :func:`hrstage.plot.blackbody_colour`) or the
+        name of any numeric column of ``data`` (a colour scale with a colour bar; stars without a
+        value in grey). The marker always shows the stage.
     palette : {"default", "colourblind"} or Palette
     show_regions : bool
         Draw the filled stage regions of the stage map, each with its name.
@@ -462,7 +438,8 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
         ``True``: 1-sigma error bars in log Teff and log L; ``"ellipse"``: 1-sigma error ellipses
         using ``logt_logl_corr``.
     mark_flagged : bool or sequence of str
-        Ring the flagged stars: groups ``"cool_but_massive"``, ``"sptype_conflict"``,
+        Ring the flagged stars: groups ``"cool_but_massive"`` (only on stars labelled
+        main sequence or subgiant, where the flag contradicts the label), ``"sptype_conflict"``,
         ``"poor_distance"`` (``True`` = all three).
     label_column : str, optional
         Column with the text of star labels (e.g. an identifier).
@@ -489,12 +466,15 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
     -------
     matplotlib.axes.Axes
     """
-    if color_by not in ("stage", "teff"):
-        raise HrstageInputError(f"color_by must be 'stage' or 'teff', not {color_by!r}")
+    if not isinstance(color_by, str) or not color_by:
+        raise HrstageInputError(f"color_by must be 'stage', 'teff' or a column name, not {color_by!r}")
     pal = get_palette(palette)
     stars = gather(data, teff=teff, logt=logt, lum=lum, logl=logl, stage=stage, flags=flags,
                    logt_err=logt_err, logl_err=logl_err, corr=corr, need="logl")
     x, y = stars.logt, stars.logl
+    colour_values = None
+    if color_by not in ("stage", "teff"):
+        cname, colour_values, clabel = _colour_values(data, color_by, stars.n)
     ax, own = _setup_axes(ax, figsize)
     need_map = show_regions or show_curves or stars.stage is None
     sm = _get_stage_map(stage_map, feh, data) if need_map else None
@@ -507,19 +487,23 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
     ax.tick_params(which="both", direction="in")
     ax.tick_params(which="both", right=right_axis is None, top=top_axis is None)
 
-    if radius_lines:
-        _draw_radius_lines(ax, radius_lines)
+    named = []
     if sm is not None and show_curves:
-        _draw_curves(ax, sm, pal, show_curves)
-    if sm is not None and show_regions:
-        _draw_regions(ax, sm, pal)  # after the line labels, so the region names avoid them
+        named += _draw_curves(ax, sm, pal, show_curves)
+    if radius_lines:
+        named += _draw_radius_lines(ax, radius_lines)
+    regions = _draw_regions(ax, sm, pal) if sm is not None and show_regions else []
 
     size = marker_size if marker_size is not None else _marker_size(int(np.isfinite(x).sum()))
     _draw_errors(ax, x, y, stars.logt_err, stars.logl_err, stars.corr, error_bars)
     st = _stage_or_locate(stars, sm, x, y)
     teff_colours = blackbody_colour(np.where(np.isfinite(x), 10.0**np.nan_to_num(x, nan=3.76), np.nan)) if color_by == "teff" else None
-    handles = _draw_points(ax, x, y, st, teff_colours, pal, color_by, size, rasterize=stars.n > 5000)
-    handles += _draw_flags(ax, x, y, stars, mark_flagged, size)
+    norm = cmap = None
+    if colour_values is not None:
+        norm, cmap = _colour_scale(ax, colour_values, clabel, own)
+    handles = _draw_points(ax, x, y, st, teff_colours, pal, color_by, size, rasterize=stars.n > 5000,
+                           values=colour_values, norm=norm, cmap=cmap)
+    handles += _draw_flags(ax, x, y, stars, mark_flagged, size, stage=st)
 
     if top_axis == "sptype":
         add_sptype_axis(ax)
@@ -529,38 +513,47 @@ def hr_diagram(data=None, *, teff=None, logt=None, lum=None, logl=None, stage=No
         add_magnitude_axis(ax, right_axis, mv_teff=mv_teff)
     if title:
         ax.set_title(title)
-    if legend:
-        _legend(ax, handles, own)
-    if caption:
-        n_missing = int((~stars.has_position).sum())
-        _caption(ax, _caption_text(_feh_of(sm, feh) if sm is not None else None, n_missing))
+    _finish(ax, own, handles, named, regions, x, y, size, pal, legend,
+            _caption_text(_feh_of(sm, feh) if sm is not None else None, int((~stars.has_position).sum()))
+            if caption else None)
     _label_targets(ax, data, stars.n, x, y, label_column, label_rows, labels)
     return ax
 
 
-def _text_frac_boxes(ax, texts=None):
-    """Boxes (axes fraction) of the given texts (default: all texts already on ``ax``)."""
-    from .labels import renderer_of
+def _finish(ax, own, handles, named, regions, x, y, size, pal, legend, caption_text):
+    """Legend, caption, then the names of curves and regions on the settled layout.
 
-    renderer = renderer_of(ax.figure)
-    inv = ax.transAxes.inverted()
-    out = []
-    for t in ax.texts if texts is None else texts:
-        bb = t.get_window_extent(renderer)
-        (u0, v0), (u1, v1) = inv.transform([(bb.x0, bb.y0), (bb.x1, bb.y1)])
-        out.append((min(u0, u1), min(v0, v1), max(u0, u1), max(v0, v1)))
-    return np.array(out, dtype=float).reshape(-1, 4)
+    A curve whose name finds no free place is put in the legend instead, and the names are
+    placed once more on the layout with that legend (which may have grown).
+    """
+    ok = np.isfinite(x) & np.isfinite(y)
+    pts = np.column_stack([x[ok], y[ok]])
+    if legend:
+        _legend(ax, handles, own)
+    if caption_text is not None:
+        _caption(ax, caption_text)
+    unnamed, placed = _place_names(ax, named, regions, pts, size, pal)
+    if unnamed and legend:
+        for t in placed:
+            t.remove()
+        _legend(ax, handles + [_line_handle(line) for line in unnamed], own)
+        still, _ = _place_names(ax, named, regions, pts, size, pal)
+        extra = [line for line in still if line not in unnamed]
+        if extra:  # rare: the grown legend took a name's place; name those in the legend too
+            _legend(ax, handles + [_line_handle(line) for line in unnamed + extra], own)
 
 
 def _draw_regions(ax, sm, pal):
+    """Fill the stage regions; returns [(stage, polygons, style)] for naming them later."""
     regions = getattr(sm, "regions", {}) or {}
-    blocked = _text_frac_boxes(ax)
+    out = []
     for name, polys in regions.items():
         if name not in pal.styles:
             continue
         style = pal[name]
         if isinstance(polys, np.ndarray) and polys.ndim == 2:
             polys = [polys]
+        kept = []
         for k, poly in enumerate(polys):
             poly = np.asarray(poly, dtype=float)
             poly = poly[np.all(np.isfinite(poly), axis=1)]
@@ -570,18 +563,10 @@ def _draw_regions(ax, sm, pal):
                             alpha=pal.region_alpha, zorder=0.5, label=style.label if k == 0 else None)
             patch.set_gid(f"region:{name}")
             ax.add_artist(patch)  # as add_patch, without the (slow, unneeded) data-limit update
-        t = ax.text(0.5, 0.5, style.label, ha="center", va="center", fontsize="small", fontstyle="italic",
-                    color=_darker(style.colour), alpha=0.9, zorder=1, transform=ax.transAxes)
-        box = _text_frac_boxes(ax, [t])[0]
-        half = ((box[2] - box[0]) / 2, (box[3] - box[1]) / 2)
-        spot = _interior_point(ax, polys, blocked=blocked, half_size=half)
-        if spot is None or spot[2] <= 0.015:
-            t.remove()
-            continue
-        t.set_transform(ax.transData)
-        t.set_position((spot[0], spot[1]))
-        t.set_gid(f"region_label:{name}")
-        blocked = np.vstack([blocked, _text_frac_boxes(ax, [t])])
+            kept.append(poly)
+        if kept:
+            out.append((name, kept, style, None))
+    return out
 
 
 def _select_curves(sm, show_curves):
@@ -600,21 +585,24 @@ def _select_curves(sm, show_curves):
     return [(n, curves[n]) for n in names]
 
 
-def _draw_curves(ax, sm, pal, show_curves=True):
-    placed = []
+def _curve_text_kw(pal):
+    return dict(fontsize="x-small", color=pal.curve,
+                bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.75))
+
+
+def _draw_curves(ax, sm, pal, show_curves=True, logg=False):
+    """Draw the stage-map curves; returns the lines to be named: [(line, text, gid, kw, prefer)]."""
+    out = []
     for name, curve in _select_curves(sm, show_curves):
+        yv = _curve_logg(curve) if logg else curve.logl
+        if yv is None:
+            continue
         style = _CURVE_STYLE.get(name, dict(lw=0.8, ls="-"))
         label = getattr(curve, "label", None) or name
-        (line,) = ax.plot(curve.logt, curve.logl, color=pal.curve, zorder=2.5, label=label, **style)
+        (line,) = ax.plot(curve.logt, yv, color=pal.curve, zorder=2.5, label=label, **style)
         line.set_gid(f"curve:{name}")
-        t = _along_line_label(
-            ax, curve.logt, curve.logl, CURVE_SHORT.get(name, label), prefer=0.5, avoid=placed,
-            gid=f"curve_label:{name}",
-            fontsize="x-small", color=pal.curve,
-            bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.75),
-        )
-        if t is not None:
-            placed.append(t._hrstage_frac)
+        out.append((line, CURVE_SHORT.get(name, label), f"curve_label:{name}", _curve_text_kw(pal), 0.5))
+    return out
 
 
 def _radius_text(r):
@@ -622,17 +610,89 @@ def _radius_text(r):
 
 
 def _draw_radius_lines(ax, radii):
+    """Dashed constant-radius lines; returns the lines to be named (as :func:`_draw_curves`)."""
     lo, hi = sorted(ax.get_xlim())
     lt = np.linspace(lo - 0.1, hi + 0.1, 200)
+    out = []
     for r in radii:
         r = float(r)
         if not r > 0:
             raise HrstageInputError(f"radius_lines must be positive radii in R_sun, got {r}")
         ll = 2 * np.log10(r) + 4 * (lt - LOGT_SUN)
-        (line,) = ax.plot(lt, ll, color="0.62", lw=0.7, ls=(0, (4, 3)), zorder=0.8)
+        (line,) = ax.plot(lt, ll, color="0.62", lw=0.7, ls=(0, (4, 3)), zorder=0.8, label=_radius_text(r))
         line.set_gid(f"radius:{r:g}")
-        _along_line_label(ax, lt, ll, _radius_text(r), prefer=0.93, gid=f"radius_label:{r:g}",
-                          fontsize="x-small", color="0.45")
+        out.append((line, _radius_text(r), f"radius_label:{r:g}", dict(fontsize="x-small", color="0.45"), 0.9))
+    return out
+
+
+def _place_names(ax, lines, regions, point_xy, size, pal):
+    """Name curves and regions where the names cover no data, no other line and no other text.
+
+    Runs on the settled layout. ``lines`` as returned by :func:`_draw_curves` /
+    :func:`_draw_radius_lines`, ``regions`` as by :func:`_draw_regions`; ``point_xy`` the drawn
+    positions. Returns the lines that could not be named (the caller puts them in the legend)
+    and the texts placed.
+    """
+    from ._placement import Clutter, text_size_px
+
+    ax.figure.draw_without_rendering()
+    cl = Clutter(ax)
+    radius_px = 0.5 * np.sqrt(size) * ax.figure.dpi / 72.0 + 1.0
+    if point_xy is not None and len(point_xy):
+        cl.add_points(point_xy[:, 0], point_xy[:, 1], radius_px)
+    for line, *_ in lines:
+        cl.add_line(line.get_gid(), line.get_xdata(), line.get_ydata(), width_px=line.get_linewidth() + 2.0)
+    for t in ax.texts:  # caption and anything the caller drew before
+        if t.get_visible() and t.get_text():
+            cl.add_artist_extent(t)
+    leg = ax.get_legend()
+    if leg is not None:
+        cl.add_artist_extent(leg)
+    unnamed, placed = [], []
+    for line, text, gid, kw, prefer in lines:  # stage-map curves first, then radius lines
+        w, h = text_size_px(ax, text, **{k: v for k, v in kw.items() if k != "bbox"})
+        pad = 3.0 if "bbox" in kw else 1.0
+        spot = cl.along_line(line.get_gid(), line.get_xdata(), line.get_ydata(), w + 2 * pad, h + 2 * pad,
+                             prefer=prefer)
+        if spot is None:
+            unnamed.append(line)
+            continue
+        t = ax.text(spot[0], spot[1], text, rotation=spot[2], rotation_mode="anchor", ha="center", va="center",
+                    zorder=4, **kw)
+        t.set_gid(gid)
+        placed.append(t)
+        from ._placement import rotated_corners
+
+        cx, cy = ax.transData.transform((spot[0], spot[1]))
+        cl.add_text_box(rotated_corners(cx, cy, w + 2 * pad, h + 2 * pad, spot[2]))
+    for name, polys, style, accept in regions:
+        for fontsize in ("small", "x-small"):  # a smaller name where the full size finds no room
+            kw = dict(fontsize=fontsize, fontstyle="italic", color=_darker(style.colour), alpha=0.9)
+            w, h = text_size_px(ax, style.label, **kw)
+            spot = cl.inside_polygons(polys, w + 2, h + 2, accept=accept)
+            if spot is not None:
+                break
+        if spot is None:
+            continue
+        t = ax.text(spot[0], spot[1], style.label, ha="center", va="center", zorder=1, **kw)
+        t.set_gid(f"region_label:{name}")
+        placed.append(t)
+        cx, cy = ax.transData.transform(spot)
+        cl.add_text_box(rotated_corners(cx, cy, w + 2, h + 2, 0.0))
+    return unnamed, placed
+
+
+def _line_handle(line):
+    from matplotlib.lines import Line2D
+
+    gid = line.get_gid() or ""
+    name = gid.split(":", 1)[1] if ":" in gid else gid
+    text = CURVE_SHORT.get(name, line.get_label()) if gid.startswith("curve:") else line.get_label()
+    handle = Line2D([], [])
+    handle.update_from(line)  # colour, width and dash pattern
+    handle.set_label(text)
+    handle.set_gid(f"legend_line:{name}")
+    return handle
 
 
 # ----------------------------------------------------------------------------------------------
@@ -664,7 +724,10 @@ def _kiel_regions(ax, sm, pal, feh, n=170):
     codes[~np.isfinite(ll.reshape(lt.shape))] = STAGES.index("unclassified")
     from matplotlib.colors import to_rgba
 
+    import contourpy
+
     rgba = np.zeros(lt.shape + (4,))
+    regions = []
     for i, name in enumerate(STAGES):
         if name == "unclassified":
             continue
@@ -672,18 +735,23 @@ def _kiel_regions(ax, sm, pal, feh, n=170):
         if not m.any():
             continue
         rgba[m] = to_rgba(pal[name].colour, pal.region_alpha)
-        dist = ndimage.distance_transform_edt(np.pad(m, 1))[1:-1, 1:-1]
-        k = np.unravel_index(np.argmax(dist), m.shape)
-        if dist[k] > 0.03 * n:
-            t = ax.text(gx[k[1]], gy[k[0]], LABELS[name], ha="center", va="center", fontsize="small",
-                        fontstyle="italic", color=_darker(pal[name].colour), alpha=0.9, zorder=1)
-            t.set_gid(f"region_label:{name}")
+        # outlines of the region's pixels, named like the HR regions (on the settled layout)
+        outlines = contourpy.contour_generator(gx, gy, np.pad(m, 0).astype(float)).lines(0.5)
+        outlines = [np.asarray(o) for o in outlines if len(o) >= 4]
+
+        def accept(xy, m=m):
+            ix = np.clip(np.rint((xy[:, 0] - x0) / (x1 - x0) * (n - 1)).astype(int), 0, n - 1)
+            iy = np.clip(np.rint((xy[:, 1] - y0) / (y1 - y0) * (n - 1)).astype(int), 0, n - 1)
+            return m[iy, ix]
+
+        if outlines:
+            regions.append((name, outlines, pal[name], accept))
     im = ax.imshow(rgba, extent=(x0, x1, y0, y1), origin="lower", aspect="auto", interpolation="nearest",
                    zorder=0.4)
     im.set_gid("regions:raster")
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
-    return im
+    return regions
 
 
 def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flags=None, ax=None, feh=0.0,
@@ -731,40 +799,27 @@ def kiel_diagram(data=None, *, teff=None, logt=None, logg=None, stage=None, flag
     ax.tick_params(which="both", direction="in", right=True, top=top_axis is None)
     feh_value = _feh_of(sm, feh) if sm is not None else None
     note = ""
+    regions = []
     if sm is not None and show_regions:
-        if _kiel_regions(ax, sm, pal, feh_value if feh_value is not None else 0.0) is None:
+        regions = _kiel_regions(ax, sm, pal, feh_value if feh_value is not None else 0.0)
+        if regions is None:
+            regions = []
             note = "regions not shaded: hrstage.classifier.logl_from_logg unavailable"
-    if sm is not None and show_curves:
-        placed = []
-        for name, curve in _select_curves(sm, show_curves):
-            cg = _curve_logg(curve)
-            if cg is None:
-                continue
-            style = _CURVE_STYLE.get(name, dict(lw=0.8, ls="-"))
-            label = getattr(curve, "label", None) or name
-            (line,) = ax.plot(curve.logt, cg, color=pal.curve, zorder=2.5, label=label, **style)
-            line.set_gid(f"curve:{name}")
-            t = _along_line_label(ax, curve.logt, cg, CURVE_SHORT.get(name, label), avoid=placed, gid=f"curve_label:{name}",
-                                  fontsize="x-small", color=pal.curve,
-                                  bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.75))
-            if t is not None:
-                placed.append(t._hrstage_frac)
+    named = _draw_curves(ax, sm, pal, show_curves, logg=True) if sm is not None and show_curves else []
     st = stars.stage
     if st is None and sm is not None and stars.logl is not None:
         st = _stage_or_locate(stars, sm, x, stars.logl)
     size = marker_size if marker_size is not None else _marker_size(int(np.isfinite(x).sum()))
     teff_colours = blackbody_colour(np.where(np.isfinite(x), 10.0**np.nan_to_num(x, nan=3.76), np.nan)) if color_by == "teff" else None
     handles = _draw_points(ax, x, g, st, teff_colours, pal, color_by, size, rasterize=stars.n > 5000)
-    handles += _draw_flags(ax, x, g, stars, mark_flagged, size)
+    handles += _draw_flags(ax, x, g, stars, mark_flagged, size, stage=st)
     if top_axis == "sptype":
         add_sptype_axis(ax)
     if title:
         ax.set_title(title)
-    if legend:
-        _legend(ax, handles, own)
-    if caption:
-        n_missing = int((~(np.isfinite(x) & np.isfinite(g))).sum())
-        _caption(ax, _caption_text(feh_value, n_missing, note))
+    n_missing = int((~(np.isfinite(x) & np.isfinite(g))).sum())
+    _finish(ax, own, handles, named, regions, x, g, size, pal, legend,
+            _caption_text(feh_value, n_missing, note) if caption else None)
     _label_targets(ax, data, stars.n, x, g, label_column, label_rows, labels)
     return ax
 
@@ -878,7 +933,7 @@ def colour_magnitude_diagram(data=None, *, colour=None, absmag=None, parallax=No
     ax.tick_params(which="both", direction="in", right=True, top=True)
     size = marker_size if marker_size is not None else _marker_size(int(np.isfinite(c).sum()))
     handles = _draw_points(ax, c, m, st, None, pal, "stage", size, rasterize=c.size > 5000)
-    handles += _draw_flags(ax, c, m, s, mark_flagged, size)
+    handles += _draw_flags(ax, c, m, s, mark_flagged, size, stage=st)
     if title:
         ax.set_title(title)
     if legend:

@@ -140,12 +140,24 @@ _COLOURBLIND = {
 OKABE_ITO = ("#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7")
 
 
+# Styles for a stage of hrstage.stages that has no colour of its own above yet (a stage added
+# later still gets a distinct colour, marker and label instead of breaking every figure).
+_RESERVE_COLOURS = ("#8c6d31", "#d6616b", "#3b7dd8", "#2f9e55", "#a05195")
+_RESERVE_MARKERS = ("d", "<", ">", "8", "H", "P")
+
+
 def _build(name, colours, notes=""):
-    return Palette(
-        name=name,
-        styles={s: StageStyle(colours[s], _MARKERS[s], LABELS[s]) for s in STAGES},
-        notes=notes,
-    )
+    extra = [s for s in STAGES if s not in colours or s not in _MARKERS]
+    styles = {}
+    for s in STAGES:
+        if s in extra:
+            markers = [m for m in _RESERVE_MARKERS if m not in _MARKERS.values()] or list(_RESERVE_MARKERS)
+            k = extra.index(s)
+            styles[s] = StageStyle(_RESERVE_COLOURS[k % len(_RESERVE_COLOURS)], markers[k % len(markers)],
+                                   LABELS.get(s, s.replace("_", " ").capitalize()))
+        else:
+            styles[s] = StageStyle(colours[s], _MARKERS[s], LABELS.get(s, s.replace("_", " ").capitalize()))
+    return Palette(name=name, styles=styles, notes=notes)
 
 
 PALETTES = MappingProxyType(
@@ -161,7 +173,7 @@ PALETTES = MappingProxyType(
 #: Drawn as open symbols around the point, so they never hide its stage colour.
 FLAG_MARKS = MappingProxyType(
     {
-        "cool_but_massive": ("o", "#d7191c", 1.4, "cool but massive"),
+        "cool_but_massive": ("o", "#d7191c", 0.7, "cool but massive"),
         "sptype_conflict": ("s", "#1a1a1a", 1.1, "MK type in conflict"),
         "poor_distance": ("D", "#7f7f7f", 0.9, "poor parallax"),
     }

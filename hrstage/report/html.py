@@ -25,10 +25,10 @@ from .. import flags as F
 from ..errors import HrstageInputError
 from ..stages import LABELS, STAGES
 
-__all__ = ["render_report", "write_report", "DEFAULT_MAX_ROWS", "INFORMATIONAL_BITS"]
+__all__ = ["render_report", "write_report", "verdict_words", "DEFAULT_MAX_ROWS", "INFORMATIONAL_BITS", "VERDICT_WORDS"]
 
 #: Rows shown per star table before the "N more" line.
-DEFAULT_MAX_ROWS = 200
+DEFAULT_MAX_ROWS = 50
 
 #: Flag bits that describe an assumption made for (nearly) every star rather than a problem;
 #: they are counted in the flag summary but do not put a star in the flagged-stars table.
@@ -36,11 +36,6 @@ INFORMATIONAL_BITS = F.NO_METALLICITY | F.NO_EXTINCTION
 
 _ID_CANDIDATES = ("id", "name", "star", "star_id", "source_id", "designation", "objid", "hip", "kic", "tic")
 _SPTYPE_CANDIDATES = ("sptype", "sp_type", "spt", "spectral_type", "mk_type", "spectype")
-def _is_conflict(verdict):
-    """Every conflict verdict of hrstage.sptype ends in '_conflict' (lumclass, tclass, both, stage)."""
-    return np.array([str(v).endswith("_conflict") for v in verdict], dtype=bool)
-
-
 _FLAG_NAMES = {
     getattr(F, n): n for n in dir(F) if n.isupper() and isinstance(getattr(F, n), int) and getattr(F, n) in F.DESCRIPTIONS
 }
@@ -58,7 +53,8 @@ th{background:#f0f0f0}td.num{text-align:right;font-variant-numeric:tabular-nums}
 tr.total td{font-weight:bold;background:#fafafa}
 .swatch{display:inline-block;width:.9em;height:.9em;border:1px solid #333;margin-right:.4em;vertical-align:-.1em}
 .more{color:#555;font-style:italic}
-figure{margin:1em 0}figure img,figure svg{max-width:100%;height:auto;border:1px solid #ddd}
+figure{margin:1em 0}figure img,figure svg{width:100%;height:auto;border:1px solid #ddd}
+h3{font-size:1.05em;margin:1.2em 0 .2em}
 figcaption{color:#444;font-size:.9em;margin-top:.3em}
 code{font-family:ui-monospace,Menlo,Consolas,monospace;font-size:.95em}
 footer{margin-top:2em;color:#777;font-size:.85em}
@@ -157,10 +153,308 @@ def _table(headers, rows, *, table_id, num_cols=(), total=None, caption=None):
     return "\n".join(out)
 
 
-def _more_line(n_more, what):
+def _more_line(n_more, what, catalogue=None, prefix=""):
     if n_more <= 0:
         return ""
-    return f'<p class="more">{n_more} more {esc(what)} not shown (all of them are in the tagged catalogue).</p>'
+    where = (f'all of them are in <a href="{esc(catalogue)}"><code>{esc(Path(str(catalogue)).name)}</code></a>'
+             if catalogue else "all of them are in the tagged catalogue")
+    return (f'<p class="more">{n_more} more {esc(what)} not shown ({where}: rows with '
+            f"<code>{esc(prefix)}flags</code> &ne; 0, reasons in <code>{esc(prefix)}flag_text</code>).</p>")
+
+
+def _catalogue_pointer(catalogue, prefix=""):
+    if not catalogue:
+        return ""
+    return (f'<p>The full list is in the tagged catalogue <a href="{esc(catalogue)}"><code>'
+            f"{esc(Path(str(catalogue)).name)}</code></a> (every row with <code>{esc(prefix)}flags</code> &ne; 0; "
+            f"reasons in <code>{esc(prefix)}flag_text</code>).</p>")
+
+
+def _stage_label(name) -> str:
+    """Readable name of a stage (any stage of :mod:`hrstage.stages`, also ones added later)."""
+    return LABELS.get(name, str(name).replace("_", " ").capitalize())
+
+
+#: Verdicts of :mod:`hrstage.sptype.check` in words (any other verdict is spelled out from its name).
+VERDICT_WORDS = {
+    "consistent": "Consistent with the HR position",
+    "lumclass_conflict": "Luminosity class disagrees with the HR position",
+    "tclass_conflict": "Temperature type disagrees with the measured Teff",
+    "tclass_and_lumclass_conflict": "Temperature type and luminosity class both disagree",
+    "stage_conflict": "The type excludes the HR stage",
+    "not_checkable": "Not checkable",
+    "not_checkable:no_type": "Not checkable: no type given",
+    "not_checkable:unparsed": "Not checkable: type not understood",
+    "not_checkable:no_hr_position": "Not checkable: no HR position",
+    "not_checkable:no_calibration": "Not checkable: no calibration for this kind of type",
+    "not_checkable:no_lumclass": "Not checkable: no luminosity class given",
+    "not_checkable:outside_calibration": "Not checkable: outside the calibration",
+    "not_checkable:stage_undecided": "Not checkable: the stage check is undecided",
+    "": "No verdict",
+}
+
+
+def verdict_words(verdict) -> str:
+    """A verdict code of the MK check as a phrase (``lumclass_conflict`` -> "Luminosity class ...")."""
+    v = str(verdict)
+    if v in VERDICT_WORDS:
+        return VERDICT_WORDS[v]
+    head, _, why = v.partition(":")
+    text = head.replace("_", " ").capitalize()
+    return f"{text}: {why.replace('_', ' ')}" if why else text
+
+
+def _is_conflict(verdict):
+    """Every conflict verdict of hrstage.sptype ends in '_conflict' (lumclass, tclass, both, stage)."""
+    return np.char.endswith(np.asarray(verdict, dtype=str), "_conflict")
+
+
+def _main_class(lumclass: str) -> str:
+    """The calibrated class a catalogued class is checked as: 'IIIb' -> 'III', 'III-IV' -> 'III'."""
+    import re
+
+    first = str(lumclass).split("-")[0].split("/")[0]
+    if first in ("Ia", "Iab", "Ib"):
+        return first
+    if first in ("Ia0", "Ia+", "0", "I"):
+        return "Ia" if first != "I" else "Iab"
+    return re.sub(r"(ab|a|b)$", "", first) if first not in ("Iab",) else first
+
+
+def _classes_of(lumclass: str) -> set:
+    """Every calibrated class a catalogued class (or class range) covers."""
+    order = ["Ia", "Iab", "Ib", "II", "III", "IV", "V"]
+    parts = [_main_class(p) for p in str(lumclass).split("-") if p]
+    idx = [order.index(p) for p in parts if p in order]
+    if not idx:
+        return set()
+    return set(order[min(idx):max(idx) + 1])
+
+
+def _mk_columns(table, sptype_column):
+    """What the report says about catalogued MK types, or None without an MK check."""
+    if "sptype_verdict" not in table.colnames:
+        return None
+    n = len(table)
+    verdict = _text_column(table, "sptype_verdict")
+    spc = _find(table, _SPTYPE_CANDIDATES, sptype_column, "sptype_column", role="sptype")
+    raw = _text_column(table, spc) if spc else (
+        _text_column(table, "sptype_parsed") if "sptype_parsed" in table.colnames else np.full(n, "", dtype=object))
+    parsed = _text_column(table, "sptype_parsed") if "sptype_parsed" in table.colnames else raw
+    sugg = _text_column(table, "sptype_suggested") if "sptype_suggested" in table.colnames else np.full(n, "", dtype=object)
+    why = _text_column(table, "sptype_reason") if "sptype_reason" in table.colnames else np.full(n, "", dtype=object)
+    nsig = _float_column(table, "sptype_nsigma")
+    if nsig is None:
+        nsig = np.full(n, np.nan)
+    teff = _float_column(table, "teff_used")
+    logl = _float_column(table, "logl_used")
+    logt_err = _float_column(table, "logt_err")
+    logl_err = _float_column(table, "logl_err")
+    conflict = _is_conflict(verdict)
+    # a suggestion is news only when it is not the catalogued class (G9IIIb -> "III" is not)
+    sugg = sugg.copy()
+    cls = np.full(n, "", dtype=object)
+    for i in np.flatnonzero((sugg != "") | conflict):
+        from ..sptype import parse
+
+        p = parse(parsed[i] or raw[i])
+        cls[i] = p.lumclass if p.ok else ""
+        if sugg[i] and cls[i] and _main_class(sugg[i]) in _classes_of(cls[i]):
+            sugg[i] = ""
+    return dict(verdict=verdict, raw=raw, parsed=parsed, suggested=sugg, reason=why, nsigma=nsig, conflict=conflict,
+                teff=teff, logl=logl, logt_err=logt_err, logl_err=logl_err, lumclass=cls)
+
+
+def _mk_reason(mk, i) -> str:
+    """Why a catalogued type conflicts: what the type implies against what was measured (HTML)."""
+    from ..sptype import parse
+    from ..sptype.calibration import calibration
+
+    typ = mk["raw"][i] or mk["parsed"][i]
+    p = parse(mk["parsed"][i] or mk["raw"][i])
+    implied = ""
+    if p.ok and np.isfinite(p.numeric):
+        cal = calibration()
+        main = _main_class(p.lumclass) if p.lumclass else "V"
+        if main in cal.classes:
+            t_imp = float(cal.teff(np.array([p.numeric]), main)[0])
+            l_imp = float(cal.logl(np.array([p.numeric]), main)[0])
+            if np.isfinite(t_imp):
+                implied = f"Teff &asymp; {t_imp:.0f} K"
+                if np.isfinite(l_imp):
+                    implied += f", log L/L<sub>&#9737;</sub> &asymp; {l_imp:.2f}"
+                implied += f" (class {esc(main)}{'' if p.lumclass else ', none given: dwarf assumed'})"
+    measured = ""
+    t, ll = (mk["teff"][i] if mk["teff"] is not None else np.nan), (mk["logl"][i] if mk["logl"] is not None else np.nan)
+    if np.isfinite(t):
+        measured = f"Teff {t:.0f} K"
+        et = mk["logt_err"][i] if mk["logt_err"] is not None else np.nan
+        if np.isfinite(et) and et > 0:
+            measured += f" &plusmn; {t * np.log(10) * et:.0f}"
+    if np.isfinite(ll):
+        el = mk["logl_err"][i] if mk["logl_err"] is not None else np.nan
+        measured += (", " if measured else "") + f"log L/L<sub>&#9737;</sub> {ll:.2f}"
+        if np.isfinite(el) and el > 0:
+            measured += f" &plusmn; {el:.2f}"
+    bits = [f"Catalogued <code>{esc(typ)}</code>" + (f" implies {implied}" if implied else "")]
+    if mk["reason"][i] and (not implied or mk["verdict"][i] == "stage_conflict"):
+        bits.append(esc(mk["reason"][i]))  # types with no Teff/L calibration: the check's own words
+    if measured:
+        bits.append(f"measured {measured}")
+    if np.isfinite(mk["nsigma"][i]):
+        bits.append(f"{mk['nsigma'][i]:.1f}&sigma; apart")
+    text = "; ".join(bits) + "."
+    if mk["suggested"][i]:
+        text += f" The position fits class {esc(mk['suggested'][i])} better."
+    return text
+
+
+def _flag_groups(flags, stage, prob, mk, notable):
+    """Flagged rows by severity: [(key, title, explanation, rows)], each row in its first group.
+
+    Within a group the rows are sorted: MK conflicts by the size of the disagreement, the others
+    by increasing stage probability (least certain first), then by row.
+    """
+    from ..plot.hrd import CBM_MARKED_STAGES
+
+    n = flags.size
+    p = np.full(n, np.nan) if prob is None else prob
+    left = notable.copy()
+    out = []
+    conflict = ((flags & F.SPTYPE_CONFLICT) != 0) | (mk["conflict"] if mk is not None else False)
+    cbm = ((flags & F.COOL_BUT_MASSIVE) != 0) & np.isin(stage, CBM_MARKED_STAGES)
+    low = (flags & F.LOW_PROBABILITY) != 0
+    cbm_words = " or ".join(_stage_label(s).lower() for s in CBM_MARKED_STAGES)
+    spec = [
+        ("mk", "Catalogued MK type in conflict", conflict,
+         "The catalogued spectral type disagrees with the HR position: the type, the parallax, extinction or "
+         "binarity may be at fault."),
+        ("cool-massive", f"Cool but massive, labelled {cbm_words}", cbm,
+         "Too luminous or too massive for a main-sequence star of its Teff, yet labelled "
+         f"{cbm_words}: the label itself is in doubt (a giant, or a poor luminosity?)."),
+        ("low-probability", "Uncertain label", low,
+         "The most likely stage has a probability below 0.6: the star lies within its errors of other stages."),
+        ("other", "Other flags", np.ones(n, dtype=bool),
+         "Flags that qualify the label rather than contradict it (near a boundary, possible binary, "
+         "extrapolated relations, poor parallax, ...)."),
+    ]
+    for key, title, mask, explain in spec:
+        rows = np.flatnonzero(left & mask)
+        left &= ~mask
+        if key == "mk" and mk is not None:
+            order = np.lexsort((rows, -np.nan_to_num(mk["nsigma"][rows], nan=-1.0)))
+        else:
+            order = np.lexsort((rows, np.nan_to_num(p[rows], nan=2.0)))
+        out.append((key, title, explain, rows[order]))
+    return out
+
+
+def _cautions(count, n_unc):
+    """The cautions that apply (only the counts above zero), the general one first."""
+    out = [
+        "<strong>Stage labels are indicative.</strong> They come from each star's position on the HR "
+        "diagram relative to boundaries drawn from analytic stellar relations (Tout et al. 1996; "
+        "Hurley, Pols &amp; Tout 2000) and <strong>do not replace a spectroscopic analysis</strong>."
+    ]
+
+    def stars(k):
+        return f"{k} star{'s' if k != 1 else ''}"
+
+    def join(items):
+        items = [t for t in items if t]
+        return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
+
+    low, nonpos = count(F.LOW_PARALLAX_SNR), count(F.NONPOSITIVE_PARALLAX)
+    if low or nonpos:
+        out.append("Poor parallaxes: " + join([
+            f"{stars(low)} with a parallax signal-to-noise below the threshold (LOW_PARALLAX_SNR)" if low else "",
+            f"{stars(nonpos)} with a zero or negative parallax (NONPOSITIVE_PARALLAX)" if nonpos else ""])
+            + ". Their luminosities, and so their stages, are unreliable.")
+    extrap = [(F.OUTSIDE_VALIDITY, "outside the validity range of the stellar relations (OUTSIDE_VALIDITY)"),
+              (F.COLOUR_OUT_OF_RANGE, "with a colour outside the colour&ndash;Teff calibration (COLOUR_OUT_OF_RANGE)"),
+              (F.BC_FALLBACK, "with a fallback bolometric correction (BC_FALLBACK)"),
+              (F.METALLICITY_CLIPPED, "with their metallicity clipped to the fits' range (METALLICITY_CLIPPED)")]
+    items = [f"{stars(count(b))} {t}" for b, t in extrap if count(b)]
+    if items:
+        out.append("Extrapolated relations: " + join(items) + ".")
+    nofeh, noext = count(F.NO_METALLICITY), count(F.NO_EXTINCTION)
+    if nofeh or noext:
+        out.append("Assumptions: " + join([
+            f"{stars(nofeh)} without [Fe/H] placed against the solar-metallicity boundaries" if nofeh else "",
+            f"{stars(noext)} with no extinction applied" if noext else ""]) + ".")
+    lowp, near = count(F.LOW_PROBABILITY), count(F.NEAR_BOUNDARY)
+    items = [f"{stars(lowp)} with a best-stage probability below 0.6" if lowp else "",
+             f"{stars(near)} within their errors of a boundary" if near else "",
+             f"{stars(n_unc)} that could not be classified" if n_unc else ""]
+    if any(items):
+        out.append("Uncertain labels: " + join(items) + ".")
+    young = count(F.YOUNG_OR_EVOLVED) if hasattr(F, "YOUNG_OR_EVOLVED") else 0
+    if young:
+        out.append(f"Young or evolved: {stars(young)} lie where young (pre-main-sequence) and evolved stars "
+                   "share the HR diagram (YOUNG_OR_EVOLVED); their label follows the assumed share of young "
+                   "stars (a field population unless the run said otherwise) and both probabilities are given.")
+    return out
+
+
+def _settings_from_meta(table):
+    """The options recorded by the engine in the table meta (``hrstage_options``, JSON), if any."""
+    import json
+
+    raw = getattr(table, "meta", {}).get("hrstage_options")
+    if not raw:
+        return None
+    try:
+        opts = json.loads(raw) if isinstance(raw, str) else dict(raw)
+    except (ValueError, TypeError):
+        return {"hrstage_options": raw}
+    return opts if isinstance(opts, dict) else {"hrstage_options": raw}
+
+
+def _param_notes():
+    """First sentence of each parameter's description in the StageParams docstring."""
+    import re
+
+    from ..stagemap import StageParams
+
+    notes, current = {}, None
+    for line in (StageParams.__doc__ or "").splitlines():
+        m = re.match(r"^    (\w+(?:, \w+)*) : (.*)$", line)
+        if m:
+            current = [k.strip() for k in m.group(1).split(",")]
+            continue
+        if current and line.startswith("        ") and line.strip():
+            for k in current:
+                notes[k] = (notes.get(k, "") + " " + line.strip()).strip()
+        elif not line.strip():
+            current = None
+    return {k: (v.split(". ")[0].rstrip(".") + ".") for k, v in notes.items()}
+
+
+def _stage_params_html(stage_map, feh, table):
+    """Table of the stage-map tolerances the labels and the figure were decided with."""
+    from dataclasses import fields
+
+    sm = stage_map
+    if sm is None:
+        try:
+            from ..stagemap import stage_map as build
+
+            if isinstance(feh, str):
+                values = _float_column(table, "feh_used")
+                feh = float(np.nanmedian(values)) if values is not None and np.isfinite(values).any() else 0.0
+            sm = build(feh=float(feh))
+        except Exception as exc:  # a figure-less report of a table we cannot map still renders
+            return f'<p class="more">Stage-map tolerances not available: {esc(exc)}</p>'
+    params = getattr(sm, "params", None)
+    if params is None:
+        return ""
+    notes = _param_notes()
+    rows = [[f"<code>{esc(f.name)}</code>", esc(getattr(params, f.name)), esc(notes.get(f.name, ""))]
+            for f in fields(params)]
+    head = (f"<h3>Stage-map tolerances</h3><p>The boundaries at [Fe/H] = {float(getattr(sm, 'feh', 0.0)):+.2f} "
+            "were drawn with these parameters (<code>hrstage.stagemap.StageParams</code>; reasons in "
+            "the stage-map documentation).</p>")
+    return head + _table(["Parameter", "Value", "Meaning"], rows, table_id="stage-params")
 
 
 def _versions():
@@ -237,7 +531,7 @@ def _branch_section(table, n):
 
 def render_report(table, *, title="hrstage stage report", settings=None, stage_map=None, feh=0.0,
                   id_column=None, sptype_column=None, max_rows=DEFAULT_MAX_ROWS, figure=None,
-                  figure_format="png", generated_at=None) -> str:
+                  figure_format="png", generated_at=None, catalogue=None) -> str:
     """Render the HTML report of a tagged catalogue and return it as a string.
 
     Parameters
@@ -258,7 +552,8 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
         ``id``, ``name``, ``star``, ``source_id``, ... and of ``sptype``, ``sp_type``, ``spt``, ...;
         the row number is always shown as well).
     max_rows : int
-        Rows shown per star table before a "N more ... not shown" line (default 200).
+        Rows shown per star table (each severity group of flagged stars, the MK conflicts) before
+        a "N more ... not shown" line (default 50).
     figure : matplotlib Figure or Axes, False or None
         None: draw the HR diagram with :func:`hrstage.plot.hr_diagram`; a Figure/Axes: embed that
         one; False: no figure.
@@ -266,6 +561,9 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
         How the figure is embedded (base64 PNG or inline SVG).
     generated_at : datetime.datetime, optional
         Time stamp to print (default: now, UTC).
+    catalogue : str or pathlib.Path, optional
+        The written tagged catalogue holding every row; the report links to it where a table is
+        cut (:func:`write_report` makes the link relative to the report's folder).
 
     Returns
     -------
@@ -292,6 +590,7 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
     idc = _find(table, _ID_CANDIDATES, id_column, "id_column", role="id")
     ids = _text_column(table, idc) if idc else np.array([""] * n, dtype=object)
     flag_text = _text_column(table, "flag_text") if "flag_text" in table.colnames else None
+    prefix = ""
     when = generated_at or _dt.datetime.now(_dt.timezone.utc)
     when_s = when.strftime("%Y-%m-%d %H:%M:%S %Z").strip()
 
@@ -307,41 +606,23 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
         return int(((flags & bits) != 0).sum())
 
     n_unc = int(((stage == "unclassified") | (stage == "")).sum())
-    cautions = [
-        "<strong>Stage labels are indicative.</strong> They come from each star's position on the HR "
-        "diagram relative to boundaries drawn from analytic stellar relations (Tout et al. 1996; "
-        "Hurley, Pols &amp; Tout 2000) and <strong>do not replace a spectroscopic analysis</strong>.",
-        f"Poor parallaxes: {count(F.LOW_PARALLAX_SNR)} star(s) have a parallax signal-to-noise below the "
-        f"threshold (LOW_PARALLAX_SNR) and {count(F.NONPOSITIVE_PARALLAX)} a zero or negative parallax "
-        "(NONPOSITIVE_PARALLAX); their luminosities, and so their stages, are unreliable.",
-        f"Extrapolated relations: {count(F.OUTSIDE_VALIDITY)} star(s) lie outside the validity range of the "
-        f"stellar relations (OUTSIDE_VALIDITY), {count(F.COLOUR_OUT_OF_RANGE)} have a colour outside the "
-        f"colour&ndash;Teff calibration (COLOUR_OUT_OF_RANGE), {count(F.BC_FALLBACK)} needed a fallback "
-        f"bolometric correction (BC_FALLBACK) and {count(F.METALLICITY_CLIPPED)} had their metallicity "
-        "clipped (METALLICITY_CLIPPED).",
-        f"Assumptions: {count(F.NO_METALLICITY)} star(s) without [Fe/H] were placed against the solar-"
-        f"metallicity boundaries; {count(F.NO_EXTINCTION)} had no extinction applied.",
-        f"Uncertain labels: {count(F.LOW_PROBABILITY)} star(s) have a best-stage probability below 0.6 "
-        f"and {count(F.NEAR_BOUNDARY)} lie within their errors of a boundary; {n_unc} could not be classified.",
-        f"Young or evolved: {count(F.YOUNG_OR_EVOLVED)} star(s) lie where young (pre-main-sequence) and "
-        "evolved stars share the HR diagram (YOUNG_OR_EVOLVED); their label follows the assumed share of "
-        "young stars (a field population unless the run said otherwise) and both probabilities are given.",
-    ]
     parts.append('<section id="cautions" class="cautions"><h2>Cautions</h2><ul>'
-                 + "".join(f"<li>{c}</li>" for c in cautions) + "</ul></section>")
+                 + "".join(f"<li>{c}</li>" for c in _cautions(count, n_unc)) + "</ul></section>")
 
     # ---- stars per stage ------------------------------------------------------------------
-    from ..plot.palette import PALETTES
+    from ..plot.palette import get_palette
 
-    pal = PALETTES["default"]
+    pal = get_palette("default")
     rows = []
     for s in STAGES:
         m = stage == s
         k = int(m.sum())
         if k == 0:
             continue
-        med = _fmt(np.nanmedian(prob[m]), 2) if prob is not None and np.isfinite(prob[m]).any() else ""
-        rows.append([f'<span class="swatch" style="background:{pal.colour(s)}"></span>{esc(LABELS[s])}',
+        # a probability of "unclassified" says nothing about a stage: left blank
+        med = (_fmt(np.nanmedian(prob[m]), 2) if prob is not None and s != "unclassified"
+               and np.isfinite(prob[m]).any() else "")
+        rows.append([f'<span class="swatch" style="background:{pal.colour(s)}"></span>{esc(_stage_label(s))}',
                      f"<code>{esc(s)}</code>", str(k), f"{100.0 * k / n:.1f} %", med])
     missing = int((stage == "").sum())
     if missing:
@@ -358,8 +639,8 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
     if fig_html:
         parts.append('<section id="figure"><h2>HR diagram</h2><figure>' + fig_html
                      + "<figcaption>Points are coloured and shaped by stage; shaded areas are the stage regions "
-                     "and black lines the model boundaries drawn for the classification (see the legend). "
-                     "Rings mark flagged stars.</figcaption></figure></section>")
+                     "and black lines the model boundaries drawn for the classification (named on the figure "
+                     "or in the legend). Open symbols mark flagged stars.</figcaption></figure></section>")
 
     # ---- flag summary -----------------------------------------------------------------------
     frows = []
@@ -374,63 +655,79 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
         parts.append("<p>No star carries a flag.</p>")
     parts.append("</section>")
 
-    # ---- flagged stars ----------------------------------------------------------------------
-    notable = np.flatnonzero((flags & ~INFORMATIONAL_BITS) != 0)
+    # ---- MK-type facts used by the flagged-star and conflict tables --------------------------
+    mk = _mk_columns(table, sptype_column)
+
+    # ---- flagged stars, most serious first ---------------------------------------------------
     parts.append('<section id="flagged"><h2>Flagged stars</h2>')
-    if notable.size:
-        parts.append(f"<p>{notable.size} star(s) carry at least one flag other than the assumptions "
-                     "(no [Fe/H], no extinction).</p>")
-        rows = []
-        for i in notable[:max_rows]:
-            reason = flag_text[i] if flag_text is not None and flag_text[i] else F.describe(flags[i] & ~INFORMATIONAL_BITS)
-            names = ", ".join(_FLAG_NAMES.get(b, hex(b)) for b in F.DESCRIPTIONS if flags[i] & b & ~INFORMATIONAL_BITS)
-            rows.append([str(i), esc(ids[i]), esc(stage[i]), _fmt(prob[i]) if prob is not None else "",
-                         f"<code>{esc(names)}</code>", esc(reason)])
-        parts.append(_table(["Row", "Star", "Stage", "P(stage)", "Flags", "Reasons"], rows, table_id="flagged-stars",
-                            num_cols=(0, 3)))
-        parts.append(_more_line(notable.size - min(notable.size, max_rows), "flagged stars"))
+    notable = (flags & ~INFORMATIONAL_BITS) != 0
+    if mk is not None:
+        notable |= mk["conflict"]
+    if notable.any():
+        parts.append(f"<p>{int(notable.sum())} star(s) carry at least one flag other than the assumptions "
+                     "(no [Fe/H], no extinction). They are grouped by how much the flag matters, each star in "
+                     "its most serious group only.</p>")
+        parts.append(_catalogue_pointer(catalogue, prefix))
+        groups = _flag_groups(flags, stage, prob, mk, notable)
+        for key, title_, explain, rows_ in groups:
+            if not rows_.size:
+                continue
+            parts.append(f'<h3 id="group-{key}">{esc(title_)} ({rows_.size})</h3><p class="meta">{explain}</p>')
+            trows = []
+            for i in rows_[:max_rows]:
+                names = ", ".join(_FLAG_NAMES.get(b, hex(b)) for b in F.DESCRIPTIONS if flags[i] & b & ~INFORMATIONAL_BITS)
+                if key == "mk":
+                    reason = _mk_reason(mk, i)
+                else:
+                    reason = (flag_text[i] if flag_text is not None and flag_text[i]
+                              else F.describe(flags[i] & ~INFORMATIONAL_BITS))
+                    reason = esc(reason)
+                trows.append([str(i), esc(ids[i]), esc(_stage_label(stage[i]) if stage[i] else ""),
+                              _fmt(prob[i]) if prob is not None else "", f"<code>{esc(names)}</code>", reason])
+            parts.append(_table(["Row", "Star", "Stage", "P(stage)", "Flags", "Why"], trows,
+                                table_id=f"flagged-{key}", num_cols=(0, 3)))
+            parts.append(_more_line(rows_.size - min(rows_.size, max_rows), f"stars of this group",
+                                    catalogue, prefix))
     else:
         parts.append("<p>No flagged stars.</p>")
     parts.append("</section>")
 
     # ---- spectral types ---------------------------------------------------------------------
-    if "sptype_verdict" in table.colnames:
-        verdict = _text_column(table, "sptype_verdict")
-        spc = _find(table, _SPTYPE_CANDIDATES, sptype_column, "sptype_column", role="sptype")
-        raw = _text_column(table, spc) if spc else None
-        parsed = _text_column(table, "sptype_parsed") if "sptype_parsed" in table.colnames else None
-        sugg = _text_column(table, "sptype_suggested") if "sptype_suggested" in table.colnames else None
-        nsig = _float_column(table, "sptype_nsigma")
+    if mk is not None:
+        verdict = mk["verdict"]
         kinds = {}
         for v in verdict:
             key = v.split(":", 1)[0] if v.startswith("not_checkable") else v
             kinds[key] = kinds.get(key, 0) + 1
         parts.append('<section id="sptype"><h2>Catalogued MK types against the HR position</h2>')
-        parts.append(_table(["Verdict", "Stars"], [[f"<code>{esc(k or '(none)')}</code>", str(v)] for k, v in sorted(kinds.items())],
+        parts.append(_table(["Verdict", "Stars"],
+                            [[esc(verdict_words(k)), str(v)] for k, v in sorted(kinds.items(), key=lambda kv: -kv[1])],
                             table_id="sptype-verdicts", num_cols=(1,)))
-        bad = np.flatnonzero(_is_conflict(verdict))
-        why = _text_column(table, "sptype_reason") if "sptype_reason" in table.colnames else None
+        bad = np.flatnonzero(mk["conflict"])
         if bad.size:
+            bad = bad[np.argsort(-np.nan_to_num(mk["nsigma"][bad], nan=-1.0), kind="stable")]
             rows = []
             for i in bad[:max_rows]:
-                rows.append([str(i), esc(ids[i]), esc(raw[i]) if raw is not None else "",
-                             esc(parsed[i]) if parsed is not None else "", f"<code>{esc(verdict[i])}</code>",
-                             esc(sugg[i]) if sugg is not None else "", _fmt(nsig[i], 1) if nsig is not None else "",
-                             esc(stage[i]), esc(why[i]) if why is not None else ""])
-            parts.append(_table(["Row", "Star", "Catalogued type", "Read as", "Verdict", "Suggested class", "n sigma",
-                                 "HR stage", "Why"], rows, table_id="sptype-conflicts", num_cols=(0, 6)))
-            parts.append(_more_line(bad.size - min(bad.size, max_rows), "spectral-type conflicts"))
+                rows.append([str(i), esc(ids[i]), esc(mk["raw"][i]), esc(verdict_words(verdict[i])),
+                             esc(mk["suggested"][i]), _fmt(mk["nsigma"][i], 1), esc(_stage_label(stage[i])),
+                             _mk_reason(mk, i)])
+            parts.append(_table(["Row", "Star", "Catalogued type", "Verdict", "Suggested class", "n sigma",
+                                 "HR stage", "Why"], rows, table_id="sptype-conflicts", num_cols=(0, 5)))
+            parts.append(_more_line(bad.size - min(bad.size, max_rows), "spectral-type conflicts", catalogue, prefix))
         else:
             parts.append("<p>No catalogued type conflicts with the HR position.</p>")
         parts.append("</section>")
 
     # ---- settings and versions ---------------------------------------------------------------
     parts.append('<section id="settings"><h2>Settings and versions</h2>')
+    if settings is None:
+        settings = _settings_from_meta(table)
     srows = [[f"<code>{esc(k)}</code>", esc(v)] for k, v in (settings or {}).items()]
     if srows:
         parts.append(_table(["Setting", "Value"], srows, table_id="settings-table"))
     else:
         parts.append("<p>No settings recorded.</p>")
+    parts.append(_stage_params_html(stage_map, feh, table))
     parts.append(_table(["Software", "Version"], [[esc(a), esc(b)] for a, b in _versions()], table_id="versions"))
     parts.append("<p>Catalogue columns: " + ", ".join(f"<code>{esc(c)}</code>" for c in table.colnames) + "</p>")
     parts.append("</section>")
@@ -468,7 +765,13 @@ def write_report(table, path, *, title="hrstage stage report", settings=None, st
         raise HrstageInputError(f"{path}: directory {parent} does not exist")
     if path.exists() and not overwrite:
         raise HrstageInputError(f"{path} exists; pass overwrite=True to replace it")
-    text = render_report(table, title=title, settings=settings, stage_map=stage_map, **options)
+    cat = options.pop("catalogue", None)
+    if cat is not None:
+        import os
+
+        # a link that still works when the report and the catalogue are moved together
+        cat = Path(os.path.relpath(Path(cat).resolve(), parent.resolve())).as_posix()
+    text = render_report(table, title=title, settings=settings, stage_map=stage_map, catalogue=cat, **options)
     from ..catalog.atomic import atomic_output
 
     with atomic_output(path, overwrite=overwrite) as tmp:

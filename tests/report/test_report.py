@@ -128,27 +128,96 @@ def test_self_contained(doc):
     assert "@import" not in doc and "url(" not in doc
 
 
-def test_flagged_and_sptype_tables(doc):
+FLAG_GROUP_TABLES = ("flagged-mk", "flagged-cool-massive", "flagged-low-probability", "flagged-other")
+
+
+def _flagged_rows(p):
+    return {key: [int(r[0]) for r in p.tables[key]["tbody"]] for key in FLAG_GROUP_TABLES if key in p.tables}
+
+
+def test_flagged_stars_grouped_by_severity(doc):
     t = synthetic_table()
     p = parse(doc)
     fl = np.asarray(t["flags"])
-    notable = np.flatnonzero((fl & ~INFORMATIONAL_BITS) != 0)
-    rows = p.tables["flagged-stars"]["tbody"]
-    assert [int(r[0]) for r in rows] == list(notable)
-    assert any("LOW_PARALLAX_SNR" in r[4] for r in rows)
+    notable = set(np.flatnonzero((fl & ~INFORMATIONAL_BITS) != 0))
+    groups = _flagged_rows(p)
+    listed = [i for rows in groups.values() for i in rows]
+    assert sorted(listed) == sorted(notable)  # every flagged star once
+    assert groups["flagged-mk"] == [3, 4, 6, 25]  # equal n sigma: row order
+    # cool but massive on a main-sequence label (row 2); row 30 is a white dwarf: "other"
+    assert groups["flagged-cool-massive"] == [2]
+    assert 30 in groups["flagged-other"]
+    assert any("LOW_PARALLAX_SNR" in r[4] for r in p.tables["flagged-other"]["tbody"])
+    headings = re.findall(r'<h3 id="group-([a-z-]+)">', doc)
+    assert headings == ["mk", "cool-massive", "other"]  # most serious first, empty groups left out
+
+
+def test_mk_conflicts_in_words_with_implied_and_measured_values(doc):
+    p = parse(doc)
     conflicts = p.tables["sptype-conflicts"]["tbody"]
     assert [int(r[0]) for r in conflicts] == [3, 4, 6, 25]
-    assert conflicts[1][1] == EVIL and conflicts[0][4] == "lumclass_conflict" and conflicts[0][5] == "V"
+    assert conflicts[1][1] == EVIL
+    assert conflicts[0][3] == "Luminosity class disagrees with the HR position"  # in words, not a code
+    assert "_" not in "".join(r[3] for r in conflicts)
+    assert conflicts[0][4] == "V"  # differs from the catalogued III: shown
+    why = conflicts[0][7]
+    t = synthetic_table()
+    assert "Catalogued K0 III implies Teff \u2248" in why and "(class III)" in why
+    assert f"measured Teff {t['teff_used'][3]:.0f} K" in why and f"{t['logl_used'][3]:.2f}" in why
     verdicts = {r[0]: int(r[1]) for r in p.tables["sptype-verdicts"]["tbody"]}
-    assert verdicts == {"consistent": 34, "lumclass_conflict": 3, "not_checkable": 2, "tclass_conflict": 1}
+    assert verdicts == {"Consistent with the HR position": 34, "Luminosity class disagrees with the HR position": 3,
+                        "Not checkable": 2, "Temperature type disagrees with the measured Teff": 1}
+
+
+def test_mk_implied_values_match_the_published_calibration(calibration_dir):
+    """The Teff and L a catalogued K0 III implies, as the report prints them, against the class-III
+    calibration of Straizys & Kuriliene (1981, Ap&SS 80, 353; spt_calib_III.csv of the shared data)."""
+    from astropy.table import Table as T
+
+    cal = T.read(calibration_dir / "spt_calib_III.csv", format="ascii.csv")
+    row = cal[(cal["spt"] == "K0III") & np.array(["Straizys" in s for s in cal["source"]])][0]
+    p = parse(render_report(synthetic_table(), figure=False, generated_at=WHEN))
+    why = p.tables["sptype-conflicts"]["tbody"][0][7]
+    m = re.search(r"implies Teff \u2248 (\d+) K, log L/L\u2609 \u2248 (-?[\d.]+)", why)
+    assert m, why
+    assert float(m.group(1)) == pytest.approx(float(row["teff_K"]), rel=0.03)
+    assert float(m.group(2)) == pytest.approx(float(row["logL"]), abs=0.15)
+
+
+def test_no_suggestion_when_it_is_the_catalogued_class():
+    t = synthetic_table()
+    t["sptype"] = ["G9IIIb"] * len(t)
+    t["sptype_suggested"] = ["III"] * len(t)  # the class the type already has
+    p = parse(render_report(t, figure=False, generated_at=WHEN))
+    rows = p.tables["sptype-conflicts"]["tbody"]
+    assert rows and all(r[4] == "" for r in rows)
+    assert not any("fits class" in r[7] for r in rows)
 
 
 def test_cautions(doc):
     text = " ".join(parse(doc).text)
     assert "do not replace a spectroscopic analysis" in text
-    assert "3 star(s) have a parallax signal-to-noise below" in text
-    assert "1 star(s) lie outside the validity range" in text
-    assert "2 needed a fallback" in text
+    assert "3 stars with a parallax signal-to-noise below" in text
+    assert "1 star outside the validity range" in text
+    assert "2 stars with a fallback bolometric correction" in text
+    # only what applies: no zero counts, no line about parallaxes that are all fine
+    assert not re.search(r"\b0 stars?\b", text)
+    assert "NONPOSITIVE_PARALLAX" not in text and "COLOUR_OUT_OF_RANGE" not in text
+
+
+def test_no_median_probability_for_unclassified(doc):
+    rows = {r[1]: r for r in parse(doc).tables["stage-counts"]["tbody"]}
+    assert rows["unclassified"][4] == "" and rows["giant"][4] == "0.90"
+
+
+def test_stage_map_tolerances_in_settings(doc):
+    from dataclasses import asdict
+
+    from hrstage.stagemap import StageParams
+
+    rows = {r[0]: r[1] for r in parse(doc).tables["stage-params"]["tbody"]}
+    assert set(rows) == set(asdict(StageParams()))
+    assert rows["binary_offset"] == "0.3"  # log 2 = 0.30 dex: an equal-mass pair (common practice)
 
 
 def test_settings_and_versions(doc):
@@ -160,14 +229,20 @@ def test_settings_and_versions(doc):
     assert "2030-01-02 03:04:05" in doc
 
 
-def test_row_cap():
-    doc = render_report(synthetic_table(), figure=False, max_rows=2, generated_at=WHEN)
+def test_row_cap_and_pointer_to_the_catalogue(tmp_path):
+    t = synthetic_table()
+    cat = tmp_path / "tagged.ecsv"
+    t.write(cat)
+    path = write_report(t, tmp_path / "r.html", figure=False, max_rows=2, generated_at=WHEN, catalogue=cat)
+    doc = path.read_text(encoding="utf-8")
     p = parse(doc)
-    assert len(p.tables["flagged-stars"]["tbody"]) == 2
+    groups = _flagged_rows(p)
+    assert all(len(v) <= 2 for v in groups.values())
     assert len(p.tables["sptype-conflicts"]["tbody"]) == 2
-    n_flagged = int(((np.asarray(synthetic_table()["flags"]) & ~INFORMATIONAL_BITS) != 0).sum())
-    assert f"{n_flagged - 2} more flagged stars not shown" in doc
+    n_other = int((((np.asarray(t["flags"]) & ~INFORMATIONAL_BITS) != 0)).sum()) - 4 - 1
+    assert f"{n_other - 2} more stars of this group not shown" in doc
     assert "2 more spectral-type conflicts not shown" in doc
+    assert '<a href="tagged.ecsv">' in doc  # relative link to the written catalogue
 
 
 def test_missing_optional_columns():
@@ -199,6 +274,7 @@ def report_with_figure(tmp_path_factory):
 
 def test_figure_embedded(report_with_figure):
     doc = report_with_figure.read_text(encoding="utf-8")
+    assert re.search(r"figure img,figure svg\{width:100%", doc)  # the figure at the page's full width
     m = re.search(r'<img id="hr-diagram" src="data:image/png;base64,([A-Za-z0-9+/=]+)"', doc)
     assert m
     import base64
@@ -231,7 +307,7 @@ def test_chromium_screenshot_and_dom(report_with_figure, tmp_path):
     t = synthetic_table()
     n_flagged = int(((np.asarray(t["flags"]) & ~INFORMATIONAL_BITS) != 0).sum())
     assert len(p.tables["stage-counts"]["tbody"]) == len(COUNTS)
-    assert len(p.tables["flagged-stars"]["tbody"]) == n_flagged
+    assert sum(len(p.tables[k]["tbody"]) for k in FLAG_GROUP_TABLES if k in p.tables) == n_flagged
     assert len(p.tables["sptype-conflicts"]["tbody"]) == 4
     assert "script" not in p.tags  # the browser built no script element
     assert EVIL in "".join(p.text)  # the name is rendered as text
@@ -245,7 +321,7 @@ def test_id_and_type_columns_from_the_pipeline_mapping():
     t.rename_column("sptype", "mk_class_text")
     t.meta["hrstage_roles"] = "teff=teff,lum=lum,id=target_code,sptype=mk_class_text"
     p = parse(render_report(t, figure=False, generated_at=WHEN))
-    flagged_ids = [row[1] for row in p.tables["flagged-stars"]["tbody"]]
+    flagged_ids = [row[1] for k in FLAG_GROUP_TABLES if k in p.tables for row in p.tables[k]["tbody"]]
     assert "Synth-01" in flagged_ids
     conflict_rows = p.tables["sptype-conflicts"]["tbody"]
     assert any("K0 III" in cell for row in conflict_rows for cell in row)
