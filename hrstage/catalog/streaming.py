@@ -428,7 +428,9 @@ class ChunkWriter:
                 if self.format == "fits":
                     _write_fits(whole, self._tmp)
                 elif self.format == "ecsv":
-                    whole.write(self._tmp, format="ascii.ecsv", overwrite=True)
+                    from .ecsv import write_ecsv
+
+                    write_ecsv(whole, self._tmp)
                 else:
                     with warnings.catch_warnings():
                         warnings.simplefilter("ignore")

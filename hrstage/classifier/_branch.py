@@ -154,7 +154,15 @@ def _on_logg(logl_row, logt_row, w_row, logm):
 
 @lru_cache(maxsize=32)
 def branch_grids(feh: float = 0.0, max_age_myr: float = 13800.0) -> BranchGrids:
-    """The tabulated hypotheses at ``feh`` (clipped into the fits' Z range), cached."""
+    """The tabulated hypotheses at ``feh`` (clipped into the fits' Z range), cached in memory and
+    in the stage maps' on-disk cache (built once, memory-mapped by later runs: ``stagemap/_store``)."""
+    from ..stagemap import _store
+
+    return _store.cached_record("branchgrids", {"feh": float(feh), "max_age_myr": float(max_age_myr)},
+                                lambda: _build_branch_grids(feh, max_age_myr), BranchGrids)
+
+
+def _build_branch_grids(feh: float, max_age_myr: float) -> BranchGrids:
     z = float(clip_z(z_from_feh(float(feh)))[0])
     c = hpt.coefficients(z)
     m_hef, m_fgb = float(c.m_hef), float(c.m_fgb)
