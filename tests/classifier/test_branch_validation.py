@@ -12,6 +12,7 @@ from astropy.table import Table
 
 import hrstage
 from hrstage.classifier import classify_hr
+from isochrone_files import mist_columns
 
 pytestmark = pytest.mark.validation
 
@@ -92,16 +93,8 @@ def test_apokasc3_gravity_mass(apokasc):
     assert np.all(err > 0) and np.all(np.isfinite(err))
 
 
-def _mist(path):
-    with open(path) as fh:
-        header = [line for line in fh if line.startswith("#") and "EEP" in line and "log_Teff" in line]
-    cols = header[-1][1:].split()
-    d = np.loadtxt(path, comments="#")
-    return {n: d[:, i] for i, n in enumerate(cols)}
-
-
 def test_mist_metal_poor_branches(validation_file):
-    c = _mist(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
+    c = mist_columns(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
     r = classify_hr(c["log_Teff"], c["log_L"], feh=-1.35)
     br = r.branch.branch.astype(str)
     ph, lg, ll = c["phase"], c["log_g"], c["log_L"]

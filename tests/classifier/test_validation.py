@@ -6,33 +6,15 @@ from astropy.table import Table
 
 from hrstage.classifier import classify_hr
 from hrstage.models import stellar
+from isochrone_files import mist_columns, parsec_columns, parsec_split
 
 pytestmark = pytest.mark.validation
 GIANT_CLASS = ("giant", "bright_giant", "supergiant")  # bright giants count as giant-class
 
 
 def _parsec(path):
-    d = np.loadtxt(path)
-    age, mini, _mact, logl, logt, logg, _comp, ph = d.T
-    ph0 = ph == 0
-    # pre-main sequence (labelled 0 in this file): per 0.01-dex mass bin, points younger than the
-    # age at which log g peaks (the contraction onto the ZAMS ends there), by more than 0.02 dex
-    pms = np.zeros(len(d), bool)
-    b = np.round(np.log10(mini) / 0.01).astype(int)
-    for k in np.unique(b[ph0]):
-        s = np.nonzero(ph0 & (b == k))[0]
-        i = s[np.argmax(logg[s])]
-        pms[s] = (age[s] < age[i]) & (logg[s] < logg[i] - 0.02)
-    # post-main-sequence points still labelled 0 (massive stars crossing the gap): along each
-    # isochrone in mass order, everything after log Teff first falls 0.05 dex below its running max
-    post = np.zeros(len(d), bool)
-    for a in np.unique(age):
-        s = np.nonzero((age == a) & ph0 & ~pms)[0]
-        s = s[np.argsort(mini[s])]
-        drop = np.maximum.accumulate(logt[s]) - logt[s]
-        k = np.nonzero(drop > 0.05)[0]
-        if len(k):
-            post[s[k[0]:]] = True
+    age, mini, logl, logt, logg, ph = parsec_columns(path)
+    pms, post = parsec_split(mini, logt, logg, age, ph)
     return age, mini, logl, logt, ph, pms, post
 
 
@@ -50,17 +32,9 @@ def test_parsec_phases(validation_file):
     assert frac_g >= 0.90, frac_g  # design bar; measured 0.988
 
 
-def _mist(path):
-    with open(path) as fh:
-        header = [line for line in fh if line.startswith("#") and "EEP" in line and "log_Teff" in line]
-    cols = header[-1][1:].split()
-    d = np.loadtxt(path, comments="#")
-    return {n: d[:, i] for i, n in enumerate(cols)}
-
-
 def test_mist_metal_poor(validation_file):
     # MIST v1.2, 12 Gyr, [Fe/H] = -1.35 (Choi et al. 2016, ApJ 823, 102; Dotter 2016, ApJS 222, 8)
-    c = _mist(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
+    c = mist_columns(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
     r = classify_hr(c["log_Teff"], c["log_L"], feh=-1.35)
     ph, lg = c["phase"], c["log_g"]
     assert np.mean(r.stage[ph == 0] == "main_sequence") >= 0.95
@@ -84,7 +58,7 @@ def test_mist_metal_poor(validation_file):
 
 def test_mist_phases_2_to_5_giant_share(validation_file):
     # the core-helium-burning band (ZAHB of HPT2000 eq 53) takes the horizontal branch (phase 3)
-    c = _mist(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
+    c = mist_columns(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
     r = classify_hr(c["log_Teff"], c["log_L"], feh=-1.35)
     ph, lg = c["phase"], c["log_g"]
     ev = (ph >= 2) & (ph <= 5)

@@ -15,6 +15,7 @@ from hrstage.classifier import classify_hr
 from hrstage.columns import CLASSIFY_COLUMNS
 from hrstage.stagemap import stage_map
 from hrstage.stages import CODE, STAGES
+from isochrone_files import parsec_columns, parsec_split
 
 GIANT_CLASS = ("giant", "bright_giant", "supergiant")
 
@@ -119,31 +120,10 @@ def test_beyond_plus_half_is_clipped_and_flagged():
 
 
 # ------------------------------------------------------------------------------ real data
-def _parsec(path):
-    d = np.loadtxt(path)
-    age, mini, _mact, logl, logt, logg, _comp, ph = d.T
-    return age, mini, logl, logt, logg, ph
-
-
 def _old_ms_floor(age, mini, logl, logt, logg, ph):
     """Lowest log L of the old (>= 1 Gyr) main-sequence points per 0.01-dex log Teff bin."""
-    ph0 = ph == 0
-    young = np.zeros(len(ph), bool)
-    b = np.round(np.log10(mini) / 0.01).astype(int)
-    for k in np.unique(b[ph0]):  # contraction ends where log g peaks along a mass
-        s = np.nonzero(ph0 & (b == k))[0]
-        i = s[np.argmax(logg[s])]
-        young[s] = (age[s] < age[i]) & (logg[s] < logg[i] - 0.02)
-    # post-main-sequence points still labelled 0 (massive stars crossing the gap): along each
-    # isochrone in mass order, everything after log Teff first falls 0.05 dex below its running max
-    post = np.zeros(len(ph), bool)
-    for a in np.unique(age):
-        s = np.nonzero((age == a) & ph0 & ~young)[0]
-        s = s[np.argsort(mini[s])]
-        k = np.nonzero(np.maximum.accumulate(logt[s]) - logt[s] > 0.05)[0]
-        if len(k):
-            post[s[k[0]:]] = True
-    old = ph0 & ~young & (age >= 9.0)
+    young, post = parsec_split(mini, logt, logg, age, ph)
+    old = (ph == 0) & ~young & (age >= 9.0)
     bins = np.round(logt / 0.01).astype(int)
     floor = {k: logl[old & (bins == k)].min() for k in np.unique(bins[old])}
     return np.array([floor.get(k, np.nan) for k in bins]), young, post
@@ -154,7 +134,7 @@ def test_parsec_pre_main_sequence(validation_file):
     # PARSEC v1.2S Z = 0.014 (Bressan et al. 2012): phase-0 points cooler than 6000 K, younger than a
     # third of the arrival time on the main sequence (~3e7 yr (M/Msun)^-2.5, issue 13) and >= 0.3 dex
     # above the lowest old main-sequence point of their Teff
-    age, mini, logl, logt, logg, ph = _parsec(validation_file("parsec_isoc_z0.0140.dat"))
+    age, mini, logl, logt, logg, ph = parsec_columns(validation_file("parsec_isoc_z0.0140.dat"))
     floor, young, post = _old_ms_floor(age, mini, logl, logt, logg, ph)
     sel = (ph == 0) & (10**logt < 6000) & (10**age < 3e7 * mini**-2.5 / 3) & (logl >= floor + 0.3)
     assert sel.sum() > 2500
@@ -177,7 +157,7 @@ def test_parsec_pre_main_sequence(validation_file):
 def test_populated_cells_are_classified(validation_file):
     # issue 13: 0.01 dex log Teff x 0.05 dex log L cells holding a PARSEC Z = 0.014 point of phases
     # 0-5 with log Teff < 4.7, classified at the cell centre at [Fe/H] = 0 (7.6 % unclassified before)
-    age, mini, logl, logt, logg, ph = _parsec(validation_file("parsec_isoc_z0.0140.dat"))
+    age, mini, logl, logt, logg, ph = parsec_columns(validation_file("parsec_isoc_z0.0140.dat"))
     s = (ph <= 5) & (logt < 4.7)
     cells = np.unique(np.c_[np.floor(logt[s] / 0.01), np.floor(logl[s] / 0.05)].astype(int), axis=0)
     assert len(cells) > 6000

@@ -10,6 +10,12 @@ start of the command (after Python's own start-up) to past its end. Each outcome
   temporary file left; or
 - exit 0 with the complete new output, put in place *before* the signal was sent (its rename time,
   the file's ctime, precedes the signal; a few ms of slack cover the check-then-rename step).
+
+The first offsets are placed after Python's own start-up as measured once in the test; on a loaded
+machine a run can start later than that, and a signal can still reach the interpreter before our
+handler exists. Such an early signal (Python's default KeyboardInterrupt) is accepted only within
+three start-up times of the launch, and only with the previous output intact and no temporary file
+left: what must never happen is an output replaced after the signal.
 """
 
 from __future__ import annotations
@@ -76,6 +82,12 @@ def test_interrupt_at_any_moment(tmp_path):
     for off in offsets:
         code, err, sent = _run_once(src, dst, float(off), env)
         lines = [ln for ln in err.splitlines() if ln.strip()]
+        if code != 130 and off < 3 * start and lines and lines[-1].startswith("KeyboardInterrupt"):
+            # the signal beat the command's own handler (Python start-up ran late on a busy machine)
+            assert dst.read_bytes() == b"previous output, must survive", off
+            assert not [p.name for p in tmp_path.iterdir() if TEMP_MARK in p.name], off
+            outcomes.append("early")
+            continue
         if code == 130:
             assert len(lines) == 1 and "interrupted" in lines[0], (off, err)
             assert dst.read_bytes() == b"previous output, must survive", off
@@ -87,3 +99,4 @@ def test_interrupt_at_any_moment(tmp_path):
             assert len(read_table(dst)) == ROWS
         outcomes.append(code)
     assert outcomes.count(130) >= len(offsets) // 2, outcomes     # most offsets land inside the run
+    assert outcomes.count("early") <= 3, outcomes                  # a late start, not a missing handler
