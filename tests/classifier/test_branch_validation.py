@@ -134,7 +134,7 @@ def test_core_he_lifetime_against_mist(validation_file):
     from hrstage.models.hpt2000.core_mass import mc_from_luminosity
     from hrstage.models.metallicity import clip_z, z_from_feh
 
-    c = _mist(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
+    c = mist_columns(validation_file("mist_iso_feh-1.35_12gyr.iso.cmd"))
     mi, ph, ll = c["initial_mass"], c["phase"], c["log_L"]
     he = ph == 3
     rgb = (ph == 2) & (ll >= 1.5) & (ll < 2.0)
