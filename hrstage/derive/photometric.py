@@ -10,8 +10,8 @@ from astropy import units as u
 
 from .. import flags as F
 from ..errors import HrstageInputError
-from ..models import (bolometric, casagrande2010, casagrande2021, flower_teff, mucciarelli2021, pecaut_mamajek2013,
-                      riello2021)
+from ..models import (bolometric, casagrande2010, casagrande2021, flower_teff, giant_bv_turnover, mucciarelli2021,
+                      pecaut_mamajek2013, riello2021)
 from . import _readings, extinction
 from ._constants import LN10, LOGG_SUN, TEFF_SUN
 from ._errors import Propagator, derivative_rows
@@ -501,7 +501,8 @@ _JOHNSON_READING_TEFF = ["Teff: white dwarf, Montreal DA grid in (B-V)0 and M_V"
                          "Teff: white dwarf, Montreal DB grid in (B-V)0 and M_V"]
 _JOHNSON_READING_LUM = ["L: V+BC_V(Montreal white-dwarf grid, Mbol_sun=4.74)+parallax"]
 #: bits a reading replaces (they described the cool relations' failure on these rows)
-_READING_CLEARS = F.COLOUR_OUT_OF_RANGE | F.OUTSIDE_VALIDITY | F.BC_FALLBACK | F.MISSING_INPUT
+_READING_CLEARS = (F.COLOUR_OUT_OF_RANGE | F.OUTSIDE_VALIDITY | F.BC_FALLBACK | F.MISSING_INPUT
+                   | F.COLOUR_SATURATED)
 
 
 def _other_readings(system, c0, abs_g, c_sig, g_sig, dist_err, need_colour, tcode, lcode, flags, release,
@@ -726,6 +727,11 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     or_flag(flags, need_colour & dwarf & (tcode == 4) & (bv0 > DWARF_MAX_BV_FLOWER), F.COLOUR_OUT_OF_RANGE)
     teff_out = np.where(teff_given, teff_in, t_col)
     tcode = np.where(teff_given, 1, np.where(np.isfinite(teff_out), tcode, 0))
+    # giants: B-V turns bluer again for late-M giants, so a red giant colour also fits a 3000-3650 K
+    # M giant (models/giant_bv_turnover.py); where the colour is saturated its Teff error is widened
+    giant_fl = need_colour & ~dwarf & (tcode == 4)
+    or_flag(flags, giant_fl & giant_bv_turnover.has_cool_reading(bv0), F.COLOUR_SATURATED)
+    saturated = giant_fl & giant_bv_turnover.is_saturated(bv0)
 
     bc = bolometric.bc_v_flower(teff_out)
     or_flag(flags, np.isfinite(teff_out) & ~np.isfinite(bc), F.OUTSIDE_VALIDITY)
@@ -749,6 +755,10 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     prop.add(bv_sig, dt_dbv * inv_tln, -0.4 * dbc_dt * dt_dbv)
     prop.add(vks_sig, dt_dvks * inv_tln, -0.4 * dbc_dt * dt_dvks)
     prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
+    if saturated.any():   # saturated giant colour: wide log Teff error, L moving with it through BC_V
+        with np.errstate(invalid="ignore", divide="ignore"):
+            sig_sat = np.where(saturated, giant_bv_turnover.saturated_logt_sigma(np.log10(teff_out)), 0.0)
+        prop.add(sig_sat, 1.0, np.where(saturated, -0.4 * dbc_dt * teff_out * LN10, 0.0))
     _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows)
 
     # --- faint stars: the white-dwarf reading (Montreal grids in (B-V)_0, M_V) ----------------------

@@ -110,7 +110,7 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
 
         chk = check_types(values["sptype"], pos.logt, pos.logl, logt_err=_nan_none(pos.logt_err),
                           logl_err=_nan_none(pos.logl_err), feh=feh_clf, logg=logg,
-                          logg_err=values.get("logg_err") if logg is not None else None)
+                          logg_err=values.get("logg_err") if logg is not None else None, hr_flags=pos.flags)
         cols.update(chk.to_columns())
         sp_flags = np.asarray(chk.flags, dtype=np.int64)
         own_notes.append(_bits_note(sp_flags & ~flags_all))

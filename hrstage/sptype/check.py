@@ -51,6 +51,7 @@ import numpy as np
 from .. import flags as _flags
 from ..columns import SPTYPE_COLUMNS
 from ..errors import HrstageInputError
+from ..models import giant_bv_turnover
 from .calibration import BINARY_ALLOWANCE_DEX, CLASS_NUMBER, calibration, sigma_logl, sigma_logt
 from .lumclass import CHECK_CLASSES, expected_stage
 from .parser import SpType, parse_many
@@ -254,7 +255,7 @@ def _as_float(x, n: int, name: str) -> np.ndarray:
 
 
 def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, threshold: float = 3.0,
-                logg=None, logg_err=None) -> TypeCheck:
+                logg=None, logg_err=None, hr_flags=None) -> TypeCheck:
     """Check catalogued MK types against HR positions.
 
     Parameters
@@ -276,6 +277,11 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
         the class's log g (``log g_sun + log M + 4 log(Teff/Teff_sun) - log L``), compared with the
         measured log g (calibration L scatter and the log g error). Gravity is what separates
         O-F dwarfs from giants, which the HR position cannot.
+    hr_flags : array-like of int, optional
+        Flag bits of the HR positions (:mod:`hrstage.flags`). Where ``COLOUR_SATURATED`` is set
+        (a giant's B-V that late-M giants share, :mod:`hrstage.models.giant_bv_turnover`) the
+        colour has two Teff readings, and the type's Teff passes the temperature check if it fits
+        either: the measured Teff, or the late-M giant range 3000-3650 K.
 
     Returns
     -------
@@ -317,6 +323,12 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
     hyper = tt["hyper"][inverse]
     subdw = tt["subdwarf"][inverse]
     hr_ok = np.isfinite(logt) & np.isfinite(logl)
+    two_t = np.zeros(n, dtype=bool) if hr_flags is None else (
+        (np.asarray(hr_flags, dtype=np.int64).reshape(-1) & _flags.COLOUR_SATURATED) != 0)
+    if two_t.shape != (n,):
+        raise HrstageInputError(f"hr_flags: expected {n} values (one per star), got {two_t.shape}")
+    alt_t = np.zeros((n, _NC), dtype=bool)   # the type's Teff fits only the late-M reading
+    et_hot = np.sqrt(np.maximum(et**2 - giant_bv_turnover.widened_logt_sigma(logt, two_t) ** 2, 0.0))
 
     nsig_t = np.full((n, _NC), np.nan)
     nsig_l = np.full((n, _NC), np.nan)  # signed: + brighter than the sequence
@@ -332,7 +344,14 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
         half = 0.5 * np.abs(np.where(np.isfinite(lt_lo), lt_lo, lt_mid) - np.where(np.isfinite(lt_hi), lt_hi, lt_mid))
         st = sigma_logt(cls, num_mid) * t_fac
         dt = np.maximum(0.0, np.abs(logt - lt_mid) - half)
-        nsig_t[:, k] = dt / np.hypot(st, et)
+        # a saturated colour's widened error allows cooler stars only: not on the hot side
+        nsig_t[:, k] = dt / np.hypot(st, np.where(lt_mid > logt, et_hot, et))
+        if two_t.any():   # a saturated giant colour: the late-M reading is the other candidate
+            lo, hi = giant_bv_turnover.LOGT_RANGE
+            d_alt = np.maximum(0.0, np.abs(lt_mid - np.clip(lt_mid, lo, hi)) - half)
+            n_alt = np.where(two_t, d_alt / np.hypot(st, et_hot), np.inf)
+            alt_t[:, k] = n_alt < nsig_t[:, k]
+            nsig_t[:, k] = np.fmin(nsig_t[:, k], n_alt)
         exp_t[:, k] = lt_mid
 
         locus = cal.locus_logl(logt, cls)
@@ -403,6 +422,10 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
         on_k[kiel] = True
         reason = np.where(on_k & (reason != ""), "MK calibration: Teff of the type and log g of the class "
                           "sequence at the measured Teff (Kiel position)", reason)
+    used_alt = _take(alt_t.astype(float), best_t) == 1.0
+    reason = np.where(used_alt & (reason != ""), np.char.add(reason.astype(str), (
+        "; B-V saturated (late-M giants turn bluer): the type's Teff fits the 3000-3650 K M-giant reading "
+        "of the colour")), reason)
     reason = reason.astype(object)
     hr_stage = _stage_check(verdict, reason, tt, inverse, logt, logl, et, el, feh, hr_ok)
     _young_check(verdict, reason, tt, inverse, logt, logl, feh, hr_ok, hr_stage)

@@ -244,3 +244,25 @@ def test_white_dwarf_reading_on_both_paths():
     assert "DB grid" in h.source[0] and h.teff[0] != g.teff[0]
     with pytest.raises(HrstageInputError):
         from_gaia(12.0, 0.1, 50.0, wd_atmosphere="DA")
+
+
+def test_johnson_giant_b_v_turnover_flagged_and_widened():
+    # the same colours on a giant (M_V ~ 0 at 100 pc) and on a dwarf (M_V ~ 7.5 at 100 pc)
+    from hrstage.models import bolometric, giant_bv_turnover
+
+    bv = np.array([1.0, 1.2, 1.5])
+    giant = from_johnson(np.full(3, 5.0), bv, np.full(3, 10.0), parallax_err=0.1, v_err=0.01, b_v_err=0.02)
+    dwarf = from_johnson(np.full(3, 7.5), bv, np.full(3, 100.0), parallax_err=0.1, v_err=0.01, b_v_err=0.02)
+    sat = (giant.flags & F.COLOUR_SATURATED) != 0
+    assert sat.tolist() == [False, True, True]            # from (B-V)_0 = 1.15 on the giant branch
+    assert not (dwarf.flags & F.COLOUR_SATURATED).any()   # dwarfs have their own limit (1.40)
+    # (B-V)_0 = 1.2 keeps the K-giant error; 1.5 is saturated: its log Teff error reaches half-way to the
+    # late-M reading and log L moves with it through BC_V (Flower/Torres: BC_V(4000 K) = -1.124,
+    # BC_V(3500 K) = -2.305, formulae.md 4.1 [C]: cooler = brighter, anti-correlated)
+    assert giant.logt_err[1] < 0.015
+    extra = giant_bv_turnover.saturated_logt_sigma(giant.logt[2])
+    assert giant.logt_err[2] == pytest.approx(np.hypot(extra, giant.logt_err[0]), rel=0.3)
+    assert giant.logt_err[2] > 0.03 and giant.logl_err[2] > 0.15 and giant.corr[2] < -0.9
+    slope = -0.4 * (bolometric.bc_v_flower(3500.0) - bolometric.bc_v_flower(4000.0)) / np.log10(3500 / 4000)
+    assert giant.logl_err[2] / giant.logt_err[2] == pytest.approx(abs(slope), rel=0.5)
+    assert "M giant" in F.describe(int(giant.flags[2]))

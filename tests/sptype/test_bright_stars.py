@@ -37,7 +37,7 @@ def stars(validation_file):
         parallax_err=np.asarray(t["e_plx_mas"], dtype=float), v_err=0.01, b_v_err=0.02,
     )
     types = parse_many(np.asarray(t["sptype"]).astype(str))
-    chk = check_types(types, pos.logt, pos.logl, logt_err=pos.logt_err, logl_err=pos.logl_err)
+    chk = check_types(types, pos.logt, pos.logl, logt_err=pos.logt_err, logl_err=pos.logl_err, hr_flags=pos.flags)
     return t, pos, types, chk
 
 
@@ -103,7 +103,7 @@ def test_injected_v_iii_swap(stars):
     idx = np.flatnonzero(np.isin(lc, ["V", "III"]) & single & np.isfinite(pos.logl))
     assert len(idx) > 2500
     new, sw, un = _swap(types, idx, np.random.default_rng(20240515))
-    res = check_types(new, pos.logt, pos.logl, logt_err=pos.logt_err, logl_err=pos.logl_err)
+    res = check_types(new, pos.logt, pos.logl, logt_err=pos.logt_err, logl_err=pos.logl_err, hr_flags=pos.flags)
     lum = np.char.find(res.verdict, "lumclass_conflict") >= 0
     anyc = res.is_conflict
     # where the calibration can tell V from III at the star's Teff (sequences >= 3 summed sigma
@@ -116,9 +116,12 @@ def test_injected_v_iii_swap(stars):
           f"false alarms (any conflict) {false_alarm:.3f}; all swapped: caught {overall:.3f}, "
           f"lum. false alarms {lum[un].mean():.3f}")
     assert caught >= 0.90   # measured 0.987
-    # measured 0.032 (0.040 before class III was allowed along the giant branch below the RGB tip;
-    # the issue-14 bar of 0.03 is not met: 18 of the 34 are M5-M6 III with saturated B-V Teff)
-    assert false_alarm <= 0.035
+    # issue-14 bar (design.md): <= 3 % false alarms. Measured 0.020 (21 of 1,060); 0.032 before the
+    # M-giant B-V turnover was weighed (11 of the 34 were M4-M6 III typed stars whose B-V, bluer than
+    # that of early-M giants, gave a K-giant Teff), 0.040 before class III was allowed along the giant
+    # branch below the RGB tip. The rest: types with "..." remarks or G-K "V" types 0.6-1.2 dex above
+    # the main sequence, and K giants whose B-V is 0.25 mag off their type (docs/sptype.md).
+    assert false_alarm <= 0.03
     assert lum[un].mean() <= 0.05
     # B-F stars: V and III overlap on the HR diagram (Jaschek & Gomez 1998); swaps there are
     # mostly missed, which is why the overall rate is far below 90 % - documented, not hidden

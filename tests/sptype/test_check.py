@@ -138,3 +138,26 @@ def test_class_separation():
     # the HR position can tell a K giant from a K dwarf, not an A giant from an A dwarf
     assert class_separation(np.log10(4500.0), "V", "III") > 3
     assert class_separation(np.log10(9000.0), "V", "III") < 1.5
+
+
+def test_saturated_giant_colour_weighs_the_late_m_reading():
+    """A giant whose B-V late-M giants share (COLOUR_SATURATED from the Johnson path) has two Teff
+    readings: the type's Teff passes if it fits either. Teff of the types: SK81 via the class-III
+    calibration (M5 III 3400 K, K3 III 4250 K, K2 III 4450 K); positions on the giant branch."""
+    # colour Teff 4300 K (a B-V ~1.3 giant), log L 2.3; 4900 K (a flagged colour Teff for the test's sake), log L 2.0; colour Teff
+    # 3900 K (B-V ~1.54), log L 2.6
+    pos = [(np.log10(4300.0), 2.3), (np.log10(4900.0), 2.0), (np.log10(3900.0), 2.6)]
+    types = ["M5III", "K3III", "K2III"]
+    fl = np.full(3, flags.COLOUR_SATURATED, dtype=np.int64)
+    et = np.array([0.010, 0.010, 0.037])   # the last one widened as the derive layer does
+    plain = _run(types, pos, logt_err=et, logl_err=0.05)
+    weighed = _run(types, pos, logt_err=et, logl_err=0.05, hr_flags=fl)
+    # without the flag an M5 III at 4300 K is a temperature conflict; with it, consistent and said why
+    assert plain.verdict[0] == "tclass_conflict"
+    assert weighed.verdict[0] == "consistent" and "M-giant reading" in weighed.reason[0]
+    # K3 III (4250 K) fits neither the colour's 4900 K nor the 3000-3650 K reading
+    assert weighed.verdict[1] == "tclass_conflict"
+    # a type hotter than a saturated colour stays a conflict: the widened error is cool-side only
+    assert weighed.verdict[2] == "tclass_conflict"
+    with pytest.raises(HrstageInputError, match="hr_flags"):
+        _run(types, pos, hr_flags=np.zeros(2, dtype=np.int64))
