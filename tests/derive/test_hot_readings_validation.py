@@ -74,6 +74,29 @@ def test_pecaut_mamajek_hot_dwarfs_on_main_sequence(dwarf_sequence):
     assert np.all(classify_hr(r.logt, r.logl).stage == "main_sequence")
 
 
+def test_pecaut_mamajek_o_b8_dwarfs_through_gaia(dwarf_sequence):
+    # O3V-B8V of Pecaut & Mamajek 2013 (v2024.05.15) have no Bp-Rp: each is given the colour the O-B8
+    # scale assigns to its Teff (so Teff is recovered by construction) and M_G = M_V + (G-V) of the
+    # table (its own M_G where given: B5V, B8V). This checks the BC_G chain against the table's log L and
+    # the stage: all main sequence, log L within 0.05 dex (measured <= 0.012, B8V through its own M_G).
+    from hrstage.models import early_type_gaia as et
+
+    d = dwarf_sequence
+    ob = np.array([s[0] in "OB" for s in d["SpT"]]) & ~np.isfinite(d["Bp-Rp"]) & np.isfinite(d["Mv"])
+    assert ob.sum() == 24     # O3V ... B8V
+    c_grid = np.linspace(et.colour_range()[0], -0.1201, 4000)
+    t_grid, _ = et.teff(c_grid)
+    colour = np.interp(np.log10(d["Teff"][ob]), np.log10(t_grid[::-1]), c_grid[::-1])
+    m_g = np.where(np.isfinite(d["M_G"][ob]), d["M_G"][ob], d["Mv"][ob] + et.g_minus_v(d["Teff"][ob]))
+    r = from_gaia(m_g, colour, 100.0, gaia_release="dr2")
+    assert np.all(["O-B8" in s for s in r.source])
+    assert np.all(r.flags & F.COLOUR_SATURATED)
+    assert np.allclose(r.teff, d["Teff"][ob], rtol=2e-3)
+    assert np.max(np.abs(r.logl - d["logL"][ob])) < 0.05
+    assert np.all(classify_hr(r.logt, r.logl, logt_err=r.logt_err, logl_err=r.logl_err,
+                              corr=r.corr).stage == "main_sequence")
+
+
 def test_hipparcos_bright_stars_still_classified(bright_stars):
     # Hipparcos bright stars (van Leeuwen 2007; ESA 1997 V, B-V): issue bar >= 99 % classified
     b = bright_stars
