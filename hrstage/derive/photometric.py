@@ -767,10 +767,12 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     prop.add(bv_sig, dt_dbv * inv_tln, -0.4 * dbc_dt * dt_dbv)
     prop.add(vks_sig, dt_dvks * inv_tln, -0.4 * dbc_dt * dt_dvks)
     prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
-    if saturated.any():   # saturated giant colour: wide log Teff error, L moving with it through BC_V
-        with np.errstate(invalid="ignore", divide="ignore"):
-            sig_sat = np.where(saturated, giant_bv_turnover.saturated_logt_sigma(np.log10(teff_out)), 0.0)
-        prop.add(sig_sat, 1.0, np.where(saturated, -0.4 * dbc_dt * teff_out * LN10, 0.0))
+    isat = np.flatnonzero(saturated)
+    if isat.size:   # saturated giant colour: wide log Teff error, L moving with it through BC_V
+        sig_sat, dl_sat = np.zeros(n), np.zeros(n)
+        sig_sat[isat] = giant_bv_turnover.saturated_logt_sigma(np.log10(teff_out[isat]))
+        dl_sat[isat] = -0.4 * dbc_dt[isat] * teff_out[isat] * LN10
+        prop.add(sig_sat, 1.0, dl_sat)
     _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows)
 
     # --- faint stars: the white-dwarf reading (Montreal grids in (B-V)_0, M_V) ----------------------
