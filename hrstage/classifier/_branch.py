@@ -18,8 +18,11 @@ number of stars expected there in a population with the Kroupa (2001) initial ma
 a constant star-formation rate up to ``max_age_myr``: ``xi(M) dM`` times the time spent per dex
 (shell burning, :mod:`hrstage.models.shell_burning`, on the RGB and AGB; :data:`T_HE_YR` spread
 over the core-He band). The probability of a hypothesis is the sum over its loci of weight times
-a Gaussian in log Teff about the locus at the star's log L (HR route) or log g (Kiel route),
-with the star's error plus :data:`SIGMA_INT` for the relations themselves; the normalised sums
+a Gaussian in log Teff about the locus at the star's log L (HR route) or log g (Kiel route). Its
+width is the star's log Teff error, floored at :data:`SIGMA_T_FLOOR`, with :data:`SIGMA_INT` for
+the relations themselves added in quadrature, and the star's log L / log g error widened by
+:data:`SIGMA_X_INT`, so that a catalogue without error columns gets the same answer as one with
+typical spectroscopic errors; the normalised sums
 are the probabilities, and the mass posterior of the winning hypothesis gives the core-He mass.
 
 The answer is a probability, not a certainty: in much of the giant region a first-ascent giant
@@ -59,11 +62,33 @@ from ..models.stellar import LOGG_SUN, TEFF_SUN
 from ..stages import BRIGHT_GIANT, GIANT, SUBGIANT
 
 LOG_TSUN = float(np.log10(TEFF_SUN))
-#: width (dex) of the model loci in log Teff added to the star's error: the scatter of the
-#: HPT2000 radii about detailed tracks is a few per cent (our choice, ~55 K at 4800 K)
-SIGMA_INT = 0.005
-#: core-helium-burning lifetime of a low-mass star (yr), ~1e8 yr (from memory: Girardi 2016,
-#: ARA&A 54, 95); shorter in proportion to the luminosity above M_HeF
+#: model uncertainty of the loci (dex), added in quadrature to each star's errors. HPT2000 (abstract)
+#: quote their formulae "accurate to within 5 %" of the detailed models they fit, in L and R. Read
+#: as a 2-sigma bound, 5 % in R is 0.5 log10(1.05) / 2 = 0.0053 dex in log Teff at fixed L (~60 K
+#: at 4800 K) and 5 % in L is log10(1.05) / 2 = 0.0106 dex along the locus (log L, or log g at
+#: fixed Teff and mass). Not fitted to any validation sample. (The HPT2000 RGB at the APOKASC-3 RGB
+#: stars' seismic masses, L and [Fe/H] sits 0.0018 dex hotter than their Teff, robust spread
+#: 0.0069 dex with their ~0.0042 dex Teff errors: consistent, measured after the choice.)
+SIGMA_INT = 0.5 * float(np.log10(1.05)) / 2.0
+SIGMA_X_INT = float(np.log10(1.05)) / 2.0
+#: floor on a star's own log Teff error (dex; 0.0043 = 50 K at 5000 K): catalogue Teff errors are
+#: mostly internal (precision) errors, while the zero points of spectroscopic and photometric Teff
+#: scales differ by some tens of K (common practice, from memory). A missing or smaller error is
+#: raised to it, so that the probabilities do not hinge on whether (or how optimistically) a
+#: catalogue quotes Teff errors.
+SIGMA_T_FLOOR = float(np.log10(5050.0 / 5000.0))
+#: core-helium-burning lifetime of a low-mass star (yr), above M_HeF shortened in proportion to
+#: the luminosity (same fuel, burnt faster; our approximation). Checked against the MIST v1.2
+#: 12 Gyr [Fe/H] = -1.35 isochrone (Choi et al. 2016): the initial-mass span of its core-He phase
+#: (0.00179 Msun) over that of its RGB per dex at log L 1.5-2.0 gives t_He / t_RGB,dex = 0.743;
+#: 1e8 yr with the shell-burning RGB time of :mod:`hrstage.models.shell_burning` gives 0.746 for
+#: its 0.81 Msun giants. HPT2000 eq 57 (:func:`hrstage.models.hpt2000.t_he`) gives 107 Myr there
+#: (ratio 0.80), 131 Myr for low masses at Z = 0.02, and a peak 2.2x longer just above M_HeF (the
+#: secondary clump) where this prior is shorter. Not used here: in the prior, eq 57 moves the
+#: APOKASC-3 figures (RC masses 1.00 -> 1.04 x seismic, scatter 15 -> 17 %; Kiel RGB-not-clump
+#: 95 -> 89 %), its shape alone (normalised to 1e8 yr at low mass) to 1.04 / 16 % and 91 %: a
+#: field sample like Kepler's has fewer young secondary-clump stars than a constant star-formation
+#: rate predicts. The branch probabilities depend on the population prior at this level.
 T_HE_YR = 1.0e8
 #: luminosity band of core-He burning about the eq-53 / eq-51 luminosity (dex): detailed tracks
 #: brighten by ~0.2-0.3 dex while burning helium (from memory, e.g. Girardi 2016); the band is placed
@@ -74,7 +99,12 @@ HE_BELOW_DEX = 0.10
 HE_ABOVE_DEX = 0.15
 #: stars lighter than the age-limit mass on the horizontal branch (mass lost on the RGB): the prior
 #: density per unit current mass is held flat down to this far below the age-limit mass (Msun,
-#: our assumption; the horizontal-branch morphology of real populations varies)
+#: our assumption; the horizontal-branch morphology of real populations varies). This tail is
+#: added to, not taken from, the evolved initial masses (which keep their initial mass): it does
+#: not conserve the number of stars. A number-conserving version (each initial mass below M_HeF
+#: spread over 0-0.3 Msun of loss) raised the APOKASC-3 RC masses by 9 % (1.04 -> 1.13 x seismic
+#: with the eq-57 lifetimes, scatter 17 -> 21 %): not used until the mass-loss spread itself is
+#: calibrated.
 HB_MASS_LOSS = 0.3
 #: [Fe/H] at or below which a core-He burner is called horizontal branch rather than red clump,
 #: and the Teff from which it is (common practice: the clump is the metal-rich red end of the HB)
@@ -202,12 +232,13 @@ def branch_grids(feh: float = 0.0, max_age_myr: float = 13800.0) -> BranchGrids:
         prior = np.where(m >= m_age, age_ok * xi * dm,
                          np.where(m >= m_age - HB_MASS_LOSS, kroupa2001.imf(max(m_age, 0.5)) * dm, 0.0))
         prior = np.where(low & ~(m > mc_he + 0.02), 0.0, prior)
-        t_he = T_HE_YR * np.minimum(1.0, float(lz_e) / l_base)
+        # core-He-burning lifetime: T_HE_YR, shorter in proportion to the luminosity above M_HeF
+        prior = prior * T_HE_YR * np.minimum(1.0, float(lz_e) / l_base)
         inside = (prior > 0)[:, None] & np.isfinite(lb)[:, None] & (_XL >= lb[:, None] - HE_BELOW_DEX) & (
             _XL <= lb[:, None] + HE_ABOVE_DEX)
         r_he = (1.0 - f_all[:, None]) * rhe_all[:, None] + f_all[:, None] * hpt.r_gb(MM, LL, z)
         logt[1] = np.where(inside, _logt_from_lr(_XL, r_he), np.nan)
-        weight[1] = np.where(inside, (prior * t_he / (HE_BELOW_DEX + HE_ABOVE_DEX))[:, None], 0.0)
+        weight[1] = np.where(inside, (prior / (HE_BELOW_DEX + HE_ABOVE_DEX))[:, None], 0.0)
         # --- asymptotic giant branch: from the end of core-He burning up
         l_tp = np.log10(luminosity_from_mc(mc_tpagb(hpt.mc_bagb(m, z)), m, z))
         top_he = lb + HE_ABOVE_DEX
@@ -311,8 +342,8 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=1024):
         i = np.where(ok, np.floor(np.where(ok, pos, 0)), 0).astype(np.intp)
         fr = np.where(ok, pos - i, 0.0)
         lo_c, hi_c = int(i[ok].min()), int(i[ok].max()) + 2
-        s2obs = st[rows] ** 2 + SIGMA_INT**2
-        sxr, ltr = sx[rows], logt[rows]
+        s2obs = np.maximum(st[rows], SIGMA_T_FLOOR) ** 2 + SIGMA_INT**2
+        sxr, ltr = np.sqrt(sx[rows] ** 2 + SIGMA_X_INT**2), logt[rows]
         for h in range(N_HYP):
             ks = np.flatnonzero(W[h][:, lo_c:hi_c].any(axis=1))
             # a stride > 1 over the masses trades accuracy for speed: at 3 on the RGB and AGB the
@@ -558,4 +589,4 @@ def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_ag
     return b
 
 
-__all__ = ["classify_branch", "attach_branch", "branch_curves", "branch_text", "branch_columns", "gravity_mass", "BRANCH_MASS_METHODS", "branch_grids", "BranchGrids", "BranchResult", "MIN_PROB", "SIGMA_INT"]
+__all__ = ["classify_branch", "attach_branch", "branch_curves", "branch_text", "branch_columns", "gravity_mass", "BRANCH_MASS_METHODS", "branch_grids", "BranchGrids", "BranchResult", "MIN_PROB", "SIGMA_INT", "SIGMA_X_INT", "SIGMA_T_FLOOR"]

@@ -9,8 +9,9 @@ Way's disk", ApJ 790, 127, section 2 (eqs 2-3):
 
 Their full selection adds cuts in (J - Ks)_0 and metallicity Z, which need 2MASS photometry and are
 not applied here; with those cuts they quote about 93 % purity for APOGEE spectroscopic log g.
-The coefficients are typed in from memory of the paper (not re-checked against the PDF in this
-project). Validity: the APOGEE giants they were calibrated on, about -0.8 <= [Fe/H] <= +0.4 and
+The coefficients are typed in from memory of the paper: a search of the stored public pages in
+round 3 reached the paper's abstract (arXiv:1405.1032) but not its section 2, so they are still
+unverified. Validity: the APOGEE giants they were calibrated on, about -0.8 <= [Fe/H] <= +0.4 and
 4000-5300 K; outside that the box is returned but its meaning is an extrapolation.
 """
 

@@ -42,7 +42,8 @@ def test_core_mass_relation():
     assert mc_hei(1.0, 0.02) == pytest.approx(0.477, abs=0.001)
     lum = np.array([10.0, 100.0, 2000.0])
     assert luminosity_from_mc(mc_from_luminosity(lum, 1.2, 0.02), 1.2, 0.02) == pytest.approx(lum)
-    # HPT2000 eq 69 (from memory): Mc,DU = 0.44 Mc,BAGB + 0.448 above Mc,BAGB = 0.8
+    # HPT2000 eq 69: Mc,DU = 0.44 Mc,BAGB + 0.448 from Mc,BAGB = 0.8 (the same form and constants in
+    # the COMPAS code, citing eq 69 [V-code]; not checked against the paper PDF)
     assert mc_tpagb(1.0) == pytest.approx(0.888)
     assert mc_tpagb(0.6) == pytest.approx(0.6)
     assert mc_tpagb(mc_bagb(5.0, 0.02)) > 0.8

@@ -83,3 +83,32 @@ def test_zahb_against_mist_core_helium_burning(validation_file):
     mc = float(hpt.mc_hei(m_init, z))
     logl = np.log10(float(hpt.l_zahb(m_now, mc, z)))
     assert logl == pytest.approx(float(c["log_L"][hb].min()), abs=0.1)
+
+
+def test_helium_star_lifetime_eq_79():
+    # HPT2000 eq 79 evaluated by hand at M = 1: (0.4129 + 18.81 + 1.853) / 1 Myr; the same form in
+    # the COMPAS code (HeMS lifetime, citing eq 79) [V-code]
+    assert float(hpt.t_hems(1.0)) == pytest.approx(0.4129 + 18.81 + 1.853, rel=1e-12)
+    # the 0.45-0.5 Msun cores of the helium flash live 1-2e8 yr as helium stars (from memory,
+    # the ~1e8 yr core-He-burning time of horizontal-branch stars is of this order)
+    assert 100.0 < float(hpt.t_hems(0.5)) < 220.0
+    assert np.isnan(hpt.t_hems(0.0))
+
+
+@pytest.mark.parametrize("z", [0.02, 0.001])
+def test_core_helium_lifetime_eq_57(z):
+    c = hpt.coefficients(z)
+    b39, b40 = float(c.b[39]), float(c.b[40])
+    # Appendix row b39 (formulae.md §2.10): 131.4955 + 20.09258 zeta - 0.5143082 zeta^2 - 1.37914 zeta^3
+    zeta = np.log10(z / 0.02)
+    assert b39 == pytest.approx(131.4955 + 20.09258 * zeta - 0.5143082 * zeta**2 - 1.37914 * zeta**3)
+    # low masses: mu = M / M_HeF small enough that (1 - mu)^b40 vanishes -> t_He -> b39 (eq 57)
+    assert b40 >= 1.0   # special case b40 = max(b40, 1) (formulae.md §2.2)
+    assert float(hpt.t_he(0.8, z)) == pytest.approx(b39, rel=0.01)
+    # alpha4 makes eq 57 continuous at M_HeF (HPT2000, just after eq 57)
+    m_hef = float(c.m_hef)
+    assert float(hpt.t_he(m_hef * (1 - 1e-7), z)) == pytest.approx(float(hpt.t_he(m_hef, z)), rel=1e-4)
+    # above M_HeF: a fraction of t_BGB (eq 57 second form), falling with mass
+    t = hpt.t_he(np.array([2.5, 4.0, 6.0]), z)
+    assert np.all(np.diff(t) < 0) and np.all(t < hpt.t_bgb(np.array([2.5, 4.0, 6.0]), z))
+    assert np.isnan(hpt.t_he(0.05, z)) and np.isnan(hpt.t_he(float(c.m_fgb) * 1.01, z))

@@ -14,7 +14,7 @@ Modules, split by topic:
   AGB (eq 66) and the carbon-ignition mass derived from it;
 - :mod:`.core_helium` -- core-helium burning of low-mass stars: helium-star ZAMS L and R (eqs 77-78),
   minimum CHeB luminosity (eq 51), core mass at the helium flash (eqs 37-38 at L_HeI), zero-age
-  horizontal-branch luminosity and radius (eqs 53-54);
+  horizontal-branch luminosity and radius (eqs 53-54), core-He-burning lifetime (eqs 57, 79);
 - :mod:`.white_dwarf` -- white-dwarf radius (eq 91).
 
 Equation numbers come from code comments of public implementations and were not checked against
@@ -34,7 +34,7 @@ from .giant_branch import (
     r_hei,
     r_mhe,
 )
-from .core_helium import l_minhe, l_zahb, l_zhe, mc_hei, r_zahb, r_zhe
+from .core_helium import l_minhe, l_zahb, l_zhe, mc_hei, r_zahb, r_zhe, t_he, t_hems
 from .main_sequence import l_tms, ms_luminosity_radius, r_tms, t_bgb, t_hook, t_ms
 from .white_dwarf import WD_MASS_RANGE, wd_radius
 
@@ -64,4 +64,6 @@ __all__ = [
     "mc_hei",
     "l_zahb",
     "r_zahb",
+    "t_he",
+    "t_hems",
 ]

@@ -20,7 +20,19 @@ the public SSE Fortran and with an independent C transcription of the paper:
 
   (continuous with L_minHe at M = M_HeF and with the helium-star ZAMS as the envelope vanishes);
 - eq (54): ZAHB radius ``R_ZAHB = (1 - f) R_ZHe(Mc) + f R_GB(M, L_ZAHB)`` with
-  ``f = (1 + b21) mu^b22 / (1 + b21 mu^b23)``.
+  ``f = (1 + b21) mu^b22 / (1 + b21 mu^b23)``;
+- eq (57): core-helium-burning lifetime (Myr)::
+
+      t_He = (b39 + (t_HeMS(Mc) - b39) (1 - mu)^b40) (1 + alpha4 exp(15 (M - M_HeF)))   M < M_HeF
+      t_He = t_BGB(M) (b41 M^b42 + b43 M^5) / (b44 + M^5)                               M >= M_HeF
+      mu = M / M_HeF,  alpha4 = (t_He(M_HeF) - b39) / b39   (continuity at M_HeF)
+
+  with the helium-star main-sequence lifetime of eq (79), ``t_HeMS(M) = (0.4129 + 18.81 M^4 +
+  1.853 M^6) / M^6.5`` Myr, taken at the core mass at helium ignition. The b39..b44 special cases
+  (b40 >= 1, b41 -> b41^b42, b44 -> b44^5) are in :mod:`.coefficients`. Checked against an
+  independent public implementation of the paper (the COMPAS population-synthesis code, which
+  cites eqs 57 and 79 for these forms), not against the paper PDF: the same provenance as the rest
+  of this package (formulae.md [V-code]).
 
 The core mass at the helium flash, needed to place the ZAHB of a star of given initial mass, comes
 from the giant-branch core-mass--luminosity relation (HPT2000 eqs 37-38, low-mass branch p = 6,
@@ -40,6 +52,7 @@ import numpy as np
 from .._common import as_float, masked
 from .coefficients import coefficients
 from .giant_branch import _l_hei, _r_gb
+from .main_sequence import _t_bgb
 
 #: exponent of mu in the denominator of eq (53) (printed to four decimals in the paper; SSE uses
 #: 1.6479 as well)
@@ -130,6 +143,49 @@ def _zahb(m, mc, z):
     return masked(lum, ok), masked(rad, ok)
 
 
+def t_hems(m) -> np.ndarray:
+    """Main-sequence lifetime (Myr) of a naked helium star of mass ``m`` (Msun), HPT2000 eq (79).
+
+    NaN for m <= 0. At the 0.45-0.5 Msun cores of the helium flash this is ~100-150 Myr.
+    """
+    m = as_float(m, "Msun")
+    ok = m > 0
+    x = np.where(ok, m, 1.0)
+    return masked((0.4129 + 18.81 * x**4 + 1.853 * x**6) / x**6.5, ok)
+
+
+def _t_he_high(m, c):
+    b = c.b
+    return _t_bgb(m, c.a) * (b[41] * m ** b[42] + b[43] * m**5) / (b[44] + m**5)
+
+
+def t_he(m, z=0.02) -> np.ndarray:
+    """Core-helium-burning lifetime (Myr) of a star of initial mass ``m`` (Msun), HPT2000 eq (57).
+
+    Below M_HeF the core mass is the one at the helium flash (:func:`mc_hei`); the lifetime tends
+    to b39 (~130 Myr at Z = 0.02) for the lightest stars and joins the intermediate-mass form
+    continuously at M_HeF (through alpha4). Valid 0.1 <= m <= M_FGB (NaN elsewhere: above M_FGB
+    helium ignites before the giant branch and the form is unchanged, but this package does not
+    use it there); 1e-4 <= Z <= 0.03.
+    """
+    m = as_float(m, "Msun")
+    c = coefficients(z)
+    m, _ = np.broadcast_arrays(m, c.z)
+    b = c.b
+    ok = (m >= 0.1) & (m <= c.m_fgb)
+    low = ok & (m < c.m_hef)
+    x = np.where(ok, m, c.m_hef)
+    t_hef = _t_he_high(np.asarray(c.m_hef, float), c)
+    alpha4 = (t_hef - b[39]) / b[39]
+    xl = np.where(low, x, 1.0)
+    mc = np.where(low, mc_hei(xl, c.z), 0.45)
+    mu = np.where(low, xl / c.m_hef, 0.5)
+    t_low = (b[39] + (t_hems(mc) - b[39]) * (1.0 - mu) ** b[40]) * (
+        1.0 + alpha4 * np.exp(15.0 * np.minimum(xl - c.m_hef, 0.0)))
+    val = np.where(low, t_low, _t_he_high(x, c))
+    return masked(val, ok)
+
+
 def l_zahb(m, mc, z=0.02) -> np.ndarray:
     """Zero-age horizontal-branch luminosity (Lsun), HPT2000 eq (53).
 
@@ -155,4 +211,4 @@ def r_zahb(m, mc, z=0.02) -> np.ndarray:
     return _zahb(m, mc, z)[1]
 
 
-__all__ = ["l_zhe", "r_zhe", "l_minhe", "mc_hei", "l_zahb", "r_zahb", "ZAHB_MU_EXPONENT"]
+__all__ = ["l_zhe", "r_zhe", "l_minhe", "mc_hei", "l_zahb", "r_zahb", "t_hems", "t_he", "ZAHB_MU_EXPONENT"]

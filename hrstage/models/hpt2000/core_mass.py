@@ -60,8 +60,11 @@ def mc_tpagb(mc_bagb) -> np.ndarray:
     """Core mass (Msun) at the start of the thermally pulsing AGB (HPT2000 section 5.4, eq 69).
 
     Above Mc,BAGB = 0.8 Msun the second dredge-up sets it, ``Mc,DU = 0.44 Mc,BAGB + 0.448``; below,
-    the early AGB ends when the CO core has grown to the helium-core mass, ``Mc,BAGB`` itself.
-    Typed in from memory of the paper; NaN for non-positive input.
+    the early AGB ends when the CO core has grown to the helium-core mass, ``Mc,BAGB`` itself
+    (continuous at 0.8). Checked against an independent public implementation of the paper (the
+    COMPAS population-synthesis code, which gives the same form and constants and cites eq 69),
+    not against the paper PDF: the provenance of the rest of this package. NaN for non-positive
+    input.
     """
     x = as_float(mc_bagb, "Msun")
     return np.where(x > 0, np.where(x > 0.8, 0.44 * x + 0.448, x), np.nan)
