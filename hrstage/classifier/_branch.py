@@ -95,7 +95,10 @@ T_HE_YR = 1.0e8
 #: brighten by ~0.2-0.3 dex while burning helium (from memory, e.g. Girardi 2016); the band is placed
 #: -0.10 / +0.15 dex about the fit's luminosity (the depth below is the stage map's ``hb_depth``),
 #: because at solar metallicity the HPT2000 ZAHB (log L 1.76-1.81 for 1-1.5 Msun) already sits at
-#: the clump luminosity rather than at its faint edge
+#: the clump luminosity rather than at its faint edge. Checked against MIST v1.2 at 12 Gyr, [Fe/H] =
+#: -1.35 (Choi et al. 2016): its ZAHB (log L 1.73) is 0.09 dex fainter than eq 53 for the age-limit
+#: mass, inside the band's depth; 90 % (97 %) of its core-He time, weighted by the span of initial
+#: mass, is spent within 0.06 (0.11) dex above its ZAHB, inside the band's height
 HE_BELOW_DEX = 0.10
 HE_ABOVE_DEX = 0.15
 #: stars lighter than the age-limit mass on the horizontal branch (mass lost on the RGB): the prior

@@ -153,6 +153,19 @@ def test_core_he_lifetime_against_mist(validation_file):
     m = float(mi[he].min())
     ours = _branch.T_HE_YR / float(shell_burning.years_per_dex(10**1.75, mc_from_luminosity(10**1.75, m, z)))
     assert ours == pytest.approx(ratio_mist, rel=0.05)   # measured 0.746 / 0.743
+    # the core-He band (HE_BELOW_DEX / HE_ABOVE_DEX about HPT2000 eq 53): MIST's ZAHB (the faintest
+    # point after the flash, log L 1.73) lies inside the band of the age-limit mass, and 97 % of its
+    # core-He time (weighted by the span of initial mass) within the band's height above it
+    k = np.flatnonzero(he)[np.argmin(ll[he])]
+    grids = _branch.branch_grids(-1.35)
+    band = np.isfinite(grids.logt["hr"][1][np.searchsorted(grids.mass, grids.m_age)])
+    lum = _branch._XL[band]
+    assert lum.min() <= ll[k] <= lum.max()              # measured 1.72 <= 1.733 <= 1.94
+    hb = np.flatnonzero(he)[mi[he] >= mi[k]]
+    w = np.gradient(mi[hb])
+    o = np.argsort(ll[hb])
+    q97 = ll[hb][o][np.searchsorted(np.cumsum(w[o]) / w.sum(), 0.97)] - ll[k]
+    assert q97 < _branch.HE_ABOVE_DEX + _branch.HE_BELOW_DEX   # measured 0.113
 
 
 def test_post_agb_from_gravity_mass(validation_file, apokasc):
