@@ -25,7 +25,7 @@ COLOUR_OUT_OF_RANGE = 1 << 10   #: colour outside the colour-Teff relation's ran
 BC_FALLBACK = 1 << 11           #: bolometric correction outside its fit range, fallback used
 NO_EXTINCTION = 1 << 12         #: no extinction given, none applied
 LOGG_ITERATION = 1 << 13        #: log g -> L iteration did not converge
-COLOUR_SATURATED = 1 << 14      #: giant's B-V also fits a cooler late-M giant (colour turnover)
+COLOUR_SATURATED = 1 << 14      #: colour barely tracks Teff here (red giant B-V turnover, O-B star BP-RP)
 TWO_READINGS = 1 << 15          #: photometry fits two readings (white dwarf / hot star or subdwarf)
 # --- input problems (layer 6) -------------------------------------------------------------
 MISSING_INPUT = 1 << 16         #: a needed value is missing / masked / NaN
@@ -49,8 +49,8 @@ DESCRIPTIONS = {
     BC_FALLBACK: "bolometric correction outside its fit range; fallback relation used",
     NO_EXTINCTION: "no extinction given; none applied",
     LOGG_ITERATION: "log g to luminosity iteration did not converge",
-    COLOUR_SATURATED: "B-V of a giant in the range where late-M giants turn bluer again: the star may also be an "
-                      "M giant of 3000-3650 K (larger bolometric correction, higher L); colour Teff indicative",
+    COLOUR_SATURATED: "colour saturated, Teff indicative: a giant's B-V that late-M giants (3000-3650 K, larger "
+                      "bolometric correction) share, or an O-B star's nearly flat Gaia BP-RP (wide Teff error)",
     TWO_READINGS: "colour and absolute magnitude fit two readings (white dwarf or not) within the errors; "
                   "the stage probabilities mix both",
     MISSING_INPUT: "a required input is missing",

@@ -58,6 +58,17 @@ def validation_file(validation_dir):
 
 
 @pytest.fixture(scope="session")
+def models_dir() -> Path:
+    """The shared published model grids (HRSTAGE_MODELS_DIR, set by .ci/run)."""
+    path = _dir_from_env("HRSTAGE_MODELS_DIR")
+    if path is None:
+        pytest.skip("HRSTAGE_MODELS_DIR is not set: published model grids not available")
+    if not path.is_dir():
+        pytest.fail(f"HRSTAGE_MODELS_DIR={path} is set but is not a directory")
+    return path
+
+
+@pytest.fixture(scope="session")
 def calibration_dir() -> Path:
     path = _dir_from_env("HRSTAGE_CALIBRATION_DIR")
     if path is None:

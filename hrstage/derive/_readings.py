@@ -11,7 +11,11 @@ relations of :mod:`hrstage.derive.photometric` are one reading; this module adds
 * the **hot-subdwarf reading** (Gaia): bluer than -0.12, where the dwarf sequence has no Gaia
   colours, for stars fainter than M_G = :data:`SUBDWARF_MIN_ABS_G`: the colour scale of the
   lowest-gravity DA sequence (log g = 7), an approximation flagged OUTSIDE_VALIDITY with a wide
-  Teff error.
+  Teff error;
+* the **early-type reading** (Gaia): bluer than -0.12 and brighter than that, O-B8 stars: the same
+  colour scale anchored on the sequence's B9V point, BC_G from the sequence's BC_V and G - V
+  (:mod:`hrstage.models.early_type_gaia`), flagged COLOUR_SATURATED (Bp-Rp is nearly flat above
+  ~15 000 K: wide Teff error).
 
 Which reading: the probability that the star lies on the white-dwarf side of the bright edge of
 the white-dwarf reading (the log g = 6.5 sequence, M_edge(colour)) given its absolute-magnitude
@@ -28,7 +32,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from ..models import bolometric, montreal_wd, pecaut_mamajek2013
+from ..models import bolometric, early_type_gaia, montreal_wd, pecaut_mamajek2013
 from ._constants import LN10
 from ._errors import Propagator
 
@@ -212,6 +216,33 @@ def hot_star(c, m, sig_c, sig_m):
     return dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
                     _position(fn, c, m, sig_c, sig_m, pm.SIGMA_TEFF_FRAC / LN10, sig_bc,
                               bolometric.IAU_MBOL_SUN)))
+
+
+def early_type(c, m, sig_c, sig_m):
+    """Gaia O-B8 reading bluer than the dwarf sequence's Gaia colours (:mod:`hrstage.models.early_type_gaia`)
+    on the given rows; ``capped`` where the colour is bluer than the table's hottest dwarf."""
+    et = early_type_gaia
+
+    def fn(x, y):
+        t, _ = et.teff(x)
+        return np.log10(t), et.bc_g(t)
+
+    sig_lt = math.hypot(et.SIGMA_LOGT, pecaut_mamajek2013.SIGMA_TEFF_FRAC / LN10)
+    out = dict(zip(("logt", "logl", "logt_err", "logl_err", "corr"),
+                   _position(fn, c, m, np.hypot(sig_c, et.SIGMA_COLOUR), sig_m, sig_lt, et.SIGMA_BC,
+                             bolometric.IAU_MBOL_SUN)))
+    capped = et.teff(c)[1]
+    out["capped"] = capped
+    if capped.any():   # bluer than the hottest dwarf: Teff only bounded below, L moving with it via BC
+        k = -0.4 * et.bc_slope_hot()
+        s = np.where(capped, et.SIGMA_LOGT_CAPPED, 0.0)
+        var_t = out["logt_err"] ** 2 + s ** 2
+        var_l = out["logl_err"] ** 2 + (k * s) ** 2
+        cov = out["corr"] * out["logt_err"] * out["logl_err"] + k * s ** 2
+        out["logt_err"], out["logl_err"] = np.sqrt(var_t), np.sqrt(var_l)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out["corr"] = np.clip(cov / np.sqrt(var_t * var_l), -1.0, 1.0)
+    return out
 
 
 def hot_subdwarf(c, m, sig_c, sig_m, *, release):

@@ -487,16 +487,19 @@ def from_gaia(g, bp_rp, parallax, *, g_err=None, bp_rp_err=None, parallax_err=No
                             dist_rows, d_lo, d_hi)
 
 
-#: provenance of the other Gaia readings (Teff codes 7-10, L codes 3-5)
+#: provenance of the other Gaia readings (Teff codes 7-11, L codes 3-6)
 _GAIA_READING_TEFF = ["Teff: Pecaut+Mamajek 2013 dwarf sequence (BP-RP)0",
                       "Teff: white dwarf, Montreal DA grid in (BP-RP)0 and M_G",
                       "Teff: white dwarf, Montreal DB grid in (BP-RP)0 and M_G",
-                      "Teff: hot subdwarf, log g=7 DA colour scale (BP-RP)0 [approximate]"]
+                      "Teff: hot subdwarf, log g=7 DA colour scale (BP-RP)0 [approximate]",
+                      "Teff: O-B8, DA colour scale anchored on Pecaut+Mamajek 2013 B9V (BP-RP)0 [wide error]"]
 _GAIA_READING_LUM = ["L: G+BC_G(Pecaut+Mamajek 2013)+parallax",
                      "L: G+BC_G(Montreal white-dwarf grid)+parallax",
-                     "L: G+BC_G(log g=7 DA grid, approximate)+parallax"]
-_READING_CODES = {"gaia": {"hot": (7, 3), "wd_H": (8, 4), "wd_He": (9, 4), "subdwarf": (10, 5)},
-                  "johnson": {"wd_H": (6, 2), "wd_He": (7, 2), "hot": (-1, -1), "subdwarf": (-1, -1)}}
+                     "L: G+BC_G(log g=7 DA grid, approximate)+parallax",
+                     "L: G+BC_V-(G-V)(Pecaut+Mamajek 2013 at the Teff)+parallax"]
+_READING_CODES = {"gaia": {"hot": (7, 3), "wd_H": (8, 4), "wd_He": (9, 4), "subdwarf": (10, 5), "early": (11, 6)},
+                  "johnson": {"wd_H": (6, 2), "wd_He": (7, 2), "hot": (-1, -1), "subdwarf": (-1, -1),
+                              "early": (-1, -1)}}
 _JOHNSON_READING_TEFF = ["Teff: white dwarf, Montreal DA grid in (B-V)0 and M_V",
                          "Teff: white dwarf, Montreal DB grid in (B-V)0 and M_V"]
 _JOHNSON_READING_LUM = ["L: V+BC_V(Montreal white-dwarf grid, Mbol_sun=4.74)+parallax"]
@@ -530,18 +533,23 @@ def _other_readings(system, c0, abs_g, c_sig, g_sig, dist_err, need_colour, tcod
     kind = np.full(k, "", dtype=object)
     hot = (c >= pecaut_mamajek2013.BP_RP_RANGE[0]) & (c < _readings.HOT_GAIA_LIMIT)
     sub = (c < pecaut_mamajek2013.BP_RP_RANGE[0]) & (m > _readings.SUBDWARF_MIN_ABS_G)
+    early = (c < pecaut_mamajek2013.BP_RP_RANGE[0]) & ~sub      # O-B8 stars, brighter than hot subdwarfs
     if system != "gaia":
-        hot = sub = np.zeros(k, dtype=bool)
+        hot = sub = early = np.zeros(k, dtype=bool)
+    capped = np.zeros(k, dtype=bool)
     for mask, name, fn in ((hot, "hot", lambda i: _readings.hot_star(c[i], m[i], sc[i], sm[i])),
                            (sub, "subdwarf", lambda i: _readings.hot_subdwarf(c[i], m[i], sc[i], sm[i],
-                                                                               release=release))):
+                                                                               release=release)),
+                           (early, "early", lambda i: _readings.early_type(c[i], m[i], sc[i], sm[i]))):
         i = np.flatnonzero(mask)
         if i.size:
             r = fn(i)
             for key in star:
                 star[key][i] = r[key]
             kind[i] = name
-    cool = ~(hot | sub)       # the cool reading: replaced only where the white-dwarf one wins
+            if name == "early":
+                capped[i] = r["capped"]
+    cool = ~(hot | sub | early)       # the cool reading: replaced only where the white-dwarf one wins
     i = np.flatnonzero(cool)
     if i.size:
         t_cool, l_cool, prop = cool_reading
@@ -567,14 +575,18 @@ def _other_readings(system, c0, abs_g, c_sig, g_sig, dist_err, need_colour, tcod
     # provenance codes
     codes = _READING_CODES[system]
     wd_codes = codes["wd_" + atmosphere]
-    tnew = np.where(use_wd, wd_codes[0], np.where(kind == "hot", codes["hot"][0], codes["subdwarf"][0]))
-    lnew = np.where(use_wd, wd_codes[1], np.where(kind == "hot", codes["hot"][1], codes["subdwarf"][1]))
+    tnew = np.where(use_wd, wd_codes[0], np.select([kind == "hot", kind == "early"],
+                                                   [codes["hot"][0], codes["early"][0]], codes["subdwarf"][0]))
+    lnew = np.where(use_wd, wd_codes[1], np.select([kind == "hot", kind == "early"],
+                                                   [codes["hot"][1], codes["early"][1]], codes["subdwarf"][1]))
     tcode = tcode.copy()
     lcode = lcode.copy()
     tcode[rows] = tnew[take]
     lcode[rows] = lnew[take]
     flags[rows] &= ~np.int64(_READING_CLEARS)
-    flags[cand[(use_wd & wd["extrapolated"]) | (use_star & (kind == "subdwarf"))]] |= np.int64(F.OUTSIDE_VALIDITY)
+    flags[cand[(use_wd & wd["extrapolated"]) | (use_star & ((kind == "subdwarf") | capped))]] |= np.int64(
+        F.OUTSIDE_VALIDITY)
+    flags[cand[use_star & (kind == "early")]] |= np.int64(F.COLOUR_SATURATED)
     # the other reading, where it keeps at least P_AMBIGUOUS of the probability
     p_chosen = np.where(use_wd, p, 1.0 - p)
     other_ok = np.where(use_wd, star_ok, wd_ok)
@@ -755,10 +767,12 @@ def from_johnson(v, b_v, parallax, *, v_err=None, b_v_err=None, parallax_err=Non
     prop.add(bv_sig, dt_dbv * inv_tln, -0.4 * dbc_dt * dt_dbv)
     prop.add(vks_sig, dt_dvks * inv_tln, -0.4 * dbc_dt * dt_dvks)
     prop.add(np.where(teff_given, t_sig_in, sig_cal), inv_tln, -0.4 * dbc_dt)
-    if saturated.any():   # saturated giant colour: wide log Teff error, L moving with it through BC_V
-        with np.errstate(invalid="ignore", divide="ignore"):
-            sig_sat = np.where(saturated, giant_bv_turnover.saturated_logt_sigma(np.log10(teff_out)), 0.0)
-        prop.add(sig_sat, 1.0, np.where(saturated, -0.4 * dbc_dt * teff_out * LN10, 0.0))
+    isat = np.flatnonzero(saturated)
+    if isat.size:   # saturated giant colour: wide log Teff error, L moving with it through BC_V
+        sig_sat, dl_sat = np.zeros(n), np.zeros(n)
+        sig_sat[isat] = giant_bv_turnover.saturated_logt_sigma(np.log10(teff_out[isat]))
+        dl_sat[isat] = -0.4 * dbc_dt[isat] * teff_out[isat] * LN10
+        prop.add(sig_sat, 1.0, dl_sat)
     _add_distance_errors(prop, p_sig, dlogl_dplx, sig_m_dist, dist_rows)
 
     # --- faint stars: the white-dwarf reading (Montreal grids in (B-V)_0, M_V) ----------------------

@@ -56,6 +56,9 @@ LOGT_RANGE = (float(np.log10(TEFF_COOL_END)), float(np.log10(TEFF_PEAK)))
 #: log10 of Flower's giant Teff at :data:`BV_SATURATED` (Flower's branch falls monotonically with B-V):
 #: a flagged giant at or below it has the widened error of :func:`saturated_logt_sigma`
 LOGT_SATURATED = float(np.log10(flower_teff.teff(BV_SATURATED)))
+#: log10 of Flower's giant Teff at :data:`BV_TURNOVER_MIN`: a flagged position hotter than this is not a
+#: red giant's colour (the same flag marks the flat Gaia colours of O-B stars)
+LOGT_TURNOVER = float(np.log10(flower_teff.teff(BV_TURNOVER_MIN)))
 
 
 def has_cool_reading(b_v0) -> np.ndarray:

@@ -373,7 +373,8 @@ def _cautions(count, n_unc):
     extrap = [(F.OUTSIDE_VALIDITY, "outside the validity range of the stellar relations (OUTSIDE_VALIDITY)"),
               (F.COLOUR_OUT_OF_RANGE, "with a colour outside the colour&ndash;Teff calibration (COLOUR_OUT_OF_RANGE)"),
               (F.BC_FALLBACK, "with a fallback bolometric correction (BC_FALLBACK)"),
-              (F.COLOUR_SATURATED, "giants whose B&minus;V a cooler M giant also has: Teff and L indicative "
+              (F.COLOUR_SATURATED, "with a saturated colour (a red giant's B&minus;V that cooler M giants "
+                                   "share, or an O&ndash;B star's Gaia BP&minus;RP): Teff and L indicative "
                                    "(COLOUR_SATURATED)"),
               (F.METALLICITY_CLIPPED, "with their metallicity clipped to the fits' range (METALLICITY_CLIPPED)")]
     items = [f"{stars(count(b))} {t}" for b, t in extrap if count(b)]

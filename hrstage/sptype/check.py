@@ -327,6 +327,8 @@ def check_types(sptypes, logt, logl, *, logt_err=None, logl_err=None, feh=None, 
         (np.asarray(hr_flags, dtype=np.int64).reshape(-1) & _flags.COLOUR_SATURATED) != 0)
     if two_t.shape != (n,):
         raise HrstageInputError(f"hr_flags: expected {n} values (one per star), got {two_t.shape}")
+    with np.errstate(invalid="ignore"):   # a red giant's colour only (the flag also marks O-B Gaia colours)
+        two_t &= logt <= giant_bv_turnover.LOGT_TURNOVER + 1e-9
     alt_t = np.zeros((n, _NC), dtype=bool)   # the type's Teff fits only the late-M reading
     et_hot = np.sqrt(np.maximum(et**2 - giant_bv_turnover.widened_logt_sigma(logt, two_t) ** 2, 0.0))
 

@@ -9,6 +9,7 @@ import numpy as np
 
 from ..errors import HrstageInputError
 from ..models import hpt2000 as hpt
+from ..models.stellar import LOGG_SUN
 from ..models.metallicity import clip_z, feh_from_z, z_from_feh
 from ..stages import (
     BRIGHT_GIANT,
@@ -407,7 +408,11 @@ class StageMap:
             return 2 * self._wd_logr[0] + 4 * (logt - LOG_TSUN) - p.wd_tolerance
         a, b = LOGT_WD_HOT
         hot = p.wd_hot_tolerance * np.clip((logt - a) / (b - a), 0.0, 1.0)
-        return 2 * self._wd_logr[1] + 4 * (logt - LOG_TSUN) + p.wd_tolerance + p.wd_envelope_tolerance + hot
+        up = 2 * self._wd_logr[1] + 4 * (logt - LOG_TSUN) + p.wd_tolerance + p.wd_envelope_tolerance + hot
+        # extremely-low-mass (He-core) white dwarfs, cooler than the hot subdwarfs: the log g line
+        # L = M (g_sun / g) (T / T_sun)^4 of wd_mass_min at wd_elm_logg
+        elm = np.log10(p.wd_mass_min) + LOGG_SUN - p.wd_elm_logg + 4 * (logt - LOG_TSUN)
+        return np.where(logt < np.log10(p.hot_subdwarf_teff[0]), np.maximum(up, elm), up)
 
     def ms_lower_at(self, logt):
         """log L of the lower edge of the main-sequence band (ZAMS - ms_below_zams) at logt."""
@@ -546,7 +551,8 @@ class StageMap:
         wk = np.flatnonzero(codes == WHITE_DWARF)  # evaluated in the white-dwarf cells only
         wr, wc = np.divmod(wk, cg.nx)
         logr = 0.5 * cl[wr] - 2.0 * (ct[wc] - LOG_TSUN)
-        mass.reshape(-1)[wk] = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.nan)
+        # (larger than eq 91 allows, the extremely-low-mass part: its lowest mass, 0.1 Msun)
+        mass.reshape(-1)[wk] = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.log10(mw[0]))
         for code, src in (
             (MAIN_SEQUENCE, ms_raster),
             (SUBGIANT, hg_raster),
@@ -786,7 +792,8 @@ class StageMap:
             tw, self.wd_edge(tw, "lower"), np.full_like(tw, p.wd_mass_max))
         tw = np.unique(np.r_[tw, LOGT_WD_HOT])
         add("wd_max", f"White-dwarf band upper edge ({p.wd_mass_min:g} Msun, +{p.wd_tolerance + p.wd_envelope_tolerance:g} dex, "
-            f"+{p.wd_hot_tolerance:g} dex more from 30 kK to 100 kK)",
+            f"+{p.wd_hot_tolerance:g} dex more from 30 kK to 100 kK; below {p.hot_subdwarf_teff[0]:g} K at least "
+            f"log g {p.wd_elm_logg:g}, extremely-low-mass white dwarfs)",
             tw, self.wd_edge(tw, "upper"), np.full_like(tw, p.wd_mass_min))
         ot, ol = self._old_branch
         add("old_branch", f"Subgiant and giant branch of the oldest stars ({self.m_age:.2f} Msun at "

@@ -95,6 +95,14 @@ class StageParams:
         above: eq 91 is a zero-temperature relation and young, hot white dwarfs still have
         inflated, non-degenerate envelopes (log g about 7.0-7.5 instead of 7.9 for 0.55 Msun near
         100 kK in MIST v1.2 cooling tracks).
+    wd_elm_logg : float, default 6.0
+        Cooler than the hot-subdwarf box (``hot_subdwarf_teff``), the upper edge of the white-dwarf
+        band is raised to this surface gravity (log g, cgs) for ``wd_mass_min``, where that lies
+        above the eq. 91 edge: extremely-low-mass (He-core, ~0.1-0.3 Msun) white dwarfs keep thick
+        hydrogen envelopes and have log g 5-7 (Brown et al. 2016, ApJ 818, 155, the ELM Survey;
+        from memory), far larger than the zero-temperature radius. Hotter, the region belongs to
+        the hot subdwarfs (log g 5-6). No main-sequence or subdwarf star lies there: at 10 000 K
+        the edge is at log L -1.3, the subdwarf region ends near log L 0. 8 switches it off.
     pms_logl_max : float, default 1.5
         Top (log L) of the pre-main-sequence region and of the zone where a young star and an
         evolved one cannot be told apart. 99.6 % of the PARSEC v1.2S Z = 0.014 pre-main-sequence
@@ -148,6 +156,7 @@ class StageParams:
     hb_depth: float = 0.1
     hb_teff_max: float = 20000.0
     wd_hot_tolerance: float = 0.4
+    wd_elm_logg: float = 6.0
     pms_logl_max: float = 1.5
     pms_rgb_margin: float = 0.03
     pms_hayashi_logt: float = 0.13
@@ -168,6 +177,7 @@ class StageParams:
             ("wd_mass_max", self.wd_mass_max <= 1.43, "at most 1.43 Msun (below the Chandrasekhar mass 1.44)"),
             ("wd_tolerance", 0.0 <= self.wd_tolerance <= 1.0, "between 0 and 1 dex"),
             ("wd_envelope_tolerance", 0.0 <= self.wd_envelope_tolerance <= 1.0, "between 0 and 1 dex"),
+            ("wd_elm_logg", 5.0 <= self.wd_elm_logg <= 8.0, "between 5 and 8 (log g, cgs)"),
             ("wd_teff_min", 2000.0 <= self.wd_teff_min <= 20000.0, "between 2000 and 20000 K"),
             ("subdwarf_depth", 0.0 <= self.subdwarf_depth <= 5.0, "between 0 and 5 dex"),
             ("hb_height", 0.0 <= self.hb_height <= 1.5, "between 0 and 1.5 dex"),

@@ -17,8 +17,15 @@ def test_gaia_white_dwarfs_from_photometry(gaia_white_dwarfs):
     w = gaia_white_dwarfs
     pos = from_gaia(w["Gmag"], w["BPmag"] - w["RPmag"], w["Plx"])
     r = classify_hr(pos.logt, pos.logl, logt_err=pos.logt_err, logl_err=pos.logl_err, corr=pos.corr)
-    # issue 13 bar >= 97 % white_dwarf (Gentile Fusillo et al. 2021, 7077 stars); measured 0.996 (before: 0.247)
+    # issue 13 bar >= 97 % white_dwarf (Gentile Fusillo et al. 2021, 7077 stars); measured 0.9987 (0.996 before
+    # the extremely-low-mass part of the band, 0.247 before the white-dwarf reading)
     assert np.mean(r.stage == "white_dwarf") >= 0.97
+    # every star has a stage; the low-mass ones (MassH < 0.3 Msun, He cores) are white dwarfs, or hot
+    # subdwarfs where they share that region above 20 000 K (measured: 9 stars)
+    assert not np.any(r.stage == "unclassified")
+    elm = w["MassH"] < 0.3
+    assert np.all(np.isin(r.stage[elm], ["white_dwarf", "hot_subdwarf"]))
+    assert np.all(pos.teff[elm & (r.stage == "hot_subdwarf")] > 19000)
     da = (w["spectype"] == "DA") & (w["TeffH"] < 40000)
     rel = np.abs(pos.teff[da] / w["TeffH"][da] - 1)
     # issue 13 bar: Teff within 10 % of TeffH for >= 90 % of the DA stars below 40 kK; measured 0.911
@@ -72,6 +79,41 @@ def test_pecaut_mamajek_hot_dwarfs_on_main_sequence(dwarf_sequence):
     assert j.sum() >= 35
     r = from_johnson(d["Mv"][j], d["B-V"][j], 100.0)
     assert np.all(classify_hr(r.logt, r.logl).stage == "main_sequence")
+
+
+def test_pecaut_mamajek_o_b8_dwarfs_through_gaia(dwarf_sequence):
+    # O3V-B8V of Pecaut & Mamajek 2013 (v2024.05.15) have no Bp-Rp: each is given the colour the O-B8
+    # scale assigns to its Teff (so Teff is recovered by construction) and M_G = M_V + (G-V) of the
+    # table (its own M_G where given: B5V, B8V). This checks the BC_G chain against the table's log L and
+    # the stage: all main sequence, log L within 0.05 dex (measured <= 0.012, B8V through its own M_G).
+    from hrstage.models import early_type_gaia as et
+
+    d = dwarf_sequence
+    ob = np.array([s[0] in "OB" for s in d["SpT"]]) & ~np.isfinite(d["Bp-Rp"]) & np.isfinite(d["Mv"])
+    assert ob.sum() == 24     # O3V ... B8V
+    c_grid = np.linspace(et.colour_range()[0], -0.1201, 4000)
+    t_grid, _ = et.teff(c_grid)
+    colour = np.interp(np.log10(d["Teff"][ob]), np.log10(t_grid[::-1]), c_grid[::-1])
+    m_g = np.where(np.isfinite(d["M_G"][ob]), d["M_G"][ob], d["Mv"][ob] + et.g_minus_v(d["Teff"][ob]))
+    r = from_gaia(m_g, colour, 100.0, gaia_release="dr2")
+    assert np.all(["O-B8" in s for s in r.source])
+    assert np.all(r.flags & F.COLOUR_SATURATED)
+    assert np.allclose(r.teff, d["Teff"][ob], rtol=2e-3)
+    assert np.max(np.abs(r.logl - d["logL"][ob])) < 0.05
+    assert np.all(classify_hr(r.logt, r.logl, logt_err=r.logt_err, logl_err=r.logl_err,
+                              corr=r.corr).stage == "main_sequence")
+
+
+def test_no_dwarf_is_a_white_dwarf(dwarf_sequence):
+    # the extremely-low-mass part of the white-dwarf band (log g 6 line below 20 000 K) must not take
+    # dwarfs: Pecaut & Mamajek 2013 O3V-M9V (v2024.05.15) at their Teff and log L, and the same stars
+    # 1.2 dex fainter (the depth of the subdwarf region), none white_dwarf
+    d = dwarf_sequence
+    ok = np.isfinite(d["Teff"]) & np.isfinite(d["logL"]) & (d["Teff"] >= 2400)
+    lt, ll = np.log10(d["Teff"][ok]), d["logL"][ok]
+    for shift in (0.0, -1.2):
+        st = classify_hr(lt, ll + shift, n_draws=0).stage
+        assert not np.any(st == "white_dwarf"), shift
 
 
 def test_hipparcos_bright_stars_still_classified(bright_stars):

@@ -116,9 +116,12 @@ def test_colour_out_of_range_and_fallbacks():
     # (0.0 lies between A0V, -0.037 / 9700 K, and A1V, 0.005 / 9300 K, in the sequence)
     r = from_gaia(8.0, 0.0, 5.0)
     assert 9300 < r.teff[0] < 9700 and "Pecaut" in r.source[0] and not r.flags[0] & F.COLOUR_OUT_OF_RANGE
-    # bluer than the sequence's Gaia colours (B9V, -0.120) and bright (M_G = 1.5 < 2): no Gaia-only Teff
+    # bluer than the sequence's Gaia colours (B9V, -0.120) and bright (M_G = 1.5 < 2): the O-B8 reading
+    # (models/early_type_gaia.py), flagged COLOUR_SATURATED with a wide Teff error (>= 0.04 dex)
     r = from_gaia(8.0, -0.3, 5.0)
-    assert np.isnan(r.teff[0]) and r.flags[0] & F.COLOUR_OUT_OF_RANGE
+    assert 12300 < r.teff[0] < 20600 and "O-B8" in r.source[0]       # between B8V and B2V (PM13)
+    assert r.flags[0] & F.COLOUR_SATURATED and not r.flags[0] & F.COLOUR_OUT_OF_RANGE
+    assert r.logt_err[0] >= 0.04
     # given Teff outside 3300-8000 K: BC_G from Flower BC_V - (G-V) (BC_FALLBACK)
     r = from_gaia(8.0, 0.0, 5.0, teff=10000.0)
     assert np.isfinite(r.logl[0]) and r.flags[0] & F.BC_FALLBACK

@@ -161,3 +161,6 @@ def test_saturated_giant_colour_weighs_the_late_m_reading():
     assert weighed.verdict[2] == "tclass_conflict"
     with pytest.raises(HrstageInputError, match="hr_flags"):
         _run(types, pos, hr_flags=np.zeros(2, dtype=np.int64))
+    # the same flag on a hot star (an O-B star's flat Gaia colour) never opens the late-M reading
+    hot = _run(["M5III"], [(np.log10(20000.0), 3.0)], logt_err=0.05, hr_flags=fl[:1])
+    assert hot.verdict[0] == "tclass_conflict"

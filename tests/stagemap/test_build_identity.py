@@ -125,7 +125,8 @@ def _ref_mass(sm, raw):
     mw = np.linspace(0.1, 1.43, 400)
     rw = np.log10(hpt.wd_radius(mw))
     logr = 0.5 * cl[:, None] - 2.0 * (ct[None, :] - LOG_TSUN)
-    wd_raster = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.nan)
+    # larger than eq 91 allows (the extremely-low-mass part of the band): its lowest mass, 0.1 Msun
+    wd_raster = np.interp(logr, rw[::-1], np.log10(mw)[::-1], left=np.nan, right=np.log10(mw[0]))
     for code, src in (
         (MAIN_SEQUENCE, ms_raster),
         (SUBGIANT, hg_raster),
