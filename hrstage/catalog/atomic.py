@@ -113,20 +113,21 @@ def atomic_output(path, *, overwrite: bool = False, inputs: Iterable = ()) -> It
     out = check_output_path(path, overwrite=overwrite, inputs=inputs)
     folder = out.parent if str(out.parent) else Path(".")
     suffix = "".join(out.suffixes) or ""
+    tmp = None
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix="." + out.name + TEMP_MARK, suffix=suffix, dir=folder)
-    except OSError as exc:      # read-only or special file system, no permission: the user's choice
-        raise HrstageInputError(f"cannot write {out}: cannot create a file in folder {folder} "
-                                f"({exc.strerror or exc})") from None
-    os.close(fd)
-    tmp = Path(tmp_name)
-    try:
+        try:
+            fd, tmp_name = tempfile.mkstemp(prefix="." + out.name + TEMP_MARK, suffix=suffix, dir=folder)
+            tmp = Path(tmp_name)    # at once: a Ctrl-C from here on still removes the file
+        except OSError as exc:      # read-only or special file system, no permission: the user's choice
+            raise HrstageInputError(f"cannot write {out}: cannot create a file in folder {folder} "
+                                    f"({exc.strerror or exc})") from None
+        os.close(fd)
         yield tmp
         os.chmod(tmp, output_mode(out))
         with _commit_section():
             _put_in_place(tmp, out, overwrite)
     finally:
-        if tmp.exists():
+        if tmp is not None and tmp.exists():
             with contextlib.suppress(OSError):
                 tmp.unlink()
 

@@ -604,7 +604,9 @@ def write_table(table: Table, path, format: str | None = None, *, overwrite: boo
         elif fmt == "parquet":
             _write_parquet(table, tmp)
         elif fmt == "ecsv":
-            table.write(tmp, format="ascii.ecsv", overwrite=True)
+            from .ecsv import write_ecsv
+
+            write_ecsv(table, tmp)
         else:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")

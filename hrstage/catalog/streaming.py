@@ -284,6 +284,10 @@ class ChunkWriter:
         ``added_dictionary`` (columns of few distinct values: dictionary-encoded). Added columns
         of Arrow dictionary type are stored with their plain value type (the Parquet file still
         dictionary-encodes them): astropy's Parquet reader refuses Arrow dictionary columns.
+        When every column is of a plain type (no Arrow schema stored in the file, see
+        :func:`plain_parquet_schema`) they are handed to the writer as they are instead: Parquet
+        stores the same dictionary pages and indices (the file is the same, byte for byte) and
+        reads them back as plain strings, without a cast to strings and a new encoding per chunk.
         Without ``added``, every column gets pyarrow's defaults and its own type.
     added_dictionary : iterable of str
         The added columns worth a dictionary (see ``added``).
@@ -294,7 +298,11 @@ class ChunkWriter:
         self.path = Path(path)
         self.format = format_of(self.path, format, option="--out-format")
         self._stack = contextlib.ExitStack()
-        self._tmp = self._stack.enter_context(atomic_output(self.path, overwrite=overwrite, inputs=inputs))
+        try:
+            self._tmp = self._stack.enter_context(atomic_output(self.path, overwrite=overwrite, inputs=inputs))
+        except BaseException:   # e.g. Ctrl-C just after the temporary file was made: remove it
+            self._stack.close()
+            raise
         self._writer = None
         self._schema = None
         self._kept: list = []
@@ -391,7 +399,8 @@ class ChunkWriter:
         if isinstance(data, pa.RecordBatch):
             data = pa.Table.from_batches([data])
         merge_text_lengths(self._text_lengths, text_lengths(data))
-        if self._added is not None:
+        if self._added is not None and not (self._late_metadata if self._writer is not None
+                                            else plain_parquet_schema(data.schema)):
             data = _plain_added(data, self._added)
         if self._writer is None:
             self._schema = data.schema
@@ -428,7 +437,9 @@ class ChunkWriter:
                 if self.format == "fits":
                     _write_fits(whole, self._tmp)
                 elif self.format == "ecsv":
-                    whole.write(self._tmp, format="ascii.ecsv", overwrite=True)
+                    from .ecsv import write_ecsv
+
+                    write_ecsv(whole, self._tmp)
                 else:
                     with warnings.catch_warnings():
                         warnings.simplefilter("ignore")

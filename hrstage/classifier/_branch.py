@@ -49,6 +49,7 @@ from ..branches import (
     EARLY_AGB,
     HORIZONTAL_BRANCH,
     NOT_GIANT,
+    POST_AGB,
     RED_CLUMP,
     RED_GIANT_BRANCH,
     TP_AGB,
@@ -94,7 +95,10 @@ T_HE_YR = 1.0e8
 #: brighten by ~0.2-0.3 dex while burning helium (from memory, e.g. Girardi 2016); the band is placed
 #: -0.10 / +0.15 dex about the fit's luminosity (the depth below is the stage map's ``hb_depth``),
 #: because at solar metallicity the HPT2000 ZAHB (log L 1.76-1.81 for 1-1.5 Msun) already sits at
-#: the clump luminosity rather than at its faint edge
+#: the clump luminosity rather than at its faint edge. Checked against MIST v1.2 at 12 Gyr, [Fe/H] =
+#: -1.35 (Choi et al. 2016): its ZAHB (log L 1.73) is 0.09 dex fainter than eq 53 for the age-limit
+#: mass, inside the band's depth; 90 % (97 %) of its core-He time, weighted by the span of initial
+#: mass, is spent within 0.06 (0.11) dex above its ZAHB, inside the band's height
 HE_BELOW_DEX = 0.10
 HE_ABOVE_DEX = 0.15
 #: stars lighter than the age-limit mass on the horizontal branch (mass lost on the RGB): the prior
@@ -118,6 +122,13 @@ LOWER_RGB_DLOGT = 0.03
 #: mass methods added by the branch work (names in ``ClassificationResult.mass_method``): the
 #: posterior mean mass of the most probable hypothesis, and g R^2 / G where log g and L are known
 BRANCH_MASS_METHODS = ("red_giant_branch", "core_he_burning", "agb", "gravity_radius")
+#: margin (in sigma) of the post-AGB tests: hotter than the AGB, lighter than M_HeF
+POST_AGB_NSIGMA = 3.0
+#: minimum log Teff excess (dex) of a post-AGB star over the hottest HPT2000 AGB locus at its L: the
+#: fits' AGB is uncertain at high L -- the PARSEC / COLIBRI TP-AGB (Bressan et al. 2012, Marigo et
+#: al. 2017; Z = 0.014 isochrones) reaches up to 0.11 dex hotter than it -- so a star must be hotter
+#: by more than that (0.15 dex, ~40 %) besides the 3-sigma margin
+POST_AGB_DLOGT = 0.15
 #: default probability needed to name a branch: more probable than the other two together
 MIN_PROB = 0.5
 
@@ -184,7 +195,15 @@ def _on_logg(logl_row, logt_row, w_row, logm):
 
 @lru_cache(maxsize=32)
 def branch_grids(feh: float = 0.0, max_age_myr: float = 13800.0) -> BranchGrids:
-    """The tabulated hypotheses at ``feh`` (clipped into the fits' Z range), cached."""
+    """The tabulated hypotheses at ``feh`` (clipped into the fits' Z range), cached in memory and
+    in the stage maps' on-disk cache (built once, memory-mapped by later runs: ``stagemap/_store``)."""
+    from ..stagemap import _store
+
+    return _store.cached_record("branchgrids", {"feh": float(feh), "max_age_myr": float(max_age_myr)},
+                                lambda: _build_branch_grids(feh, max_age_myr), BranchGrids)
+
+
+def _build_branch_grids(feh: float, max_age_myr: float) -> BranchGrids:
     z = float(clip_z(z_from_feh(float(feh)))[0])
     c = hpt.coefficients(z)
     m_hef, m_fgb = float(c.m_hef), float(c.m_fgb)
@@ -377,7 +396,7 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=1024):
 
 def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, logg=None, logg_err=None,
                     feh=None, min_prob: float = MIN_PROB, max_age_myr: float = 13800.0,
-                    giant_codes=None) -> BranchResult:
+                    giant_codes=None, independent_l=None, corr=0.0) -> BranchResult:
     """Branch of every giant-class star from its HR position (or its Kiel position when ``logg`` is given).
 
     Parameters
@@ -396,6 +415,12 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
         [Fe/H]; per-star values use the nearest 0.25-dex grid point; None = solar.
     min_prob : float
         Probability a hypothesis needs for its branch to be named (else ``unresolved``).
+    independent_l : bool or array_like of bool, optional
+        Where True (and log g is finite), L does not come from log g, so the gravity-radius mass is
+        known and a luminous star hotter than the AGB and far lighter than M_HeF is called
+        ``post_agb`` whatever its stage (see :func:`_post_agb`).
+    corr : float or array_like
+        Correlation of the log Teff and log L errors (for that mass's error).
 
     Returns
     -------
@@ -462,9 +487,62 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
     code[named & (best == 2)] = np.where(early[named & (best == 2)] >= 0.5, EARLY_AGB, TP_AGB)
     m1[~has] = np.nan
     m2[~has] = np.nan
+    if independent_l is not None:
+        post = _post_agb(logt, logl, g, st, sl, sg, corr, independent_l, groups, grid_of)
+        code[post] = POST_AGB
+        proba[post] = np.nan
+        m1[post] = np.nan
+        m2[post] = np.nan
     return BranchResult(code=code, proba=proba, mass_hyp=m1, mass_hyp_sd=m2,
                         route="kiel" if kiel.any() and not hr.any() else ("hr" if hr.any() and not kiel.any() else "mixed"),
                         kiel=kiel)
+
+
+def _post_agb(logt, logl, g, st, sl, sg, corr, independent_l, groups, grid_of):
+    """Stars that can only be post-AGB: luminous, hotter than the AGB, far too light for anything else.
+
+    Needs log g and an L independent of it (the gravity-radius mass). A star is called post-AGB when
+
+    - it is brighter than the RGB tip of the age-limit mass (HPT2000 eq 49): above it a star lighter
+      than M_HeF is on the AGB or beyond it (HPT2000's phases), anything else is heavier;
+    - it is hotter than every AGB locus at its L (eq 74, the hottest mass) by more than
+      :data:`POST_AGB_DLOGT` and by more than :data:`POST_AGB_NSIGMA` times its log Teff width
+      (the star's error floored at :data:`SIGMA_T_FLOOR`, with :data:`SIGMA_INT`);
+    - its mass g R^2 / G lies :data:`POST_AGB_NSIGMA` errors below M_HeF (HPT2000 eq 2): a star that
+      luminous and hot on any other phase (crossing to or looping from the giant branch) has to be
+      heavier than M_HeF, while a post-AGB star is the bare CO core of its progenitor, ~0.5-0.7 Msun.
+
+    Whatever the stage: the stage comes from the HR position alone, which places the hotter part
+    of the post-AGB crossing on the upper main sequence, among hot subdwarfs or nowhere; the
+    ``branch`` column then says what the mass shows. From the HR position alone (no log g) the
+    mass is unknown and these stars keep their stage's branch. Indicative: a post-RGB star (a giant
+    stripped by a companion) or a binary post-AGB star with a misjudged L look alike.
+    """
+    n = len(logt)
+    rows = np.broadcast_to(np.asarray(independent_l, dtype=bool), (n,))
+    cand = rows & np.isfinite(logt) & np.isfinite(logl) & np.isfinite(g)
+    out = np.zeros(n, dtype=bool)
+    if not cand.any():
+        return out
+    m, me = gravity_mass(logt, logl, g, st, sl, sg, corr)
+    width = np.sqrt(np.maximum(st, SIGMA_T_FLOOR) ** 2 + SIGMA_INT**2)
+    for fg, idx in groups.items():
+        ii = idx[cand[idx]]
+        if not len(ii):
+            continue
+        grids = grid_of.get(fg) or branch_grids(round(float(fg), 4))
+        k_age = min(int(np.searchsorted(grids.mass, grids.m_age)), len(grids.mass) - 1)
+        tip = grids.logl_tip[k_age]
+        with np.errstate(all="ignore"):
+            agb_hot = np.fmax.reduce(grids.logt["hr"][2], axis=0)       # hottest AGB locus per log L
+        have = np.isfinite(agb_hot)
+        if not have.any() or not np.isfinite(tip):
+            continue
+        # beyond the top of the AGB grid keep its last temperature (the AGB cools as L rises)
+        t_agb = np.interp(logl[ii], _XL[have], agb_hot[have])
+        out[ii] = ((logl[ii] > tip) & (logt[ii] - t_agb > np.maximum(POST_AGB_NSIGMA * width[ii], POST_AGB_DLOGT))
+                   & (m[ii] + POST_AGB_NSIGMA * me[ii] < grids.m_hef))
+    return out
 
 
 _HYP_WORDS = ("first-ascent red giant branch", "core-helium burning", "asymptotic giant branch")
@@ -475,6 +553,9 @@ def branch_text(b: BranchResult, i: int) -> str:
     code = int(b.code[i])
     if code == NOT_GIANT:
         return "Branch: not_giant (only giant-class stars get a branch)"
+    if code == POST_AGB:
+        return ("Branch: post_agb -- brighter than the RGB tip, hotter than every AGB locus and a gravity-"
+                "radius mass (g R^2 / G) far below M_HeF: only a bare post-AGB core fits (indicative)")
     p = b.proba[i]
     if not np.isfinite(p).all():
         return "Branch: unresolved -- no branch locus (RGB, core-He band, AGB) passes near this position"
@@ -565,9 +646,10 @@ def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_ag
         return np.broadcast_to(a.ravel() if a.size == n else a, (n,)).astype(float)
 
     g, ge = flat(logg), flat(logg_err)
+    indep = None if g is None else np.broadcast_to(np.asarray(gravity, dtype=bool), (n,))
     b = classify_branch(res.logt, res.logl, res.code, logt_err=res.logt_err, logl_err=res.logl_err,
                         logg=g, logg_err=ge, feh=res.feh_used if feh is not None and np.ndim(feh) else feh,
-                        max_age_myr=max_age_myr)
+                        max_age_myr=max_age_myr, independent_l=indep, corr=res.corr)
     res.branch = b
     supplied = MASS_METHOD_NAMES.index("supplied")
     first = MASS_METHOD_NAMES.index(BRANCH_MASS_METHODS[0])

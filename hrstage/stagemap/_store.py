@@ -46,6 +46,14 @@ ENV_SWITCH = "HRSTAGE_MAP_CACHE"
 
 _OFF = {"0", "off", "no", "false"}
 
+#: sub-folders of the cache: stage maps' rasters, and other records built from the same sources
+MAPS = "stagemaps"
+KINDS = (MAPS, "branchgrids")
+#: file names inside a keyed folder: what defined it (written when the folder is made, its time
+#: touched by every process that uses it), and a record's layout
+STAMP = "stamp.json"
+LAYOUT = "layout.json"
+
 #: package folders (relative to ``hrstage/``) and modules whose source defines a map's content
 _SOURCES = ("stagemap", "models", "classifier", "stages.py")
 
@@ -81,28 +89,100 @@ def source_hash() -> str:
     return h.hexdigest()
 
 
+def _digest(spec: dict) -> str:
+    """32 hex digits of SHA-256 over ``spec`` plus what every stored array depends on (layout
+    format, package version, source hash, numpy minor version)."""
+    full = {"format": FORMAT, "version": __version__, "source": source_hash(),
+            "numpy": ".".join(np.__version__.split(".")[:2]), **spec}
+    return hashlib.sha256(json.dumps(full, sort_keys=True, default=repr).encode()).hexdigest()[:32]
+
+
 def map_key(sm) -> str:
     """Folder name of one map's files: its [Fe/H] and a hash of everything that defines it."""
     g = sm.grid
     spec = {
-        "format": FORMAT,
-        "version": __version__,
-        "source": source_hash(),
-        "numpy": ".".join(np.__version__.split(".")[:2]),
         "grid": [g.t0, g.t1, g.l0, g.l1, g.dt, g.dl],
         "mass_factor": list(sm.mass_factor),
         "feh": round(float(sm.feh), 3),
         "params": sm.params.as_dict(),
     }
-    digest = hashlib.sha256(json.dumps(spec, sort_keys=True, default=repr).encode()).hexdigest()[:32]
-    return f"feh{float(sm.feh):+.3f}-{digest}"
+    return f"feh{float(sm.feh):+.3f}-{_digest(spec)}"
 
 
 def folder(sm) -> Path | None:
-    """The folder of one map's files, or None when the cache is off."""
+    """The folder of one map's files, or None when the cache is off (its use is recorded)."""
     if not enabled():
         return None
-    return cache_root() / "stagemaps" / map_key(sm)
+    return _mark_used(cache_root() / MAPS / map_key(sm))
+
+
+def keyed_folder(kind: str, spec: dict) -> Path | None:
+    """The folder of a set of arrays of ``kind`` (a sub-folder name of the cache, one of
+    :data:`KINDS`) defined by ``spec`` (JSON-able), or None when the cache is off."""
+    if not enabled():
+        return None
+    return _mark_used(cache_root() / kind / _digest(spec))
+
+
+def cached_record(kind: str, spec: dict, build, cls):
+    """A dataclass instance of ``cls`` whose fields are floats, arrays and dicts of arrays, from
+    the on-disk cache (arrays memory-mapped) or ``build()`` (then stored).
+
+    The record is complete once its ``layout.json`` (field kinds and the float values, written
+    last and atomically) is in place; a folder without it, or with a file that does not load, is
+    rebuilt.
+    """
+    import dataclasses
+
+    where = keyed_folder(kind, spec)
+    got = _load_record(where, cls)
+    if got is not None:
+        return got
+    rec = build()
+    if where is None:
+        return rec
+    layout, arrays = {}, {}
+    for f in dataclasses.fields(cls):
+        value = getattr(rec, f.name)
+        if isinstance(value, dict):
+            layout[f.name] = {"dict": list(value)}
+            arrays.update({f"{f.name}.{k}": v for k, v in value.items()})
+        elif isinstance(value, np.ndarray):
+            layout[f.name] = {"array": True}
+            arrays[f.name] = value
+        else:
+            layout[f.name] = {"float": float(value)}
+    stored = {name: save(where, name, np.asarray(a)) for name, a in arrays.items()}
+    if not all(isinstance(a, np.memmap) for a in stored.values()):
+        return rec                  # not writable: keep the built record in memory
+    if not _write_atomic(where, LAYOUT, json.dumps(layout, sort_keys=True).encode()):
+        return rec
+    return _load_record(where, cls) or rec
+
+
+def _load_record(where: Path | None, cls):
+    if where is None:
+        return None
+    try:
+        layout = json.loads((where / LAYOUT).read_bytes())
+    except (OSError, ValueError):
+        return None
+    kw = {}
+    try:
+        for name, kind in layout.items():
+            if "float" in kind:
+                kw[name] = float(kind["float"])
+            elif "array" in kind:
+                kw[name] = load(where, name)
+                if kw[name] is None:
+                    return None
+            else:
+                kw[name] = {k: load(where, f"{name}.{k}") for k in kind["dict"]}
+                if any(v is None for v in kw[name].values()):
+                    return None
+        return cls(**kw)
+    except (TypeError, KeyError, ValueError):   # a layout of an older shape of ``cls``
+        return None
 
 
 def load(where: Path | None, name: str, shape=None, dtype=None) -> np.ndarray | None:
@@ -143,7 +223,9 @@ def save(where: Path | None, name: str, arr: np.ndarray) -> np.ndarray:
         return arr
     tmp = None
     try:
-        where.mkdir(parents=True, exist_ok=True)
+        if not where.is_dir():
+            where.mkdir(parents=True, exist_ok=True)
+            _write_stamp(where)
         fd, tmp = tempfile.mkstemp(prefix=f".{name}-", suffix=".tmp", dir=where)
         with os.fdopen(fd, "wb") as fh:
             np.save(fh, np.ascontiguousarray(arr), allow_pickle=False)
@@ -176,3 +258,140 @@ def release(arr) -> None:
         handle.madvise(advice)
     except (OSError, ValueError):   # pragma: no cover
         pass
+
+
+# ---------------------------------------------------------------------------------------------
+# use stamps and pruning
+# ---------------------------------------------------------------------------------------------
+#: a folder not used for this long is removed by :func:`prune`, whatever its key
+IDLE_DAYS = 30.0
+#: a folder of another package version or source (a stale key) is removed once unused this long:
+#: another installation sharing the cache may still be using it
+STALE_HOURS = 24.0
+#: automatic pruning runs at most this often per cache folder (when a new folder is made)
+PRUNE_EVERY_HOURS = 24.0
+_PRUNED_STAMP = "last-prune"
+_TRASH = ".trash-"
+
+
+def _identity() -> dict:
+    return {"format": FORMAT, "version": __version__, "source": source_hash()}
+
+
+def _mark_used(where: Path) -> Path:
+    """Record that this process uses ``where`` (the stamp's modification time), once per folder and
+    process; a folder not made yet gets its stamp when its first file is stored."""
+    if where not in _USED:
+        _USED.add(where)
+        try:
+            os.utime(where / STAMP)
+        except OSError:
+            pass
+    return where
+
+
+_USED: set = set()
+
+
+def _write_atomic(where: Path, name: str, data: bytes) -> bool:
+    tmp = None
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{name}-", suffix=".tmp", dir=where)
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+        os.replace(tmp, where / name)
+        tmp = None
+        return True
+    except OSError:
+        return False
+    finally:
+        if tmp is not None:
+            try:
+                os.unlink(tmp)
+            except OSError:
+                pass
+
+
+def _write_stamp(where: Path) -> None:
+    """A new keyed folder: what defines it, then (at most once a day) prune the cache."""
+    _write_atomic(where, STAMP, json.dumps(_identity(), sort_keys=True).encode())
+    _USED.add(where)
+    maybe_prune()
+
+
+def maybe_prune(now: float | None = None) -> list:
+    """:func:`prune` if the last pruning of this cache folder is older than
+    :data:`PRUNE_EVERY_HOURS` (or never happened); returns the folders removed."""
+    import time
+
+    root = cache_root()
+    now = time.time() if now is None else now
+    mark = root / _PRUNED_STAMP
+    try:
+        if now - mark.stat().st_mtime < PRUNE_EVERY_HOURS * 3600.0:
+            return []
+    except OSError:
+        pass
+    try:
+        root.mkdir(parents=True, exist_ok=True)
+        mark.touch()
+        os.utime(mark, (now, now))
+    except OSError:
+        return []
+    return prune(now=now)
+
+
+def prune(*, idle_days: float = IDLE_DAYS, stale_hours: float = STALE_HOURS, now: float | None = None) -> list:
+    """Remove cache folders that no current run needs; returns the paths removed.
+
+    A keyed folder goes when it has not been used for ``idle_days`` (any key), or when it was made
+    by another package version, another source of the map-building code or another storage format
+    and has not been used for ``stale_hours`` (folders without a stamp, from before stamps, count
+    as stale, aged by their own modification time). Left-overs of interrupted removals go too.
+
+    Safe while other processes use the cache: a folder is first renamed (atomically) out of the
+    lookup path, then deleted. A process that already mapped its files keeps reading them (on
+    POSIX an unlinked file lives until its last mapping closes); one that looks it up afterwards
+    finds nothing and builds the map again. A folder used within ``stale_hours`` is never removed,
+    so an installation of another version running at the same time keeps its maps.
+    """
+    import shutil
+    import time
+
+    now = time.time() if now is None else now
+    root = cache_root()
+    me = _identity()
+    removed = []
+    for kind in KINDS:
+        base = root / kind
+        try:
+            entries = list(base.iterdir())
+        except OSError:
+            continue
+        for entry in entries:
+            if entry.name.startswith(_TRASH):
+                shutil.rmtree(entry, ignore_errors=True)
+                continue
+            if not entry.is_dir() or entry.name.startswith("."):
+                continue
+            stamp = entry / STAMP
+            try:
+                used = stamp.stat().st_mtime
+                ident = json.loads(stamp.read_bytes())
+            except (OSError, ValueError):
+                try:
+                    used, ident = entry.stat().st_mtime, None
+                except OSError:
+                    continue
+            idle_h = (now - used) / 3600.0
+            if idle_h < stale_hours or (ident == me and idle_h < 24.0 * idle_days):
+                continue
+            trash = base / f"{_TRASH}{entry.name}-{os.getpid()}"
+            try:
+                os.replace(entry, trash)
+            except OSError:     # another process pruned or refreshed it first
+                continue
+            shutil.rmtree(trash, ignore_errors=True)
+            _USED.discard(entry)
+            removed.append(entry)
+    return removed

@@ -76,3 +76,39 @@ def test_parquet_properties_only_input():
     schema = pa.schema([("a", pa.float64()), ("b", pa.int64())])
     assert parquet_properties(schema, added=[]) == {"use_dictionary": ["a", "b"], "write_statistics": ["a", "b"]}
     assert parquet_properties(schema, added=["a", "b"]) == {"use_dictionary": False, "write_statistics": False}
+
+
+def test_dictionary_columns_written_as_they_are_give_the_same_file(tmp_path, monkeypatch):
+    """Plain schema: our Arrow dictionary columns go to the Parquet writer without a cast to
+    strings; the file is byte for byte the one written from the cast (dense) strings, whose
+    dictionary pyarrow's encoder builds itself (first-appearance order, as ours)."""
+    rng = np.random.default_rng(8)
+    words = np.array(["main_sequence", "giant", "white_dwarf", "subgiant", ""], dtype=object)
+
+    def chunk(n):
+        codes = rng.integers(0, 5, n)
+        _, first = np.unique(codes, return_index=True)
+        order = np.argsort(first)                 # dictionary in order of first appearance
+        rank = np.empty(5, dtype=np.int32)
+        rank[np.unique(codes)[order]] = np.arange(order.size)
+        d = pa.DictionaryArray.from_arrays(pa.array(rank[codes]), pa.array(list(words[np.unique(codes)[order]])))
+        return pa.table({"teff": rng.uniform(3000, 9000, n), "stage": d})
+
+    chunks = [chunk(n) for n in (400, 1, 250)]
+    as_is, cast = tmp_path / "as_is.parquet", tmp_path / "cast.parquet"
+    import hrstage.catalog.streaming as streaming
+
+    casts = []
+    real = streaming._plain_added
+    monkeypatch.setattr(streaming, "_plain_added", lambda *a: casts.append(1) or real(*a))
+    with ChunkWriter(as_is, added=["stage"], added_dictionary=["stage"]) as w:
+        for c in chunks:
+            w.write(c)
+    assert not casts                              # handed over as they are
+    with ChunkWriter(cast, added=["stage"], added_dictionary=["stage"]) as w:
+        for c in chunks:
+            w.write(c.set_column(1, "stage", c.column("stage").cast(pa.string())))
+    assert as_is.read_bytes() == cast.read_bytes()
+    back = pq.read_table(as_is)
+    assert back.schema.field("stage").type == pa.string()
+    assert back.column("stage").to_pylist() == sum((c.column("stage").to_pylist() for c in chunks), [])

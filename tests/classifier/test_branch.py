@@ -71,3 +71,29 @@ def test_grid_is_physical():
     # RGB tips (HPT2000 eq 49) of low-mass stars at log L ~3.4
     tips = g.logl_tip[(g.mass > 1.0) & (g.mass < 1.5)]
     assert np.all((tips > 3.3) & (tips < 3.5))
+
+
+def test_post_agb_needs_mass_heat_and_luminosity():
+    # a 0.6 Msun star (a bare CO core, the usual post-AGB mass: common practice) at log L 3.6,
+    # above every HPT2000 RGB tip (log L 3.44 at solar Z), at 6000 and 10000 K; the same position
+    # with a 6 Msun gravity mass (an intermediate-mass star crossing); 0.6 Msun at 3800 K (on the
+    # AGB); 0.6 Msun at 6000 K but log L 2.5 (below the tip: a post-RGB or HB star could be there)
+    teff = np.array([6000.0, 10000.0, 6000.0, 3800.0, 6000.0])
+    ll = np.array([3.6, 3.6, 3.6, 3.6, 2.5])
+    mass = np.array([0.6, 0.6, 6.0, 0.6, 0.6])
+    lt = np.log10(teff)
+    lg = LOGG_SUN + np.log10(mass) + 4 * (lt - np.log10(5772.0)) - ll   # g = G M / R^2
+    r = classify_hr(lt, ll, logg=lg, feh=0.0, logt_err=0.01, logl_err=0.05, logg_err=0.2)
+    br = r.branch.branch.tolist()
+    assert br[:2] == ["post_agb", "post_agb"]
+    assert br[2] != "post_agb" and br[3] != "post_agb" and br[4] != "post_agb"
+    assert np.isnan(r.branch.branch_prob[0]) and np.isnan(r.branch.proba[0]).all()
+    assert r.mass[0] == pytest.approx(0.6, rel=1e-6)      # gravity_radius mass kept
+    from hrstage.classifier._branch import branch_text
+    assert branch_text(r.branch, 0).startswith("Branch: post_agb")
+    # a gravity mass too uncertain to be far below M_HeF (log g error 0.5 dex): no label
+    r = classify_hr(lt[:1], ll[:1], logg=lg[:1], feh=0.0, logt_err=0.01, logl_err=0.05, logg_err=0.5)
+    assert r.branch.branch[0] != "post_agb"
+    # from the HR position alone the mass is unknown: never post_agb
+    r = classify_hr(lt, ll, feh=0.0, logt_err=0.01, logl_err=0.05)
+    assert "post_agb" not in r.branch.branch.tolist()

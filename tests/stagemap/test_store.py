@@ -174,3 +174,112 @@ def test_concurrent_writers(cache):
     assert not [n for n in names if n.endswith(".tmp")]
     sm = StageMap(-1.25)
     assert isinstance(sm.raw.flat, np.memmap)
+
+
+# ---------------------------------------------------------------------------------------------
+# records (giant-branch grids) and pruning
+# ---------------------------------------------------------------------------------------------
+def _grids_equal(a, b):
+    import dataclasses
+
+    for f in dataclasses.fields(a):
+        x, y = getattr(a, f.name), getattr(b, f.name)
+        if isinstance(x, dict):
+            assert x.keys() == y.keys(), f.name
+            for k in x:
+                assert np.array_equal(x[k], y[k], equal_nan=True), (f.name, k)
+        elif isinstance(x, np.ndarray):
+            assert np.array_equal(x, y, equal_nan=True), f.name
+        else:
+            assert x == y, f.name
+
+
+def test_branch_grids_restored_are_the_built_grids(cache):
+    from hrstage.classifier import _branch
+
+    ref = _branch._build_branch_grids(-0.4, 13800.0)
+    _branch.branch_grids.cache_clear()
+    built = _branch.branch_grids(-0.4)                 # builds and stores
+    assert (cache / "branchgrids").is_dir()
+    _branch.branch_grids.cache_clear()
+    restored = _branch.branch_grids(-0.4)              # from the files
+    assert isinstance(restored.logt["kiel"], np.memmap) and isinstance(restored.mass, np.memmap)
+    _grids_equal(built, ref)
+    _grids_equal(restored, ref)
+    _branch.branch_grids.cache_clear()
+
+
+def test_branch_grid_record_without_layout_is_rebuilt(cache):
+    from hrstage.classifier import _branch
+
+    _branch.branch_grids.cache_clear()
+    _branch.branch_grids(0.25)
+    (layout,) = (cache / "branchgrids").rglob(_store.LAYOUT)
+    layout.unlink()                       # as if a writer died before finishing the record
+    _branch.branch_grids.cache_clear()
+    again = _branch.branch_grids(0.25)
+    assert layout.exists()
+    _grids_equal(again, _branch._build_branch_grids(0.25, 13800.0))
+    _branch.branch_grids.cache_clear()
+
+
+def _age(folder, hours, now):
+    t = now - hours * 3600.0
+    os.utime(folder / _store.STAMP if (folder / _store.STAMP).exists() else folder, (t, t))
+
+
+def test_prune_removes_stale_and_idle_folders_only(cache):
+    import json
+    import time
+
+    now = time.time()
+    base = cache / _store.MAPS
+    current = StageMap(0.5)._store                      # this version's map, just used
+    old_current = StageMap(-0.5)._store                 # this version's map, idle for long
+    other_recent = base / "feh+0.000-otherversionrecent"
+    other_old = base / "feh+0.000-otherversionold"
+    legacy = base / "feh+0.000-nostampatall"
+    for f in (other_recent, other_old):
+        f.mkdir(parents=True)
+        (f / _store.STAMP).write_text(json.dumps({"format": _store.FORMAT, "version": "0.0.1", "source": "x"}))
+        (f / "codes.npy").write_bytes(b"x")
+    legacy.mkdir()
+    (legacy / "codes.npy").write_bytes(b"x")
+    _age(other_recent, 2.0, now)                        # used two hours ago by another version
+    _age(other_old, _store.STALE_HOURS + 1, now)
+    _age(legacy, _store.STALE_HOURS + 1, now)
+    _age(old_current, 24.0 * _store.IDLE_DAYS + 1, now)
+    removed = set(_store.prune(now=now))
+    assert removed == {other_old, legacy, old_current}
+    assert current.is_dir() and other_recent.is_dir()
+    assert not any(p.name.startswith(".trash") for p in base.iterdir())
+
+
+def test_pruned_map_stays_readable_by_a_process_that_mapped_it(cache):
+    """A process that memory-mapped a map keeps reading it after another process pruned the folder
+    (POSIX: an unlinked file lives until its last mapping closes); a new lookup rebuilds it."""
+    import time
+
+    if os.name != "posix":
+        pytest.skip("unlinking a mapped file is a POSIX guarantee")
+    first = StageMap(0.3)
+    codes_before = np.array(first.codes.flat)
+    where = first._store
+    _age(where, 24.0 * _store.IDLE_DAYS + 1, time.time())
+    assert where in _store.prune()
+    assert not where.exists()
+    assert np.array_equal(np.asarray(first.codes.flat), codes_before)     # still mapped, same bytes
+    again = StageMap(0.3)                                                  # rebuilt and stored again
+    assert np.array_equal(np.asarray(again.codes.flat), codes_before)
+    assert where.is_dir()
+
+
+def test_automatic_pruning_at_most_once_a_day(cache, monkeypatch):
+    calls = []
+    monkeypatch.setattr(_store, "prune", lambda **kw: calls.append(kw) or [])
+    now = 1.0e9
+    _store.maybe_prune(now=now)
+    _store.maybe_prune(now=now + 3600.0)
+    assert len(calls) == 1
+    _store.maybe_prune(now=now + _store.PRUNE_EVERY_HOURS * 3600.0 + 1)
+    assert len(calls) == 2
