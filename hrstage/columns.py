@@ -33,7 +33,7 @@ _COLUMNS = [
         for s in STAGES
     ],
     # giant branch (hrstage.branches); not_giant for the other stages
-    OutputColumn("branch", "U", None, "Giant branch: red giant branch, red clump, horizontal branch, early / thermally pulsing AGB, post-AGB (needs log g), unresolved (indicative)", "src.class"),
+    OutputColumn("branch", "U", None, "Giant branch: red giant branch, red clump, horizontal branch, blue loop, early / thermally pulsing AGB, post-AGB (needs log g), unresolved (indicative)", "src.class"),
     OutputColumn("branch_prob", "f4", None, "Probability of the named branch's phase (hypotheses weighed over a Kroupa-IMF, constant-star-formation population)", "stat.probability"),
     *[
         OutputColumn(f"prob_{h}", "f4", None, f"Probability that the giant is {w}", "stat.probability")

@@ -44,7 +44,9 @@ from functools import lru_cache
 import numpy as np
 
 from ..branches import (
+    BLUE_LOOP,
     BRANCHES,
+    CORE_HE_BRANCHES,
     HYPOTHESES,
     EARLY_AGB,
     HORIZONTAL_BRANCH,
@@ -111,7 +113,10 @@ HE_ABOVE_DEX = 0.15
 #: calibrated.
 HB_MASS_LOSS = 0.3
 #: [Fe/H] at or below which a core-He burner is called horizontal branch rather than red clump,
-#: and the Teff from which it is (common practice: the clump is the metal-rich red end of the HB)
+#: and the Teff from which it is (common practice: the clump is the metal-rich red end of the HB).
+#: Both apply only to stars whose core-He-burning mass lies below M_HeF (a degenerate helium flash,
+#: HPT2000 eq 2): a heavier core-He burner hotter than HB_TEFF_MIN is on its blue loop (common
+#: practice: intermediate-mass stars loop blueward during core-helium burning), never on the HB.
 HB_FEH_MAX = -1.0
 HB_TEFF_MIN = 5500.0
 #: a subgiant-stage star brighter than the base of the giant branch of the oldest stars (the
@@ -122,6 +127,13 @@ LOWER_RGB_DLOGT = 0.03
 #: mass methods added by the branch work (names in ``ClassificationResult.mass_method``): the
 #: posterior mean mass of the most probable hypothesis, and g R^2 / G where log g and L are known
 BRANCH_MASS_METHODS = ("red_giant_branch", "core_he_burning", "agb", "gravity_radius")
+#: a giant farther than this (in combined log Teff errors, floors included) from every weighted locus
+#: point of the three hypotheses gets no branch (``unresolved``): it sits where the loci do not
+#: reach (the Hertzsprung gap of intermediate-mass stars, blue loops hotter than the core-He band,
+#: the Cepheid strip). Our choice, checked on outside data: APOKASC-3 RGB/RC stars lie within 2.5 sigma
+#: (99th percentile), MIST [Fe/H] = -1.35 phases 2-5 within 5 sigma, PARSEC Z = 0.014 core-He phases
+#: 4-6 within 8 sigma; a 6000 K star at log L 3 (solar) is 18 sigma away.
+OFF_LOCUS_NSIGMA = 8.0
 #: margin (in sigma) of the post-AGB tests: hotter than the AGB, lighter than M_HeF
 POST_AGB_NSIGMA = 3.0
 #: minimum log Teff excess (dex) of a post-AGB star over the hottest HPT2000 AGB locus at its L: the
@@ -304,6 +316,9 @@ class BranchResult:
     route: str
     #: per star: True where the Kiel position (log g) was used
     kiel: np.ndarray | None = None
+    #: per star: distance in log Teff, in combined errors, to the nearest weighted locus point of
+    #: any hypothesis (inf where none is near); a giant farther than OFF_LOCUS_NSIGMA gets no branch
+    off_locus: np.ndarray | None = None
 
     @property
     def mass_core_he(self) -> np.ndarray:
@@ -329,7 +344,7 @@ class BranchResult:
         """Probability of the named branch's hypothesis (NaN for unresolved / not giant)."""
         hyp = np.full(len(self.code), -1)
         hyp[self.code == RED_GIANT_BRANCH] = 0
-        hyp[np.isin(self.code, (RED_CLUMP, HORIZONTAL_BRANCH))] = 1
+        hyp[np.isin(self.code, CORE_HE_BRANCHES)] = 1
         hyp[np.isin(self.code, (EARLY_AGB, TP_AGB))] = 2
         out = np.full(len(self.code), np.nan)
         ok = hyp >= 0
@@ -350,6 +365,7 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=1024):
     m1 = np.full((n, N_HYP), np.nan)
     m2 = np.full((n, N_HYP), np.nan)
     early = np.zeros(n)
+    near = np.full(n, np.inf)
     pos_all = (x - xg[0]) / (xg[1] - xg[0])
     order = np.argsort(np.where(np.isfinite(pos_all), pos_all, np.inf), kind="stable")
     for a in range(0, n, chunk):
@@ -378,7 +394,9 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=1024):
             sl = S[h][ks][:, i]
             var = s2obs + (sl * sxr) ** 2
             d = ltr - tt
-            like = np.where(np.isfinite(d) & ok, w * np.exp(-0.5 * d * d / var) / np.sqrt(var), 0.0)
+            z2 = d * d / var
+            like = np.where(np.isfinite(d) & ok, w * np.exp(-0.5 * z2) / np.sqrt(var), 0.0)
+            near[rows] = np.minimum(near[rows], np.min(np.where(like > 0, z2, np.inf), axis=0, initial=np.inf))
             tot = like.sum(axis=0)
             ev[rows, h] = tot
             mass = grids.mass[ks][:, None]
@@ -391,7 +409,7 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=1024):
                     ll = lg[:, i] * (1 - fr) + lg[:, i + 1] * fr
                     ltp = grids.logl_tp[ks][:, None]
                     early[rows] = np.where(tot > 0, (like * (ll < ltp)).sum(axis=0) / tot, 0.0)
-    return ev, m1, m2, early
+    return ev, m1, m2, early, np.sqrt(near)
 
 
 def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, logg=None, logg_err=None,
@@ -446,6 +464,7 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
     m1 = np.full((n, N_HYP), np.nan)
     m2 = np.full((n, N_HYP), np.nan)
     early = np.zeros(n)
+    near = np.full(n, np.inf)
     feh_used, groups, _ = _group_feh(feh, n)
     grid_of = {}
     for fg, idx in groups.items():
@@ -464,8 +483,8 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
             if len(ii):
                 # huge (finite) errors: the variance overflows to inf and the star gets no evidence
                 with np.errstate(over="ignore", invalid="ignore", under="ignore"):
-                    e, a, b, ea = _evaluate(grids, route, x[ii], logt[ii], sx[ii], st[ii])
-                ev[ii], m1[ii], m2[ii], early[ii] = e, a, b, ea
+                    e, a, b, ea, nz = _evaluate(grids, route, x[ii], logt[ii], sx[ii], st[ii])
+                ev[ii], m1[ii], m2[ii], early[ii], near[ii] = e, a, b, ea, nz
     tot = ev.sum(axis=1)
     proba = np.full((n, N_HYP), np.nan)
     has = eligible & (tot > 0)
@@ -474,16 +493,24 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
     code[eligible] = UNRESOLVED
     best = np.argmax(np.nan_to_num(proba, nan=-1.0), axis=1)
     pbest = np.nan_to_num(proba[np.arange(n), best], nan=0.0)
-    named = has & (pbest >= min_prob)
+    named = has & (pbest >= min_prob) & ~(near > OFF_LOCUS_NSIGMA)
     teff = 10.0**logt
     fehv = np.broadcast_to(np.asarray(feh_used, float), (n,))
-    hb = (fehv <= HB_FEH_MAX) | (teff >= HB_TEFF_MIN)
+    # horizontal branch vs blue loop: the core-He hypothesis' mass against M_HeF of the star's [Fe/H]
+    m_hef = np.full(n, np.nan)
+    for fg, idx in groups.items():
+        m_hef[idx] = grid_of[fg].m_hef
+    heavy = m1[:, 1] >= m_hef           # NaN (no core-He evidence) counts as light
+    hot = teff >= HB_TEFF_MIN
+    loop = hot & heavy
+    hb = ((fehv <= HB_FEH_MAX) | hot) & ~heavy
     code[named & (best == 0)] = RED_GIANT_BRANCH
     # Kiel route: a red clump must also be inside the Bovy et al. 2014 box (within its [Fe/H] range)
     in_cal = (fehv >= bovy2014.FEH_RANGE[0]) & (fehv <= bovy2014.FEH_RANGE[1])
-    outside_box = kiel & in_cal & ~hb & ~bovy2014.in_clump_box(teff, g, fehv)
+    outside_box = kiel & in_cal & ~hb & ~loop & ~bovy2014.in_clump_box(teff, g, fehv)
     named &= ~((best == 1) & outside_box)
-    code[named & (best == 1)] = np.where(hb[named & (best == 1)], HORIZONTAL_BRANCH, RED_CLUMP)
+    he = named & (best == 1)
+    code[he] = np.where(hb[he], HORIZONTAL_BRANCH, np.where(loop[he], BLUE_LOOP, RED_CLUMP))
     code[named & (best == 2)] = np.where(early[named & (best == 2)] >= 0.5, EARLY_AGB, TP_AGB)
     m1[~has] = np.nan
     m2[~has] = np.nan
@@ -493,7 +520,7 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
         proba[post] = np.nan
         m1[post] = np.nan
         m2[post] = np.nan
-    return BranchResult(code=code, proba=proba, mass_hyp=m1, mass_hyp_sd=m2,
+    return BranchResult(code=code, proba=proba, mass_hyp=m1, mass_hyp_sd=m2, off_locus=near,
                         route="kiel" if kiel.any() and not hr.any() else ("hr" if hr.any() and not kiel.any() else "mixed"),
                         kiel=kiel)
 
@@ -559,6 +586,10 @@ def branch_text(b: BranchResult, i: int) -> str:
     p = b.proba[i]
     if not np.isfinite(p).all():
         return "Branch: unresolved -- no branch locus (RGB, core-He band, AGB) passes near this position"
+    if b.off_locus is not None and b.off_locus[i] > OFF_LOCUS_NSIGMA:
+        return (f"Branch: unresolved -- {b.off_locus[i]:.0f} sigma in Teff from the nearest branch locus (RGB, "
+                "core-He band, AGB): a position the loci do not reach (Hertzsprung gap, blue loop, "
+                "instability strip)")
     route = "Kiel position (Teff, log g)" if b.kiel is not None and b.kiel[i] else "HR position (Teff, L)"
     probs = ", ".join(f"{w} {q:.2f}" for w, q in zip(_HYP_WORDS, p))
     return (f"Branch: {BRANCHES[code]} -- from the {route}: {probs} (HPT2000 loci weighed over a Kroupa-IMF, "

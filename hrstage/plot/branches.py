@@ -24,6 +24,7 @@ BRANCH_COLOURS = {
     "red_giant_branch": "#c0392b",
     "red_clump": "#d4a017",
     "horizontal_branch": "#2e8b57",
+    "blue_loop": "#17a589",
     "early_agb": "#4a90d9",
     "thermally_pulsing_agb": "#1f3f8f",
     "post_agb": "#8e44ad",

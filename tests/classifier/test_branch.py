@@ -97,3 +97,32 @@ def test_post_agb_needs_mass_heat_and_luminosity():
     # from the HR position alone the mass is unknown: never post_agb
     r = classify_hr(lt, ll, feh=0.0, logt_err=0.01, logl_err=0.05)
     assert "post_agb" not in r.branch.branch.tolist()
+
+
+def test_no_branch_far_from_every_locus():
+    # a yellow luminous star (6000-7000 K, log L 3.0-3.3, solar Z) sits in the Hertzsprung gap /
+    # instability strip of intermediate-mass stars, tens of sigma hotter than every HPT2000 giant,
+    # core-He and AGB locus at its L (measured 18-30 sigma): no branch is named (it used to be the
+    # "least far" hypothesis, red_giant_branch), and explain says why
+    from hrstage.classifier._branch import OFF_LOCUS_NSIGMA, branch_text
+
+    lt, ll = np.log10([6000.0, 7000.0, 4650.0]), [3.0, 3.3, 1.78]
+    r = classify_hr(lt, ll, feh=0.0)
+    b = r.branch
+    assert b.branch.tolist()[:2] == ["unresolved", "unresolved"]
+    assert np.all(b.off_locus[:2] > OFF_LOCUS_NSIGMA) and b.off_locus[2] < 3
+    assert b.branch[2] == "red_clump"
+    assert "sigma in Teff from the nearest branch locus" in branch_text(b, 0)
+
+
+def test_horizontal_branch_only_below_the_helium_flash_mass():
+    # the label horizontal_branch is for core-He burners lighter than M_HeF (degenerate ignition,
+    # HPT2000 eq 2); a heavier core-He burner hotter than the clump is on its blue loop
+    from hrstage.branches import BLUE_LOOP, CORE_HE_BRANCHES, HORIZONTAL_BRANCH
+
+    assert BRANCHES[BLUE_LOOP] == "blue_loop" and BLUE_LOOP in CORE_HE_BRANCHES
+    # metal-poor HB star: 7000 K, log L 1.7 at [Fe/H] = -1.5 (common practice: the HB of old
+    # metal-poor clusters lies at log L ~1.6-1.8)
+    r = classify_hr(np.log10([7000.0]), [1.7], feh=-1.5)
+    assert r.branch.code[0] == HORIZONTAL_BRANCH
+    assert r.branch.mass_core_he[0] < branch_grids(-1.5).m_hef
