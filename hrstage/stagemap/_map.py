@@ -52,6 +52,10 @@ FEH_HELD_MAX = 0.5
 
 #: lowest log Teff of the main-sequence extension below 0.1 Msun
 LOGT_MS_EXTENSION = 3.36
+#: log Teff from which the subdwarf region has no depth limit (down to the white-dwarf band): 7500 K,
+#: the A-type range where the sdA stars begin (Kepler et al. 2016, MNRAS 455, 3413: sdA stars at
+#: 7000-20000 K and log g 5.5-6.5; from memory)
+LOGT_SUBDWARF_DOWN_TO_WD = float(np.log10(7500.0))
 
 #: mass-estimate method of each stage (index = stage code)
 MASS_METHODS = (
@@ -429,10 +433,15 @@ class StageMap:
         # subdwarfs and hot subdwarfs: under the MS lower edge
         t_hsd = np.log10(np.asarray(p.hot_subdwarf_teff))
         tt = np.linspace(LOGT_MS_EXTENSION, t_hsd[0], 120)
+        k = np.searchsorted(tt, LOGT_SUBDWARF_DOWN_TO_WD)
+        tt = np.r_[tt[:k], np.nextafter(LOGT_SUBDWARF_DOWN_TO_WD, -np.inf), LOGT_SUBDWARF_DOWN_TO_WD, tt[k:]]
         upper = self.ms_lower_at(tt)
         lower = upper - p.subdwarf_depth
         wd_up = np.where(tt >= self._logt_wd_min, self.wd_edge(tt, "upper"), -np.inf)
-        lower = np.maximum(lower, wd_up)
+        # hotter than LOGT_SUBDWARF_DOWN_TO_WD the subdwarf region reaches down to the white-dwarf band:
+        # there the stars under the main sequence are compact (sdA stars, pre-/extremely-low-mass
+        # white dwarfs, blue horizontal-branch stars), not metal-poor dwarfs, and no depth limit applies
+        lower = np.where(tt >= LOGT_SUBDWARF_DOWN_TO_WD, wd_up, np.maximum(lower, wd_up))
         keep = lower < upper
         polys.append((SUBDWARF, np.c_[np.r_[tt[keep], tt[keep][::-1]], np.r_[upper[keep], lower[keep][::-1]]]))
         th = np.linspace(t_hsd[0], t_hsd[1], 40)

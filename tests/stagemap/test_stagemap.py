@@ -217,3 +217,27 @@ def test_free_run_raster_is_conservative():
         assert (c[j, i - kx : i + kx + 1] == c[j, i]).all()
         assert (c[j - ky : j + ky + 1, i] == c[j, i]).all()
     assert (v & 15).mean() > 2  # and it is not trivially zero
+
+
+def test_no_hole_between_white_dwarfs_and_main_sequence_for_hot_stars():
+    # sdA stars and pre-/extremely-low-mass white dwarfs: 7000-20000 K, log g 5.5-6.5, ~0.15-0.4 Msun
+    # (Kepler et al. 2016, MNRAS 455, 3413; from memory). L = M (g_sun / g) (T / T_sun)^4 with the
+    # IAU 2015 nominal Sun (log g_sun 4.438, T_sun 5772 K). They used to fall in a gap between the
+    # subdwarf region (1.2 dex under the main sequence) and the white-dwarf band.
+    from hrstage.classifier import classify_hr
+
+    t = np.array([8000.0, 10000.0, 12000.0, 15000.0, 18000.0])
+    for m, logg in ((0.2, 5.5), (0.2, 5.8), (0.3, 5.6)):
+        logl = np.log10(m) + 4.438 - logg + 4 * np.log10(t / 5772.0)
+        st = classify_hr(np.log10(t), logl, feh=0.0).stage
+        assert np.all(np.isin(st, ("subdwarf", "white_dwarf"))), (m, logg, st)
+    # every cell from 7500 K to the hot-subdwarf box, between the white-dwarf band and the main
+    # sequence, has a stage
+    sm = stage_map(0.0)
+    lt = np.linspace(np.log10(7600.0), np.log10(19500.0), 40)
+    for x in lt:
+        lo = float(sm.wd_edge(x, "lower"))
+        hi = float(sm.ms_lower_at(x))
+        ll = np.linspace(lo + 0.02, hi - 0.02, 30)
+        st = classify_hr(np.full_like(ll, x), ll, feh=0.0).stage
+        assert not np.any(st == "unclassified"), (x, ll[st == "unclassified"])
