@@ -34,14 +34,19 @@ def _dir_from_env(var: str) -> Path | None:
     return Path(value)
 
 
+def _data_dir(var: str, what: str) -> Path:
+    """The folder named by ``var``: skip when unset, fail when set to something that is not a folder."""
+    path = _dir_from_env(var)
+    if path is None:
+        pytest.skip(f"{var} is not set: {what} not available")
+    if not path.is_dir():
+        pytest.fail(f"{var}={path} is set but is not a directory")
+    return path
+
+
 @pytest.fixture(scope="session")
 def validation_dir() -> Path:
-    path = _dir_from_env("HRSTAGE_VALIDATION_DIR")
-    if path is None:
-        pytest.skip("HRSTAGE_VALIDATION_DIR is not set: external validation data not available")
-    if not path.is_dir():
-        pytest.fail(f"HRSTAGE_VALIDATION_DIR={path} is set but is not a directory")
-    return path
+    return _data_dir("HRSTAGE_VALIDATION_DIR", "external validation data")
 
 
 @pytest.fixture(scope="session")
@@ -60,19 +65,9 @@ def validation_file(validation_dir):
 @pytest.fixture(scope="session")
 def models_dir() -> Path:
     """The shared published model grids (HRSTAGE_MODELS_DIR, set by .ci/run)."""
-    path = _dir_from_env("HRSTAGE_MODELS_DIR")
-    if path is None:
-        pytest.skip("HRSTAGE_MODELS_DIR is not set: published model grids not available")
-    if not path.is_dir():
-        pytest.fail(f"HRSTAGE_MODELS_DIR={path} is set but is not a directory")
-    return path
+    return _data_dir("HRSTAGE_MODELS_DIR", "published model grids")
 
 
 @pytest.fixture(scope="session")
 def calibration_dir() -> Path:
-    path = _dir_from_env("HRSTAGE_CALIBRATION_DIR")
-    if path is None:
-        pytest.skip("HRSTAGE_CALIBRATION_DIR is not set: spectral-type calibration tables not available")
-    if not path.is_dir():
-        pytest.fail(f"HRSTAGE_CALIBRATION_DIR={path} is set but is not a directory")
-    return path
+    return _data_dir("HRSTAGE_CALIBRATION_DIR", "spectral-type calibration tables")

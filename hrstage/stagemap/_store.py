@@ -221,24 +221,15 @@ def save(where: Path | None, name: str, arr: np.ndarray) -> np.ndarray:
     can drop its own), or ``arr`` itself when it cannot be stored."""
     if where is None:
         return arr
-    tmp = None
     try:
         if not where.is_dir():
             where.mkdir(parents=True, exist_ok=True)
             _write_stamp(where)
-        fd, tmp = tempfile.mkstemp(prefix=f".{name}-", suffix=".tmp", dir=where)
-        with os.fdopen(fd, "wb") as fh:
-            np.save(fh, np.ascontiguousarray(arr), allow_pickle=False)
-        os.replace(tmp, where / f"{name}.npy")
-        tmp = None
     except OSError:
         return arr
-    finally:
-        if tmp is not None:
-            try:
-                os.unlink(tmp)
-            except OSError:
-                pass
+    if not _write_atomic(where, f"{name}.npy",
+                         lambda fh: np.save(fh, np.ascontiguousarray(arr), allow_pickle=False)):
+        return arr
     got = load(where, name, arr.shape, arr.dtype)
     return arr if got is None else got
 
@@ -293,12 +284,14 @@ def _mark_used(where: Path) -> Path:
 _USED: set = set()
 
 
-def _write_atomic(where: Path, name: str, data: bytes) -> bool:
+def _write_atomic(where: Path, name: str, data) -> bool:
+    """Write ``name`` in ``where`` through a temporary file and a rename; ``data`` is bytes or a
+    function that writes to the open file. False (nothing left behind) on any OS error."""
     tmp = None
     try:
         fd, tmp = tempfile.mkstemp(prefix=f".{name}-", suffix=".tmp", dir=where)
         with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
+            data(fh) if callable(data) else fh.write(data)
         os.replace(tmp, where / name)
         tmp = None
         return True
