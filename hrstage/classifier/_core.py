@@ -17,6 +17,7 @@ from ..models.metallicity import Z_MAX, Z_MIN, feh_from_z
 from ..stages import (
     BRIGHT_GIANT,
     GIANT,
+    HOT_SUBDWARF,
     LABELS,
     MAIN_SEQUENCE,
     PRE_MAIN_SEQUENCE,
@@ -110,12 +111,29 @@ def _as_array(x, name, shape=None):
 MASS_METHOD_NAMES = tuple(MASS_METHODS) + (HB_MASS_METHOD, "none", "supplied") + BRANCH_MASS_METHODS
 _M_HB, _M_NONE, _M_SUPPLIED = len(MASS_METHODS), len(MASS_METHODS) + 1, len(MASS_METHODS) + 2
 #: base-reason keys beyond the stage codes
-_B_HB, _B_NOPOS, _B_OFFMAP, _B_HAYASHI, _B_YOUNGZONE = (N_STAGES + k for k in range(5))
+_B_HB, _B_NOPOS, _B_OFFMAP, _B_HAYASHI, _B_YOUNGZONE, _B_BARECORE, _B_STRIPPED = (N_STAGES + k for k in range(7))
+
+#: reason of a hot subdwarf that is a bare stellar core left of the main sequence (post-AGB or post-EHB)
+_BARECORE_REASON = (
+    "Hot subdwarf (bare stellar core, indicative): hotter than the main sequence, between the white-dwarf band "
+    "and log L {lmax:.2f}; at log L {lmin:.2f}-{lmax:.2f} the constant-luminosity crossing of a post-AGB star "
+    "(central star of a planetary nebula) with a 0.53-1.0 Msun CO core (HPT2000 eq 37; Miller Bertolami 2016, "
+    "A&A 588, A25 tracks), hotter than {hhi:.0f} K and fainter a post-AGB star fading towards the white-dwarf "
+    "band, a post-extreme-horizontal-branch sdO star or a hot pre-white dwarf; only a spectrum (nebula, H/He "
+    "lines, log g) tells them apart"
+)
+#: reason of a supergiant left of the main sequence
+_STRIPPED_REASON = (
+    "Supergiant (stripped massive star, indicative): hotter than the main-sequence lower edge and brighter "
+    "than any post-AGB star (log L > {lmax:.2f}, HPT2000 eq 37 at a 1.0 Msun CO core): a Wolf-Rayet star or "
+    "helium star that lost its hydrogen envelope, labelled supergiant by its luminosity (no mass: the "
+    "post-main-sequence luminosity-mass relation does not hold for helium stars)"
+)
 
 
 def _base_table(maps) -> np.ndarray:
-    """Object table (n_maps, N_STAGES + 5) of the base reason of every stage / special key per map."""
-    tab = np.empty((len(maps), N_STAGES + 5), dtype=object)
+    """Object table (n_maps, N_STAGES + 7) of the base reason of every stage / special key per map."""
+    tab = np.empty((len(maps), N_STAGES + 7), dtype=object)
     for g, sm in enumerate(maps):
         p = sm.params
         for k, s in enumerate(STAGES):
@@ -123,6 +141,9 @@ def _base_table(maps) -> np.ndarray:
                 age=p.max_age_myr / 1e3, bgw=p.bright_giant_width, msg=sm.m_sg, wmin=p.wd_mass_min,
                 wmax=p.wd_mass_max, hlo=p.hot_subdwarf_teff[0], hhi=p.hot_subdwarf_teff[1], bo=p.binary_offset)
         tab[g, _B_HB] = _HB_REASON.format(dep=p.hb_depth, hgt=p.hb_height)
+        tab[g, _B_BARECORE] = _BARECORE_REASON.format(lmin=sm.logl_post_agb_min, lmax=sm.logl_post_agb_max,
+                                                      hhi=p.hot_subdwarf_teff[1])
+        tab[g, _B_STRIPPED] = _STRIPPED_REASON.format(lmax=sm.logl_post_agb_max)
         tab[g, _B_NOPOS] = "Unclassified: no position"
         tab[g, _B_OFFMAP] = "Unclassified: outside the map (log Teff 3.30-5.30, log L -6..7)"
         tab[g, _B_YOUNGZONE] = (f"Pre-main sequence: more than {p.binary_offset:g} dex above the main-sequence upper "
@@ -1049,6 +1070,19 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
             proba[ii, UNCLASSIFIED] = 1.0
             mass_est[ii] = np.where(sup[ii], msup[ii], np.nan)
             mcode[ii] = np.where(sup[ii], _M_SUPPLIED, _M_NONE)
+    # bare cores (hot subdwarfs hotter than the hot-subdwarf box or as bright as a post-AGB crossing) and
+    # stripped massive stars (supergiants left of the main sequence): their own reasons
+    hs_ = finite & (code == HOT_SUBDWARF)
+    sg_ = finite & (code == SUPERGIANT)
+    if hs_.any() or sg_.any():
+        for g, sm in enumerate(maps):
+            ii = np.nonzero((hs_ | sg_) & (group == g))[0]
+            if not len(ii):
+                continue
+            core = hs_[ii] & ((logt[ii] > np.log10(sm.params.hot_subdwarf_teff[1]))
+                              | (logl[ii] >= sm.logl_post_agb_min))
+            base_key[ii[core]] = _B_BARECORE
+            base_key[ii[sg_[ii] & sm.stripped_massive(logt[ii], logl[ii])]] = _B_STRIPPED
     # off the map
     lk = maps[0].grid if maps else stage_map(0.0, **stage_kw).grid
     out = finite & (code == UNCLASSIFIED) & ((logt < lk.t0) | (logt > lk.t1) | (logl < lk.l0) | (logl > lk.l1))

@@ -9,6 +9,7 @@ import numpy as np
 
 from ..errors import HrstageInputError
 from ..models import hpt2000 as hpt
+from ..models.hpt2000.core_mass import luminosity_from_mc
 from ..models.stellar import LOGG_SUN
 from ..models.metallicity import clip_z, feh_from_z, z_from_feh
 from ..stages import (
@@ -52,10 +53,27 @@ FEH_HELD_MAX = 0.5
 
 #: lowest log Teff of the main-sequence extension below 0.1 Msun
 LOGT_MS_EXTENSION = 3.36
-#: log Teff from which the subdwarf region has no depth limit (down to the white-dwarf band): 7500 K,
-#: the A-type range where the sdA stars begin (Kepler et al. 2016, MNRAS 455, 3413: sdA stars at
-#: 7000-20000 K and log g 5.5-6.5; from memory)
-LOGT_SUBDWARF_DOWN_TO_WD = float(np.log10(7500.0))
+#: log Teff from which the subdwarf region has no depth limit (down to the white-dwarf band): 6000 K.
+#: Between the metal-poor dwarfs (at most `subdwarf_depth` under the main sequence) and the white-dwarf
+#: band only compact stars live: the sdA stars (H-rich, log g 5.5-6.5 below 20 000 K: Kepler et al.
+#: 2016, MNRAS 455, 3413, range as quoted by Hermes, Gaensicke & Breedt 2017, ASP Conf. Ser. 509, 453)
+#: and the (pre-)extremely-low-mass white dwarfs among them, radii smaller than any main-sequence
+#: star's (Pelisoli et al. 2018, MNRAS 475, 2480; 2019, MNRAS 482, 3831), which contract through
+#: 6000-7500 K on their way to the cooling track (He-core proto-white-dwarf tracks, e.g. Althaus,
+#: Miller Bertolami & Corsico 2013, A&A 557, A19: from memory)
+LOGT_SUBDWARF_DOWN_TO_WD = float(np.log10(6000.0))
+
+#: heaviest carbon-oxygen core (Msun) a post-AGB star can have: the most massive CO white dwarfs
+#: made by single stars, ~1.0-1.05 Msun (heavier cores ignite carbon: ONe white dwarfs, HPT2000
+#: section 6.1; value from memory). Its core-mass--luminosity (HPT2000 eq 37, the AGB luminosity
+#: a post-AGB star keeps while it heats up at constant L) gives the top of the post-AGB region,
+#: log L = 4.48; above it, left of the main sequence, only stripped massive stars (Wolf-Rayet)
+POST_AGB_MC_MAX = 1.0
+#: lightest CO core (Msun) of a post-AGB star: the lowest final mass of the Miller Bertolami 2016 solar-
+#: metallicity post-AGB tracks (A&A 588, A25; value from memory, CSPN final masses 0.53-0.58 Msun are
+#: typical, Gesicki et al. 2016 from those tracks); its HPT2000 eq 37 luminosity, log L 3.65, is the
+#: faintest constant-luminosity post-AGB crossing
+POST_AGB_MC_MIN = 0.53
 
 #: mass-estimate method of each stage (index = stage code)
 MASS_METHODS = (
@@ -310,6 +328,11 @@ class StageMap:
         self._logt_wd_min = float(np.log10(p.wd_teff_min))
         self._hb_band = self._hb_edges()
         self._old_branch, self._hayashi = self._pms_edges()
+        #: top (log L) of the post-AGB region left of the main sequence: core-mass--luminosity
+        #: relation (HPT2000 eq 37) at POST_AGB_MC_MAX
+        self.logl_post_agb_max = float(np.log10(luminosity_from_mc(POST_AGB_MC_MAX, POST_AGB_MC_MAX, self.z)))
+        #: faintest constant-luminosity post-AGB crossing (HPT2000 eq 37 at POST_AGB_MC_MIN)
+        self.logl_post_agb_min = float(np.log10(luminosity_from_mc(POST_AGB_MC_MIN, POST_AGB_MC_MIN, self.z)))
 
     def _pms_edges(self):
         """Edges of the pre-main-sequence region: the oldest population's subgiant + giant branch and
@@ -418,6 +441,16 @@ class StageMap:
         elm = np.log10(p.wd_mass_min) + LOGG_SUN - p.wd_elm_logg + 4 * (logt - LOG_TSUN)
         return np.where(logt < np.log10(p.hot_subdwarf_teff[0]), np.maximum(up, elm), up)
 
+    def stripped_massive(self, logt, logl) -> np.ndarray:
+        """True where (logt, logl) lies hotter than the main-sequence lower edge and brighter than the
+        post-AGB limit ``logl_post_agb_max``: the stripped massive stars (Wolf-Rayet, helium stars)."""
+        logt = np.asarray(logt, dtype=float)
+        logl = np.asarray(logl, dtype=float)
+        t, l = self._ms_lower
+        top = l >= self.logl_post_agb_max - 0.5     # the monotone upper part of the edge
+        with np.errstate(invalid="ignore"):
+            return (logl >= self.logl_post_agb_max) & (logt > np.interp(logl, l[top], t[top]))
+
     def ms_lower_at(self, logt):
         """log L of the lower edge of the main-sequence band (ZAMS - ms_below_zams) at logt."""
         t, l = self._ms_lower
@@ -430,8 +463,22 @@ class StageMap:
         cold = g.t0 - 0.01
         hot = g.t1 + 0.01
         polys = []
-        # subdwarfs and hot subdwarfs: under the MS lower edge
+        # left of the main sequence and hotter than the hot-subdwarf box, above the white-dwarf band,
+        # up to the post-AGB luminosity limit: bare cores heating up or contracting towards the
+        # white-dwarf band -- post-AGB stars / central stars of planetary nebulae (log L above ~2.5)
+        # and post-extreme-horizontal-branch sdO stars (below); labelled hot subdwarf (the
+        # classifier says which in its reason). Painted first: every other region paints over it.
         t_hsd = np.log10(np.asarray(p.hot_subdwarf_teff))
+        l_pagb = self.logl_post_agb_max
+        tp = np.linspace(t_hsd[1], hot, 60)
+        wd_tp = self.wd_edge(tp, "upper")
+        keep = wd_tp < l_pagb
+        polys.append((HOT_SUBDWARF, np.c_[np.r_[tp[keep], tp[keep][::-1]],
+                                          np.r_[np.full(keep.sum(), l_pagb), wd_tp[keep][::-1]]]))
+        # above it, hotter than the hot-subdwarf box's cool edge: stripped massive stars (Wolf-Rayet,
+        # helium stars), labelled supergiant by luminosity; the main sequence paints over its part
+        polys.append((SUPERGIANT, np.c_[[t_hsd[0], hot, hot, t_hsd[0]], [l_pagb, l_pagb, top, top]]))
+        # subdwarfs and hot subdwarfs: under the MS lower edge
         tt = np.linspace(LOGT_MS_EXTENSION, t_hsd[0], 120)
         k = np.searchsorted(tt, LOGT_SUBDWARF_DOWN_TO_WD)
         tt = np.r_[tt[:k], np.nextafter(LOGT_SUBDWARF_DOWN_TO_WD, -np.inf), LOGT_SUBDWARF_DOWN_TO_WD, tt[k:]]
@@ -445,7 +492,9 @@ class StageMap:
         keep = lower < upper
         polys.append((SUBDWARF, np.c_[np.r_[tt[keep], tt[keep][::-1]], np.r_[upper[keep], lower[keep][::-1]]]))
         th = np.linspace(t_hsd[0], t_hsd[1], 40)
-        polys.append((HOT_SUBDWARF, np.c_[np.r_[th, th[::-1]], np.r_[self.ms_lower_at(th), self.wd_edge(th, "upper")[::-1]]]))
+        # (no higher than the post-AGB limit: brighter stars left of the main sequence are massive)
+        th_top = np.fmin(self.ms_lower_at(th), l_pagb)
+        polys.append((HOT_SUBDWARF, np.c_[np.r_[th, th[::-1]], np.r_[th_top, self.wd_edge(th, "upper")[::-1]]]))
         tw = np.unique(np.r_[np.linspace(self._logt_wd_min, hot, 60), LOGT_WD_HOT])
         polys.append((WHITE_DWARF, np.c_[np.r_[tw, tw[::-1]], np.r_[self.wd_edge(tw, "upper"), self.wd_edge(tw, "lower")[::-1]]]))
         # giants: cooler than the end of the Hertzsprung gap, masses m_age .. M_sg
@@ -571,6 +620,9 @@ class StageMap:
         ):
             sel = is_[code]
             mass[sel] = src[sel]
+        # stripped massive stars (supergiants left of the main sequence): the post-MS luminosity-mass
+        # relation of normal massive stars does not apply to helium stars: no mass
+        mass[is_[SUPERGIANT] & self.stripped_massive(ct[None, :], cl[:, None])] = np.nan
         # bright giants without a giant-branch solution: luminosity relation
         fallback = is_[BRIGHT_GIANT] & ~np.isfinite(mass)
         mass[fallback] = sg_raster[fallback]

@@ -137,6 +137,8 @@ def _ref_mass(sm, raw):
     ):
         sel = codes == code
         mass[sel] = src[sel]
+    # supergiants left of the main sequence (stripped massive stars): no mass
+    mass[(codes == SUPERGIANT) & sm.stripped_massive(ct[None, :], cl[:, None])] = np.nan
     fallback = (codes == BRIGHT_GIANT) & ~np.isfinite(mass)
     mass[fallback] = sg_raster[fallback]
     rawc = raw[fy // 2 :: fy, fx // 2 :: fx][: cg.ny, : cg.nx]
