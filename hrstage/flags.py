@@ -18,6 +18,7 @@ METALLICITY_CLIPPED = 1 << 4    #: [Fe/H] outside -2.3..+0.5 (Z 1e-4..0.063), cl
 NO_METALLICITY = 1 << 5         #: no [Fe/H] given, solar assumed
 LOW_PROBABILITY = 1 << 6        #: best stage has probability < 0.6
 YOUNG_OR_EVOLVED = 1 << 7       #: position shared by young (pre-main-sequence) and evolved stars
+HB_OR_MAIN_SEQUENCE = 1 << 18   #: metal-poor position shared by blue horizontal-branch and main-sequence stars
 # --- derived inputs (layer 5) -------------------------------------------------------------
 LOW_PARALLAX_SNR = 1 << 8       #: parallax_over_error below the threshold: distance unreliable
 NONPOSITIVE_PARALLAX = 1 << 9   #: parallax <= 0: no distance, no luminosity
@@ -43,6 +44,8 @@ DESCRIPTIONS = {
     NO_METALLICITY: "no [Fe/H]; solar metallicity assumed",
     LOW_PROBABILITY: "label uncertain (best stage probability < 0.6)",
     YOUNG_OR_EVOLVED: "young (pre-main-sequence) or evolved: the HR position cannot tell them apart",
+    HB_OR_MAIN_SEQUENCE: "blue horizontal branch or main sequence: at this metallicity the core-helium-burning band "
+                         "overlaps the main sequence and the HR position cannot tell them apart (log g can)",
     LOW_PARALLAX_SNR: "parallax signal-to-noise below threshold: luminosity unreliable",
     NONPOSITIVE_PARALLAX: "zero or negative parallax: no distance, no luminosity",
     COLOUR_OUT_OF_RANGE: "colour outside the calibrated range of the colour-Teff relation",

@@ -682,6 +682,9 @@ def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_ag
 
     g, ge = flat(logg), flat(logg_err)
     indep = None if g is None else np.broadcast_to(np.asarray(gravity, dtype=bool), (n,))
+    if g is not None:   # blue horizontal branch or main sequence: the gravity-radius mass decides
+        from ._core import resolve_hb_or_ms
+        resolve_hb_or_ms(res, g, ge, indep)
     b = classify_branch(res.logt, res.logl, res.code, logt_err=res.logt_err, logl_err=res.logl_err,
                         logg=g, logg_err=ge, feh=res.feh_used if feh is not None and np.ndim(feh) else feh,
                         max_age_myr=max_age_myr, independent_l=indep, corr=res.corr)

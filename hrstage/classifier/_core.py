@@ -46,7 +46,13 @@ OPTIONS = {
     "near_logl": 0.02,            # dex
     "low_probability": 0.6,       # stage_prob below this sets LOW_PROBABILITY
     "mass_check_ratio": 2.0,      # supplied vs position mass disagreement noted in the reason
+    "hb_share": 0.4,              # share of horizontal-branch stars where the metal-poor HB band overlaps the MS
 }
+
+#: highest [Fe/H] of a map on which the core-helium-burning band's overlap with the main sequence is
+#: reported (HB_OR_MAIN_SEQUENCE): the blue horizontal branch is a metal-poor feature (the giant-branch
+#: code names horizontal_branch below the same [Fe/H], classifier/_branch.py HB_FEH_MAX)
+HB_OVERLAP_FEH_MAX = -1.0
 
 _BASE_REASON = {
     "main_sequence": "between the main-sequence lower edge (ZAMS) and upper edge (TAMS / {age} Gyr position)",
@@ -189,6 +195,8 @@ class ClassificationResult:
     mass_ms_lum: np.ndarray
     flags: np.ndarray
     n_draws: int
+    #: share of horizontal-branch stars assumed where the metal-poor HB band overlaps the main sequence
+    hb_share: float = OPTIONS["hb_share"]
     _notes: list = field(default_factory=list, repr=False)
     _base_key: np.ndarray | None = field(default=None, repr=False)
     _group: np.ndarray | None = field(default=None, repr=False)
@@ -916,6 +924,36 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         drew = True  # probabilities are no longer one-hot at the label
     F.or_flag(flags, young_or_ev, F.YOUNG_OR_EVOLVED)
 
+    # blue horizontal branch or main sequence: on metal-poor maps the core-He-burning band (HPT2000
+    # ZAHB, eq 53) overlaps the upper main sequence hotter than ~7500-10000 K; an A/B star there is a
+    # BHB star or a main-sequence star (in the halo: a blue straggler). Both get their probability:
+    # the HB share is the option hb_share (label main_sequence unless it is > 0.5)
+    hb_or_ms = np.zeros(n, dtype=bool)
+    hs = opts["hb_share"]
+    for g, sm in enumerate(maps):
+        if sm.feh_used > HB_OVERLAP_FEH_MAX or sm._hb_band is None:
+            continue
+        ii = np.nonzero(finite & (code == MAIN_SEQUENCE) & (group == g))[0]
+        if not len(ii):
+            continue
+        ht, hlo, hhi = sm._hb_band
+        x = logt[ii]
+        inside = (x >= ht[0]) & (x <= ht[-1]) & (logl[ii] >= np.interp(x, ht, hlo)) & (logl[ii] <= np.interp(x, ht, hhi))
+        hb_or_ms[ii[inside]] = True
+        if hs > 0.5:   # labelled horizontal branch: the typical current mass of a ZAHB star of that Teff
+            mass_est[ii[inside]] = sm._hb_mass(x[inside])
+            mass_err[ii[inside]] = np.nan
+    if hb_or_ms.any():
+        hi_ = np.nonzero(hb_or_ms)[0]
+        moved = hs * proba[hi_, MAIN_SEQUENCE]
+        proba[hi_, MAIN_SEQUENCE] -= moved
+        proba[hi_, GIANT] += moved
+        if hs > 0.5:
+            code[hi_] = GIANT
+            rawc[hi_] = np.int8(GIANT | RAW_HB)
+        drew = True
+    F.or_flag(flags, hb_or_ms, F.HB_OR_MAIN_SEQUENCE)
+
     # per-row metallicity outside the fits (array input): clipped onto the grid, flagged
     if feh is not None and np.ndim(feh):
         fa = np.broadcast_to(np.asarray(feh, dtype=float).ravel(), (n,))
@@ -1015,6 +1053,12 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
                          + ("a young target list" if yp > 0.5 else "a field population") + f", else {STAGES[a]})",
         len(ii), (code[ii], None), (np.where(code[ii] == PRE_MAIN_SEQUENCE, zone_alt[ii], PRE_MAIN_SEQUENCE), None),
         (proba[ii, PRE_MAIN_SEQUENCE], ".2f")))
+    note("2hbms", hb_or_ms, lambda ii: format_codes(
+        lambda k, pg: f"blue horizontal branch or main sequence: inside the core-helium-burning band (HPT2000 "
+                      f"zero-age horizontal branch) where it overlaps the main sequence at this [Fe/H]; labelled "
+                      f"{STAGES[k]} with P(giant, horizontal branch)={pg:.2f} (hb_share={hs:g}: halo A stars are "
+                      "blue stragglers and BHB stars in comparable numbers); log g separates them",
+        len(ii), (code[ii], None), (proba[ii, GIANT], ".2f")))
     ex = (rawc & RAW_EXTRAPOLATED) != 0
     F.or_flag(flags, ex, F.OUTSIDE_VALIDITY)
     note("3extrap", ex, lambda ii: format_codes(
@@ -1098,9 +1142,65 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     return ClassificationResult(
         logt=logt, logl=logl, logt_err=st, logl_err=sl, corr=rho, feh_used=feh_used, code=code, proba=proba,
         mass=mass_est, mass_err=mass_err, mass_code=mcode, mass_ms_teff=m_teff,
-        mass_ms_lum=m_lum, flags=flags, n_draws=n_draws, _notes=[(i, b) for _, i, b in sorted(notes, key=lambda x: x[0])], _base_key=base_key, _group=group,
+        mass_ms_lum=m_lum, flags=flags, n_draws=n_draws, hb_share=hs, _notes=[(i, b) for _, i, b in sorted(notes, key=lambda x: x[0])], _base_key=base_key, _group=group,
         _maps=maps, _teff=teff,
     )
+
+
+#: spread (dex) of a mass hypothesis when log g decides between the blue horizontal branch and the main
+#: sequence: ZAHB stars of 0.5-0.7 Msun around the typical mass of their Teff (HPT2000 ZAHB band), and
+#: the main-sequence mass at the star's Teff (our choice)
+HB_MS_LOGM_SPREAD = 0.1
+
+
+def resolve_hb_or_ms(res, logg, logg_err, rows) -> None:
+    """Where log g and an independent L are known, let the gravity-radius mass decide between the blue
+    horizontal branch and the main sequence for the stars flagged ``HB_OR_MAIN_SEQUENCE`` (in place).
+
+    ``M = g R^2 / G`` against the two hypotheses in log M: the typical ZAHB mass at the star's Teff
+    (``StageMap._hb_mass``, ~0.5-0.7 Msun) and the ZAMS mass of its Teff (A/B main-sequence stars are
+    2-5 Msun); Gaussian in log M with the propagated error and :data:`HB_MS_LOGM_SPREAD`, weighted by
+    ``hb_share`` as prior. The label is the more probable one.
+    """
+    from ._branch import gravity_mass
+
+    n = len(res.code)
+    cand = ((res.flags & F.HB_OR_MAIN_SEQUENCE) != 0) & np.broadcast_to(np.asarray(rows, bool), (n,))
+    g = np.broadcast_to(np.asarray(logg, float), (n,))
+    cand &= np.isfinite(g)
+    if not cand.any() or not res._maps:
+        return
+    ii = np.nonzero(cand)[0]
+    ge = np.zeros(len(ii)) if logg_err is None else np.nan_to_num(np.broadcast_to(np.asarray(logg_err, float), (n,))[ii])
+    m, me = gravity_mass(res.logt[ii], res.logl[ii], g[ii], res.logt_err[ii], res.logl_err[ii], ge, res.corr[ii])
+    m_hb = np.empty(len(ii))
+    for k, sm in enumerate(res._maps):
+        s = res._group[ii] == k
+        if s.any():
+            m_hb[s] = sm._hb_mass(res.logt[ii[s]])
+    m_ms = res.mass_ms_teff[ii]
+    s2 = (me / (m * np.log(10.0))) ** 2 + HB_MS_LOGM_SPREAD**2
+    lm = np.log10(m)
+    hs = res.hb_share
+    with np.errstate(all="ignore"):
+        d_hb = -0.5 * (lm - np.log10(m_hb)) ** 2 / s2
+        d_ms = -0.5 * (lm - np.log10(m_ms)) ** 2 / s2
+        top = np.maximum(d_hb, d_ms)
+        w_hb = hs * np.exp(d_hb - top)
+        w_ms = (1.0 - hs) * np.exp(d_ms - top)
+        p_hb = w_hb / (w_hb + w_ms)
+    ok = np.isfinite(p_hb)
+    ii, p_hb = ii[ok], p_hb[ok]
+    both = res.proba[ii, MAIN_SEQUENCE] + res.proba[ii, GIANT]
+    res.proba[ii, GIANT] = p_hb * both
+    res.proba[ii, MAIN_SEQUENCE] = (1.0 - p_hb) * both
+    hb = p_hb > 0.5
+    res.code[ii] = np.where(hb, GIANT, MAIN_SEQUENCE).astype(res.code.dtype)
+    if res._base_key is not None:
+        res._base_key[ii] = np.where(hb, _B_HB, MAIN_SEQUENCE)
+    res._reason = None
+    res._flag_text = None
+    res._built_notes = None
 
 
 def estimate_mass(logt, logl, *, feh=None, mass=None, **params):

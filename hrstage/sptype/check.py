@@ -81,8 +81,8 @@ _STAGE_STEP = {"subdwarf": 0, "main_sequence": 1, "subgiant": 2, "giant": 3, "br
 #: stage check of the kinds with no MK calibration: (expected stages, excluded stages); an HR
 #: stage in neither set leaves the type not checkable ("stage_undecided"). Our choices, from the
 #: usual places of these families on the HR diagram (common practice): WR stars are evolved massive
-#: stars (but H-rich WNh stars still burn hydrogen, and hot WR stars lie left of the ZAMS, outside
-#: the stage map), carbon and S stars are AGB/giant-branch stars (dwarf carbon stars excepted).
+#: stars (but H-rich WNh stars still burn hydrogen; hot WR stars left of the ZAMS are labelled
+#: supergiant, the stage map's stripped massive stars), carbon and S stars are AGB/giant-branch stars (dwarf carbon stars excepted).
 _STAGE_RULES = {
     "white_dwarf": ({"white_dwarf"}, {"main_sequence", "subgiant", "giant", "bright_giant", "supergiant",
                                       "subdwarf", "pre_main_sequence"}),

@@ -124,3 +124,41 @@ def test_metal_poor_dwarfs_stay_on_the_main_sequence(validation_file):
     sel = (ph == 0) & (t > np.log10(6000.0)) & (t < np.log10(7500.0))
     assert sel.sum() > 10
     assert (classify_hr(t[sel], l[sel], feh=-1.35).stage == "main_sequence").all()
+
+
+def _position(teff, logg, mass):
+    # L = M (g_sun / g) (T / T_sun)^4 (Stefan-Boltzmann with R^2 = G M / g; IAU 2015 nominal Sun)
+    teff = np.asarray(teff, float)
+    return np.log10(teff), np.log10(mass) + LOG_G_SUN - np.asarray(logg, float) + 4 * np.log10(teff / T_SUN)
+
+
+def test_metal_poor_blue_horizontal_branch_or_main_sequence():
+    # blue horizontal-branch stars: ~0.6 Msun, log g 3.5-3.8 at 9500-12000 K (the halo BHB samples,
+    # e.g. Xue et al. 2008, ApJ 684, 1143, select log g < 3.75 there; values from memory); A-type
+    # main-sequence stars / blue stragglers of 2.0-2.4 Msun at log g 4.1-4.2 (common practice). On
+    # (Teff, L) alone they share positions on a metal-poor map: both probabilities and a flag.
+    from astropy.table import Table
+
+    import hrstage
+    from hrstage import flags as F
+
+    teff = np.array([10000.0, 10500.0, 11000.0, 10000.0, 10500.0, 11000.0])
+    logg = np.array([3.60, 3.70, 3.80, 4.20, 4.15, 4.10])
+    mass = np.array([0.6, 0.6, 0.6, 2.3, 2.2, 2.0])
+    lt, ll = _position(teff, logg, mass)
+    r = classify_hr(lt, ll, feh=-1.6)
+    assert ((r.flags & F.HB_OR_MAIN_SEQUENCE) != 0).all(), r.flags
+    assert (r.stage == "main_sequence").all()
+    assert np.allclose(r.proba[:, 2], 0.4) and np.allclose(r.proba[:, 0], 0.6)   # hb_share = 0.4
+    assert all("blue horizontal branch or main sequence" in s for s in r.reason)
+    # a larger share (a halo BHB target list) labels them giant (horizontal branch) with the ZAHB mass
+    r2 = classify_hr(lt, ll, feh=-1.6, hb_share=0.8)
+    assert (r2.stage == "giant").all() and (r2.mass < 0.9).all()
+    # at solar metallicity the overlap is not reported (no blue horizontal branch there)
+    assert not (classify_hr(lt, ll, feh=0.0).flags & F.HB_OR_MAIN_SEQUENCE).any()
+    # with log g and an independent L the gravity-radius mass separates them (Kiel route)
+    t = hrstage.classify(Table({"teff": teff, "lum": 10.0**ll, "logg": logg, "feh": np.full(6, -1.6)}))
+    st = np.asarray(t["stage"]).astype(str)
+    assert list(st) == ["giant"] * 3 + ["main_sequence"] * 3, st
+    assert (np.asarray(t["branch"]).astype(str)[:3] == "horizontal_branch").all()
+    assert (np.asarray(t["prob_giant"])[:3] > 0.95).all() and (np.asarray(t["prob_giant"])[3:] < 0.05).all()

@@ -59,9 +59,9 @@ def _run(types, positions, **kw):
         ("C5,4", (np.log10(3000.0), 3.8), "consistent", ""),
         ("C5,4", (np.log10(4500.0), -0.6), "stage_conflict", ""),
         ("S4/1III", (np.log10(3300.0), 3.4), "consistent", ""),   # S giant on the AGB (from memory)
-        # a hot WR star lies left of the ZAMS, outside every stage region: undecided, not a pass
+        # a hot WR star lies left of the ZAMS, in the stripped-massive-star region (supergiant): consistent
         # (60 kK, log L 5.6: a typical WN star, from memory)
-        ("WN7", (np.log10(60000.0), 5.6), "not_checkable:stage_undecided", ""),
+        ("WN7", (np.log10(60000.0), 5.6), "consistent", ""),
         ("WC8", SUN, "stage_conflict", ""),
         # cool subdwarf: calibration passes (fainter than V), but a white-dwarf position is excluded
         # (4500 K at log L -0.9 and -3.6: positions from memory)
