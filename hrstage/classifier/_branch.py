@@ -16,8 +16,9 @@ Three hypotheses are weighed for every giant-class star (stage ``giant`` or ``br
 Each hypothesis is a family of loci, one per stellar mass. The weight of a locus point is the
 number of stars expected there in a population with the Kroupa (2001) initial mass function and
 a constant star-formation rate up to ``max_age_myr``: ``xi(M) dM`` times the time spent per dex
-(shell burning, :mod:`hrstage.models.shell_burning`, on the RGB and AGB; :data:`T_HE_YR` spread
-over the core-He band). The probability of a hypothesis is the sum over its loci of weight times
+(hydrogen-shell burning, :mod:`hrstage.models.shell_burning`, on the RGB; on the AGB the same,
+shortened by the faster core growth of helium burning, HPT2000 eqs 68 and 71; :data:`T_HE_YR`
+spread over the core-He band). The probability of a hypothesis is the sum over its loci of weight times
 a Gaussian in log Teff about the locus at the star's log L (HR route) or log g (Kiel route). Its
 width is the star's log Teff error, floored at :data:`SIGMA_T_FLOOR`, with :data:`SIGMA_INT` for
 the relations themselves added in quadrature, and the star's log L / log g error widened by
@@ -59,7 +60,7 @@ from ..branches import (
 )
 from ..models import hpt2000 as hpt
 from ..models import bovy2014, kroupa2001, shell_burning
-from ..models.hpt2000.core_mass import luminosity_from_mc, mc_from_luminosity, mc_tpagb
+from ..models.hpt2000.core_mass import agb_time_factor, luminosity_from_mc, mc_from_luminosity, mc_tpagb
 from ..models.metallicity import clip_z, z_from_feh
 from ..models.stellar import LOGG_SUN, TEFF_SUN
 from ..stages import BRIGHT_GIANT, GIANT, SUBGIANT
@@ -276,7 +277,10 @@ def _build_branch_grids(feh: float, max_age_myr: float) -> BranchGrids:
         inside = (age_ok & np.isfinite(top_he))[:, None] & (_XL > top_he[:, None]) & (_XL <= 4.6)
         r_a = hpt.r_agb(MM, LL, z)
         logt[2] = np.where(inside, _logt_from_lr(_XL, r_a), np.nan)
-        weight[2] = np.where(inside, (xi * dm)[:, None] * shell_burning.years_per_dex(LL, mc), 0.0)
+        # time per dex: the RGB's at the same L and core mass, shortened by the faster core growth of
+        # helium burning (HPT2000 eqs 68, 71; see agb_time_factor)
+        fac = agb_time_factor(shell_burning.A_H, _XL[None, :] >= l_tp[:, None])
+        weight[2] = np.where(inside, (xi * dm)[:, None] * shell_burning.years_per_dex(LL, mc) * fac, 0.0)
     weight[~np.isfinite(weight) | ~np.isfinite(logt)] = 0.0
     logt[weight <= 0] = np.nan
     logl_hr = np.broadcast_to(_XL, logt.shape)

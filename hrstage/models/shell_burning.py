@@ -31,6 +31,9 @@ X_H = 0.7
 _MSUN_G = const.M_sun.cgs.value
 _LSUN_CGS = const.L_sun.cgs.value
 _YEAR_S = u.yr.to(u.s)
+#: the core growth rate this implies, dMc/dt = A L with A = 1 / (X Q), in Msun per Lsun per Myr
+#: (1.36e-5; Hurley, Pols & Tout 2000 fit A_H = 1.58e-5 for low-mass giants)
+A_H = _LSUN_CGS * 1.0e6 * _YEAR_S / (X_H * Q_H * _MSUN_G)
 
 
 def years_per_dex(lum, mc, p=6.0) -> np.ndarray:
@@ -45,4 +48,4 @@ def years_per_dex(lum, mc, p=6.0) -> np.ndarray:
     return np.where(ok, val / _YEAR_S, np.nan)
 
 
-__all__ = ["years_per_dex", "Q_H", "X_H"]
+__all__ = ["years_per_dex", "Q_H", "X_H", "A_H"]

@@ -33,6 +33,22 @@ def test_shell_burning_rate():
     y = shell_burning.years_per_dex(50.0, 0.35)
     assert y == pytest.approx(np.log(10) * 0.35 / (6 * 50 * rate), rel=1e-3)
     assert 1e8 < y < 4e8
+    # the same rate as HPT2000's dMc/dt = A L: A = 1 / (X Q) = 1.36e-5 Msun / Lsun / Myr, near the
+    # fits' A_H = 10^-4.8 = 1.58e-5 for low-mass giants (HPT2000 section 5.2)
+    assert shell_burning.A_H == pytest.approx(rate * 1e6, rel=1e-3)
+    assert shell_burning.A_H == pytest.approx(10**-4.8, rel=0.15)
+
+
+def test_agb_time_factor():
+    from hrstage.models.hpt2000.core_mass import A_HE, agb_time_factor
+
+    # HPT2000 eq 68: A_He = 7.66e-5 Msun / Lsun / Myr (helium burning: ~0.6 MeV per nucleon-mass of
+    # 12C against ~6.4 for 4 H -> He, common practice, so 5-6x the core growth per unit L)
+    assert A_HE == pytest.approx(7.66e-5)
+    e, tp = agb_time_factor(1.36e-5, [False, True])
+    assert e == pytest.approx(1.36 / 7.66, rel=1e-6)   # early AGB: A_H / A_He
+    # eq 71: A_H,He = A_H A_He / (A_H + A_He) on the thermally pulsing AGB
+    assert tp == pytest.approx(1.36e-5 / (1.36e-5 * 7.66e-5 / (1.36e-5 + 7.66e-5)), rel=1e-6)
 
 
 def test_core_mass_relation():

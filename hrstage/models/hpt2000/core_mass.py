@@ -70,4 +70,27 @@ def mc_tpagb(mc_bagb) -> np.ndarray:
     return np.where(x > 0, np.where(x > 0.8, 0.44 * x + 0.448, x), np.nan)
 
 
-__all__ = ["mc_from_luminosity", "luminosity_from_mc", "mc_tpagb", "P_LOW", "Q_LOW"]
+#: rate of core growth by helium-shell burning on the early AGB, dMc/dt = A_He L (HPT2000 eq 68;
+#: Msun per Lsun per Myr): 5-6x the hydrogen-burning rate A_H of a low-mass giant (HPT2000 section
+#: 5.2: A_H = 10^-4.8 = 1.58e-5 below ~1.1 Msun), because helium burning releases about 1/7 of the
+#: energy per gram that hydrogen burning does
+A_HE = 7.66e-5
+
+
+def agb_time_factor(a_h, thermally_pulsing) -> np.ndarray:
+    """Time an AGB star spends per dex of L over that of a first-ascent giant at the same L and core mass.
+
+    Both follow the same core-mass--luminosity relation (eq 37, HPT2000 use it on the AGB with the
+    CO-core mass), so the times per dex scale inversely with the core growth rate: ``a_h / A_He`` on
+    the early AGB (eq 68: the CO core grows by helium burning) and ``a_h / A_H,He = 1 + a_h / A_He``
+    on the thermally pulsing AGB (eq 71, ``A_H,He = A_H A_He / (A_H + A_He)``: the two shells
+    alternate). ``a_h`` is the hydrogen-burning rate of the giant-branch model it is compared with
+    (Msun / Lsun / Myr). For 1.36e-5 (``1 / (X Q)``, :mod:`hrstage.models.shell_burning`): 0.18 and
+    1.18.
+    """
+    a_h = np.asarray(a_h, dtype=float)
+    return np.where(np.asarray(thermally_pulsing, dtype=bool), 1.0 + a_h / A_HE, a_h / A_HE)
+
+
+__all__ = ["mc_from_luminosity", "luminosity_from_mc", "mc_tpagb", "agb_time_factor", "A_HE",
+           "P_LOW", "Q_LOW"]
