@@ -50,15 +50,17 @@ SUBDWARF_SIGMA_BC = 0.10
 _EDGE_SLOPE = 3.3
 _SQRT2 = math.sqrt(2.0)
 
+#: the complementary error function of the standard library, element-wise (``math.erfc`` is the C
+#: library's, correct to double precision, also far in the tails)
+_ERFC = np.frompyfunc(math.erfc, 1, 1)
+
+
 def _ndtr(x):
-    """Standard normal CDF: scipy's, imported on first use (scipy.special costs ~0.2 s of start-up
-    to every run, also those that never need it)."""
-    try:
-        from scipy.special import ndtr
-    except ImportError:  # pragma: no cover - scipy is a dependency
-        from math import erf
-        return 0.5 * (1.0 + np.vectorize(erf)(np.asarray(x) / _SQRT2))
-    return ndtr(x)
+    """Standard normal CDF, Phi(x) = erfc(-x / sqrt(2)) / 2 (common practice): the standard
+    library's erfc element by element, so that no run pays scipy's import (~0.1-0.2 s) for it. The
+    erfc form keeps full relative precision in the lower tail, where 1 + erf would cancel; agrees
+    with ``scipy.special.ndtr`` to a few units of the last place (tests/derive)."""
+    return 0.5 * np.asarray(_ERFC(np.asarray(x, dtype=float) / -_SQRT2), dtype=float)
 
 
 @lru_cache(maxsize=None)

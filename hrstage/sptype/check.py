@@ -484,11 +484,13 @@ def _on_giant_branch(logt, logl, feh, idx) -> np.ndarray:
     """True where the positions ``idx`` are giants or bright giants (stage map) no brighter than the RGB tip.
 
     The tip is the helium-ignition luminosity of the oldest stars (age-limit mass, HPT2000 eq 49)
-    at the star's [Fe/H] (0.25-dex steps): luminosity class III covers normal giants along the
+    at the nearest point of the classifier's [Fe/H] grid (0.25-dex steps; its ends are the fits' Z
+    limits), the same grids the classification uses: luminosity class III covers normal giants along the
     whole first-ascent giant branch, of which the class's mean sequence (mostly clump stars) is
     only the middle.
     """
     from ..classifier._branch import branch_grids
+    from ..classifier._core import _group_feh
     from ..stages import BRIGHT_GIANT, GIANT
 
     out = np.zeros(len(idx), dtype=bool)
@@ -499,11 +501,13 @@ def _on_giant_branch(logt, logl, feh, idx) -> np.ndarray:
     else:
         fa = np.asarray(getattr(feh, "value", feh), dtype=float)
         fv = np.full(len(idx), float(fa)) if fa.ndim == 0 else fa[idx]
-    fv = np.round(np.nan_to_num(fv) * 4) / 4
+    fv = np.nan_to_num(fv)
     tip = np.empty(len(idx))
-    for f in np.unique(fv):
-        g = branch_grids(float(f))
-        tip[fv == f] = g.logl_tip[int(np.searchsorted(g.mass, g.m_age))]
+    # the classifier's metallicity points and key (nearest grid [Fe/H], rounded to 4 decimals), so
+    # that the check reuses the giant-branch grids the classification built, one per grid point
+    for f, rows in _group_feh(fv, len(idx))[1].items():
+        g = branch_grids(round(float(f), 4))
+        tip[rows] = g.logl_tip[int(np.searchsorted(g.mass, g.m_age))]
     from ..classifier import classify_hr
 
     res = classify_hr(logt[idx], logl[idx], feh=None if feh is None else fv, n_draws=0, branches=False)

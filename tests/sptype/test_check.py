@@ -164,3 +164,26 @@ def test_saturated_giant_colour_weighs_the_late_m_reading():
     # the same flag on a hot star (an O-B star's flat Gaia colour) never opens the late-M reading
     hot = _run(["M5III"], [(np.log10(20000.0), 3.0)], logt_err=0.05, hr_flags=fl[:1])
     assert hot.verdict[0] == "tclass_conflict"
+
+
+def test_giant_branch_tip_uses_the_classifiers_metallicity_grid(monkeypatch):
+    # the check reads the RGB tip from the same giant-branch grids as the classifier (nearest
+    # [Fe/H] grid point, 4 decimals): no grids of its own at other [Fe/H] values (each would be a
+    # separate build and cache entry)
+    from hrstage.classifier import _branch
+    from hrstage.classifier._core import FEH_GRID
+
+    keys = []
+    real = _branch.branch_grids
+
+    def spy(feh=0.0, *args, **kw):
+        keys.append(feh)
+        return real(feh, *args, **kw)
+
+    monkeypatch.setattr(_branch, "branch_grids", spy)
+    fehs = np.array([0.3, -2.45, -0.13, 0.02, np.nan])   # beyond both ends, between points, missing
+    n = len(fehs)
+    res = _run(["K0III"] * n, [K0III] * n, feh=fehs)
+    assert keys, "the K0 III check reads the RGB tip"
+    assert set(keys) <= {round(float(g), 4) for g in FEH_GRID}
+    assert list(res.verdict) == ["consistent"] * n
