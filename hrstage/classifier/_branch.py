@@ -356,69 +356,122 @@ class BranchResult:
         return out
 
 
-def _evaluate(grids, route, x, logt, sx, st, chunk=1024):
+def _cell_tables(grids, route):
+    """Per hypothesis, the loci of ``grids`` on ``route`` tabulated per grid cell for :func:`_evaluate`.
+
+    For the cell from grid point i to i + 1 of each mass: the locus log Teff at i and its change to
+    i + 1 (a locus point missing on one side: the other side's value and no change; none: 0, with
+    zero weight), the weight at i and its change, the slope at i, and for the AGB the log L at i and
+    its change (early / thermally pulsing share). A list of (n_columns, n_mass, n_cells) arrays, one
+    per hypothesis, built once per grid.
+    """
+    cache = grids.__dict__.setdefault("_cells", {})
+    if route not in cache:
+        out = []
+        for h in range(N_HYP):
+            t, w = np.asarray(grids.logt[route][h]), np.asarray(grids.weight[route][h])
+            t0, t1, w0, w1 = t[:, :-1], t[:, 1:], w[:, :-1], w[:, 1:]
+            f0, f1 = np.isfinite(t0), np.isfinite(t1)
+            cols = [np.where(f0, t0, np.where(f1, t1, 0.0)), np.where(f0 & f1, t1 - t0, 0.0), w0, w1 - w0,
+                    np.asarray(grids.slope[route][h])[:, :-1]]
+            if h == 2:
+                lg = np.asarray(grids.logl[route][h])
+                cols += [lg[:, :-1], lg[:, 1:] - lg[:, :-1]]   # NaN where either end is missing
+            out.append(np.stack(cols))
+        cache[route] = out
+    return cache[route]
+
+
+def _evaluate(grids, route, x, logt, sx, st, chunk=512):
     """Evidence per hypothesis, mass mean / sd per hypothesis, early-AGB share, for positions ``x``.
 
-    Stars are taken in order of ``x`` so that each block touches few grid cells, and only the loci
-    with weight in those cells are evaluated (the result of a star never depends on the others).
+    The locus of each mass is interpolated linearly in ``x`` between grid points (a point missing on
+    one side: the other side's), with its weight; the slope is that of the lower grid point. Stars
+    are taken in order of ``x`` in blocks; a block's stars sit in few grid cells, whose tabulated
+    loci are repeated over the stars of each cell (no per-star lookup), and only the loci with
+    weight in those cells are evaluated. The result of a star never depends on the others.
     """
     n = len(x)
     xg = _XL if route == "hr" else _XG
-    T, W, S, LG = grids.logt[route], grids.weight[route], grids.slope[route], grids.logl[route]
-    ev = np.zeros((n, N_HYP))
-    m1 = np.full((n, N_HYP), np.nan)
-    m2 = np.full((n, N_HYP), np.nan)
-    early = np.zeros(n)
-    near = np.full(n, np.inf)
+    cells = _cell_tables(grids, route)
+    out = (np.zeros((n, N_HYP)), np.full((n, N_HYP), np.nan), np.full((n, N_HYP), np.nan), np.zeros(n),
+           np.full(n, np.inf))
     pos_all = (x - xg[0]) / (xg[1] - xg[0])
-    order = np.argsort(np.where(np.isfinite(pos_all), pos_all, np.inf), kind="stable")
-    for a in range(0, n, chunk):
-        rows = order[a:a + chunk]
+    inside = np.isfinite(pos_all) & (pos_all >= 0) & (pos_all < xg.size - 1)
+    idx = np.flatnonzero(inside)
+    idx = idx[np.argsort(pos_all[idx], kind="stable")]
+    s2obs_all = np.maximum(st, SIGMA_T_FLOOR) ** 2 + SIGMA_INT**2
+    sxr_all = np.sqrt(sx**2 + SIGMA_X_INT**2)
+    has_w = [(c[2] != 0) | (c[3] != 0) for c in cells]          # (n_mass, n_cells) per hypothesis
+    for a in range(0, len(idx), chunk):
+        rows = idx[a:a + chunk]
         pos = pos_all[rows]
-        ok = np.isfinite(pos) & (pos >= 0) & (pos < xg.size - 1)
-        if not ok.any():
-            continue
-        i = np.where(ok, np.floor(np.where(ok, pos, 0)), 0).astype(np.intp)
-        fr = np.where(ok, pos - i, 0.0)
-        lo_c, hi_c = int(i[ok].min()), int(i[ok].max()) + 2
-        s2obs = np.maximum(st[rows], SIGMA_T_FLOOR) ** 2 + SIGMA_INT**2
-        sxr, ltr = np.sqrt(sx[rows] ** 2 + SIGMA_X_INT**2), logt[rows]
+        i = pos.astype(np.intp)
+        fr = pos - i
+        lo_c, hi_c = int(i[0]), int(i[-1]) + 1
+        counts = np.bincount(i - lo_c, minlength=hi_c - lo_c)
         for h in range(N_HYP):
-            ks = np.flatnonzero(W[h][:, lo_c:hi_c].any(axis=1))
+            ks = np.flatnonzero(has_w[h][:, lo_c:hi_c].any(axis=1))
             # a stride > 1 over the masses trades accuracy for speed: at 3 on the RGB and AGB the
             # APOKASC-3 RGB mass scatter rises from 11.8 to 12.0 % (the posterior mass is quantised)
             ks = ks[ks % MASS_STEP[h] == 0]
             if not len(ks):
                 continue
-            Th, Wh = T[h][ks], W[h][ks] * MASS_STEP[h]
-            t0, t1 = Th[:, i], Th[:, i + 1]
-            w = Wh[:, i] * (1 - fr) + Wh[:, i + 1] * fr
-            # a locus point missing on one side: use the other (edges of a locus)
-            tt = np.where(np.isfinite(t0), np.where(np.isfinite(t1), t0 * (1 - fr) + t1 * fr, t0), t1)
-            sl = S[h][ks][:, i]
-            var = s2obs + (sl * sxr) ** 2
-            d = ltr - tt
-            z2 = d * d / var
-            like = np.where(np.isfinite(d) & ok, w * np.exp(-0.5 * z2) / np.sqrt(var), 0.0)
-            near[rows] = np.minimum(near[rows], np.min(np.where(like > 0, z2, np.inf), axis=0, initial=np.inf))
-            tot = like.sum(axis=0)
-            ev[rows, h] = tot
-            mass = grids.mass[ks][:, None]
-            with np.errstate(invalid="ignore", divide="ignore"):
-                mu = (like * mass).sum(axis=0) / tot
-                m1[rows, h] = mu
-                m2[rows, h] = np.sqrt(np.maximum((like * (mass - mu) ** 2).sum(axis=0) / tot, 0.0))
-                if h == 2:
-                    lg = LG[h][ks]
-                    ll = lg[:, i] * (1 - fr) + lg[:, i + 1] * fr
-                    ltp = grids.logl_tp[ks][:, None]
-                    early[rows] = np.where(tot > 0, (like * (ll < ltp)).sum(axis=0) / tot, 0.0)
+            if hi_c - lo_c == 1:    # one cell: its loci broadcast over the stars
+                g = cells[h][:, ks, lo_c][:, :, None]
+            else:
+                g = np.repeat(cells[h][:, ks, lo_c:hi_c], counts, axis=2)
+            _score(g, fr, rows, h, grids.mass[ks], grids.logl_tp[ks], s2obs_all[rows], sxr_all[rows],
+                   logt[rows], out)
+    ev, m1, m2, early, near = out
     return ev, m1, m2, early, np.sqrt(near)
+
+
+def _score(g, fr, rows, h, mass, ltp, s2obs, sxr, ltr, out):
+    """Score stars ``rows`` against loci ``g`` (columns x loci x stars, or x 1 for one cell) into ``out``.
+
+    Per locus and star: ``like = w exp(-z^2 / 2) / sqrt(var)``, ``z = (log Teff - locus) / sqrt(var)``,
+    ``var = s2obs + (slope sxr)^2`` (in place: the blocks are large).
+    """
+    ev, m1, m2, early, near = out
+    d = g[1] * fr
+    d += g[0]
+    np.subtract(ltr, d, out=d)
+    var = g[4] * sxr
+    var *= var
+    var += s2obs
+    z2 = d
+    z2 *= d
+    z2 /= var
+    like = np.multiply(z2, -0.5)
+    np.exp(like, out=like)
+    w = g[3] * fr
+    w += g[2]
+    if MASS_STEP[h] != 1:
+        w *= MASS_STEP[h]
+    like *= w
+    np.sqrt(var, out=var)
+    like /= var
+    np.copyto(z2, np.inf, where=~(like > 0))
+    near[rows] = np.minimum(near[rows], z2.min(axis=0))
+    tot = like.sum(axis=0)
+    ev[rows, h] = tot
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mu = (mass @ like) / tot
+        m1[rows, h] = mu
+        dm = np.subtract(mass[:, None], mu, out=var)
+        dm *= dm
+        dm *= like
+        m2[rows, h] = np.sqrt(np.maximum(dm.sum(axis=0) / tot, 0.0))
+        if h == 2:
+            ll = g[6] * fr
+            ll += g[5]
+            early[rows] = np.where(tot > 0, ((ll < ltp[:, None]) * like).sum(axis=0) / tot, 0.0)
 
 
 def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, logg=None, logg_err=None,
                     feh=None, min_prob: float = MIN_PROB, max_age_myr: float = 13800.0,
-                    giant_codes=None, independent_l=None, corr=0.0) -> BranchResult:
+                    giant_codes=None, independent_l=None, corr=0.0, feh_groups=None) -> BranchResult:
     """Branch of every giant-class star from its HR position (or its Kiel position when ``logg`` is given).
 
     Parameters
@@ -443,6 +496,9 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
         ``post_agb`` whatever its stage (see :func:`_post_agb`).
     corr : float or array_like
         Correlation of the log Teff and log L errors (for that mass's error).
+    feh_groups : tuple, optional
+        ``(feh_used, {feh: row indices})`` as the stage classification grouped the stars by
+        [Fe/H] (``_core._group_feh``), so that it is not done twice; None groups ``feh`` here.
 
     Returns
     -------
@@ -469,7 +525,10 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
     m2 = np.full((n, N_HYP), np.nan)
     early = np.zeros(n)
     near = np.full(n, np.inf)
-    feh_used, groups, _ = _group_feh(feh, n)
+    if feh_groups is None:
+        feh_used, groups, _ = _group_feh(feh, n)
+    else:   # the stage classification's grouping (same [Fe/H] per star)
+        feh_used, groups = feh_groups
     grid_of = {}
     for fg, idx in groups.items():
         grids = grid_of[fg] = branch_grids(round(float(fg), 4), float(max_age_myr))
@@ -659,7 +718,7 @@ def gravity_mass(logt, logl, logg, logt_err=0.0, logl_err=0.0, logg_err=0.0, cor
 
 
 def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_age_myr=13800.0,
-                  gravity=True):
+                  gravity=True, feh_groups=None):
     """Decide the branch of the giants of a ``ClassificationResult`` and make their masses branch-aware.
 
     Sets ``res.branch``; for giant-class stars with a branch evaluation (and no supplied mass) the
@@ -687,7 +746,7 @@ def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_ag
         resolve_hb_or_ms(res, g, ge, indep)
     b = classify_branch(res.logt, res.logl, res.code, logt_err=res.logt_err, logl_err=res.logl_err,
                         logg=g, logg_err=ge, feh=res.feh_used if feh is not None and np.ndim(feh) else feh,
-                        max_age_myr=max_age_myr, independent_l=indep, corr=res.corr)
+                        max_age_myr=max_age_myr, independent_l=indep, corr=res.corr, feh_groups=feh_groups)
     res.branch = b
     supplied = MASS_METHOD_NAMES.index("supplied")
     first = MASS_METHOD_NAMES.index(BRANCH_MASS_METHODS[0])

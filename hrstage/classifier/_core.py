@@ -752,7 +752,8 @@ def classify_hr(
                         stage_kw, opts)
     if branches:
         attach_branch(res, logg=logg, logg_err=logg_err, feh=feh, shape=shape,
-                      max_age_myr=stage_kw.get("max_age_myr", 13800.0), gravity=gravity_mass)
+                      max_age_myr=stage_kw.get("max_age_myr", 13800.0), gravity=gravity_mass,
+                      feh_groups=(feh_used, groups))
     return res
 
 
