@@ -511,20 +511,16 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
     n = logt.size
     code_in = np.broadcast_to(np.asarray(stage_code), (n,))
 
-    def arr(v):
-        return np.zeros(n) if v is None else np.nan_to_num(np.broadcast_to(np.asarray(v, float), (n,)), nan=0.0)
+    def arr(v, rows=None):
+        if v is None:
+            return np.zeros(n if rows is None else len(rows))
+        a = np.broadcast_to(np.asarray(v, float), (n,))
+        return np.nan_to_num(a if rows is None else a[rows], nan=0.0)
 
-    st, sl = arr(logt_err), arr(logl_err)
-    sg = arr(logg_err)
     g = np.full(n, np.nan) if logg is None else np.broadcast_to(np.asarray(logg, float), (n,)).astype(float)
     giant_codes = (GIANT, BRIGHT_GIANT) if giant_codes is None else giant_codes
     eligible = np.isin(code_in, giant_codes) & np.isfinite(logt)
     sub = (code_in == SUBGIANT) & np.isfinite(logt) & np.isfinite(logl)
-    ev = np.zeros((n, N_HYP))
-    m1 = np.full((n, N_HYP), np.nan)
-    m2 = np.full((n, N_HYP), np.nan)
-    early = np.zeros(n)
-    near = np.full(n, np.inf)
     if feh_groups is None:
         feh_used, groups, _ = _group_feh(feh, n)
     else:   # the stage classification's grouping (same [Fe/H] per star)
@@ -539,51 +535,74 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
             eligible[si] = (logl[si] >= grids.logl_bgb_age) & (logt[si] <= t_rgb + LOWER_RGB_DLOGT)
     kiel = eligible & np.isfinite(g)
     hr = eligible & ~kiel & np.isfinite(logl)
+    # the branch work is done on the eligible stars only (suffix e: arrays over them, in row order)
+    e_rows = np.flatnonzero(eligible)
+    ne = len(e_rows)
+    lt_e, g_e = logt[e_rows], g[e_rows]
+    st_e = arr(logt_err, e_rows)
+    x_e = {"kiel": (g_e, arr(logg_err, e_rows)), "hr": (logl[e_rows], arr(logl_err, e_rows))}
+    route_e = {"kiel": kiel[e_rows], "hr": hr[e_rows]}
+    ev = np.zeros((ne, N_HYP))
+    m1 = np.full((ne, N_HYP), np.nan)
+    m2 = np.full((ne, N_HYP), np.nan)
+    early = np.zeros(ne)
+    near_e = np.full(ne, np.inf)
+    m_hef = np.full(ne, np.nan)
+    fehv = np.broadcast_to(np.asarray(feh_used, float), (n,))[e_rows]
     for fg, idx in groups.items():
         grids = grid_of[fg]
-        for route, sel, x, sx in (("kiel", kiel, g, sg), ("hr", hr, logl, sl)):
-            ii = idx[sel[idx]]
+        loc = np.searchsorted(e_rows, idx[eligible[idx]])      # this group's eligible stars
+        m_hef[loc] = grids.m_hef
+        for route in ("kiel", "hr"):
+            ii = loc[route_e[route][loc]]
             if len(ii):
+                x, sx = x_e[route]
                 # huge (finite) errors: the variance overflows to inf and the star gets no evidence
                 with np.errstate(over="ignore", invalid="ignore", under="ignore"):
-                    e, a, b, ea, nz = _evaluate(grids, route, x[ii], logt[ii], sx[ii], st[ii])
-                ev[ii], m1[ii], m2[ii], early[ii], near[ii] = e, a, b, ea, nz
+                    e, a, b, ea, nz = _evaluate(grids, route, x[ii], lt_e[ii], sx[ii], st_e[ii])
+                ev[ii], m1[ii], m2[ii], early[ii], near_e[ii] = e, a, b, ea, nz
     tot = ev.sum(axis=1)
-    proba = np.full((n, N_HYP), np.nan)
-    has = eligible & (tot > 0)
-    proba[has] = ev[has] / tot[has, None]
-    code = np.full(n, NOT_GIANT, dtype=np.int8)
-    code[eligible] = UNRESOLVED
-    best = np.argmax(np.nan_to_num(proba, nan=-1.0), axis=1)
-    pbest = np.nan_to_num(proba[np.arange(n), best], nan=0.0)
-    named = has & (pbest >= min_prob) & ~(near > OFF_LOCUS_NSIGMA)
-    teff = 10.0**logt
-    fehv = np.broadcast_to(np.asarray(feh_used, float), (n,))
+    has = tot > 0
+    proba_e = np.full((ne, N_HYP), np.nan)
+    proba_e[has] = ev[has] / tot[has, None]
+    code_e = np.full(ne, UNRESOLVED, dtype=np.int8)
+    best = np.argmax(np.nan_to_num(proba_e, nan=-1.0), axis=1)
+    pbest = np.nan_to_num(proba_e[np.arange(ne), best], nan=0.0)
+    named = has & (pbest >= min_prob) & ~(near_e > OFF_LOCUS_NSIGMA)
+    teff = 10.0**lt_e
     # horizontal branch vs blue loop: the core-He hypothesis' mass against M_HeF of the star's [Fe/H]
-    m_hef = np.full(n, np.nan)
-    for fg, idx in groups.items():
-        m_hef[idx] = grid_of[fg].m_hef
     heavy = m1[:, 1] >= m_hef           # NaN (no core-He evidence) counts as light
     hot = teff >= HB_TEFF_MIN
     loop = hot & heavy
     hb = ((fehv <= HB_FEH_MAX) | hot) & ~heavy
-    code[named & (best == 0)] = RED_GIANT_BRANCH
+    code_e[named & (best == 0)] = RED_GIANT_BRANCH
     # Kiel route: a red clump must also be inside the Bovy et al. 2014 box (within its [Fe/H] range)
     in_cal = (fehv >= bovy2014.FEH_RANGE[0]) & (fehv <= bovy2014.FEH_RANGE[1])
-    outside_box = kiel & in_cal & ~hb & ~loop & ~bovy2014.in_clump_box(teff, g, fehv)
+    outside_box = route_e["kiel"] & in_cal & ~hb & ~loop & ~bovy2014.in_clump_box(teff, g_e, fehv)
     named &= ~((best == 1) & outside_box)
     he = named & (best == 1)
-    code[he] = np.where(hb[he], HORIZONTAL_BRANCH, np.where(loop[he], BLUE_LOOP, RED_CLUMP))
-    code[named & (best == 2)] = np.where(early[named & (best == 2)] >= 0.5, EARLY_AGB, TP_AGB)
+    code_e[he] = np.where(hb[he], HORIZONTAL_BRANCH, np.where(loop[he], BLUE_LOOP, RED_CLUMP))
+    code_e[named & (best == 2)] = np.where(early[named & (best == 2)] >= 0.5, EARLY_AGB, TP_AGB)
     m1[~has] = np.nan
     m2[~has] = np.nan
+    code = np.full(n, NOT_GIANT, dtype=np.int8)
+    code[e_rows] = code_e
+    proba = np.full((n, N_HYP), np.nan)
+    proba[e_rows] = proba_e
+    mass_hyp = np.full((n, N_HYP), np.nan)
+    mass_hyp[e_rows] = m1
+    mass_sd = np.full((n, N_HYP), np.nan)
+    mass_sd[e_rows] = m2
+    near = np.full(n, np.inf)
+    near[e_rows] = near_e
     if independent_l is not None:
-        post = _post_agb(logt, logl, g, st, sl, sg, corr, independent_l, groups, grid_of)
+        post = _post_agb(logt, logl, g, arr(logt_err), arr(logl_err), arr(logg_err), corr, independent_l,
+                         groups, grid_of)
         code[post] = POST_AGB
         proba[post] = np.nan
-        m1[post] = np.nan
-        m2[post] = np.nan
-    return BranchResult(code=code, proba=proba, mass_hyp=m1, mass_hyp_sd=m2, off_locus=near,
+        mass_hyp[post] = np.nan
+        mass_sd[post] = np.nan
+    return BranchResult(code=code, proba=proba, mass_hyp=mass_hyp, mass_hyp_sd=mass_sd, off_locus=near,
                         route="kiel" if kiel.any() and not hr.any() else ("hr" if hr.any() and not kiel.any() else "mixed"),
                         kiel=kiel)
 
@@ -750,13 +769,14 @@ def attach_branch(res, *, logg=None, logg_err=None, feh=None, shape=None, max_ag
     res.branch = b
     supplied = MASS_METHOD_NAMES.index("supplied")
     first = MASS_METHOD_NAMES.index(BRANCH_MASS_METHODS[0])
-    best = np.argmax(np.nan_to_num(b.proba, nan=-1.0), axis=1)
-    mb = b.mass_hyp[np.arange(n), best]
-    eb = b.mass_hyp_sd[np.arange(n), best]
-    use = np.isfinite(b.proba[:, 0]) & np.isfinite(mb) & (res.mass_code != supplied)
-    res.mass[use] = mb[use]
-    res.mass_err[use] = eb[use]
-    res.mass_code[use] = first + best[use]
+    r = np.flatnonzero(np.isfinite(b.proba[:, 0]))     # stars with a branch evaluation
+    best = np.argmax(np.nan_to_num(b.proba[r], nan=-1.0), axis=1)
+    mb = b.mass_hyp[r, best]
+    use = np.isfinite(mb) & (res.mass_code[r] != supplied)
+    ru = r[use]
+    res.mass[ru] = mb[use]
+    res.mass_err[ru] = b.mass_hyp_sd[ru, best[use]]
+    res.mass_code[ru] = first + best[use]
     if g is not None:
         rows = np.broadcast_to(np.asarray(gravity, dtype=bool), (n,))
         ge0 = np.zeros(n) if ge is None else np.nan_to_num(ge)
