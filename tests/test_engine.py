@@ -247,6 +247,19 @@ def test_workers_give_the_same_bytes(tmp_path, suffix, out_suffix):
     assert not list(tmp_path.glob(".*"))           # no temporary file left behind
 
 
+def test_workers_without_the_map_cache_give_the_same_bytes(tmp_path, monkeypatch):
+    # map cache off: the first chunk is classified in this process, so that the forked workers
+    # inherit its maps; the file is still the same, byte for byte
+    monkeypatch.setenv("HRSTAGE_MAP_CACHE", "0")
+    src = tmp_path / "in.parquet"
+    write_table(_mixed_population(1500), src)
+    one, two = tmp_path / "one.parquet", tmp_path / "two.parquet"
+    s1 = classify_file(src, one, chunk_rows=500, n_draws=8, workers=1)
+    s2 = classify_file(src, two, chunk_rows=500, n_draws=8, workers=2)
+    assert s1["workers"] == 1 and s2["workers"] == 2
+    assert one.read_bytes() == two.read_bytes()
+
+
 def test_workers_option_checked(tmp_path):
     from hrstage.engine import resolve_workers
 
@@ -254,6 +267,12 @@ def test_workers_option_checked(tmp_path):
     for bad in (0, -1, "many", 1.5):
         with pytest.raises(HrstageInputError, match="workers"):
             resolve_workers(bad)
+    # "auto": the usable cores less those busy with other work, at least one
+    from hrstage.engine.workers import idle_cores
+
+    cores = idle_cores(busy=0)
+    assert cores >= 1 and idle_cores(busy=cores + 3) == 1 and idle_cores(busy=1) == max(1, cores - 1)
+    assert idle_cores(busy=0.4) == cores
     # a file of a single chunk never starts a pool
     src = tmp_path / "in.parquet"
     write_table(_mixed_population(50), src)

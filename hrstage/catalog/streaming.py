@@ -379,18 +379,20 @@ class ChunkWriter:
         self._writer.write(text.encode("utf-8") if isinstance(text, str) else text)
         self.rows += int(rows)
 
-    def write_csv_text(self, text, names, rows: int) -> None:
+    def write_csv_text(self, text, names, rows: int, *, header: bool = False) -> None:
         """Append a chunk already formatted by :func:`~hrstage.catalog.formats.csv_text` or
-        :func:`~hrstage.catalog.formats.arrow_csv` (without its header line; str or UTF-8 bytes),
-        e.g. by a worker process; CSV output only, after a first chunk.
+        :func:`~hrstage.catalog.formats.arrow_csv` (str or UTF-8 bytes), e.g. by a worker process;
+        CSV output only. The first chunk comes with its header line (``header=True``), the others
+        without.
 
         ``names`` are the chunk's column names (checked against the first chunk's), ``rows`` its
         number of rows.
         """
         if self._closed:
             raise RuntimeError("writer already closed")
-        if self.format != "csv" or self._writer is None:
-            raise RuntimeError("write_csv_text needs a CSV output whose first chunk is written")
+        if self.format != "csv" or (self._writer is None) != bool(header):
+            raise RuntimeError("write_csv_text: a CSV output, its first chunk with the header line, "
+                               "the others without")
         self._write_csv(text, names, rows)
 
     def _write_arrow(self, data) -> None:

@@ -10,6 +10,7 @@ import numpy as np
 
 from .. import flags as F
 from ..catalog.profiles import infos_from_table
+from ..stagemap._store import enabled as map_cache_enabled
 from ..stages import STAGES
 from .chunk import chunk_tally, classify_one, rows_of
 from .convert import arrow_infos, writer_columns
@@ -40,8 +41,10 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
         process reads, keeps the order and writes; at most two chunks per worker are in flight, so
         memory grows with ``workers x chunk_rows``; Arrow results come back through files in a
         temporary folder (system temporary directory), removed at the end. The result is the same,
-        byte for byte, as with one process (the Monte Carlo stream of a chunk depends only on its first row's index). The
-        first chunk is classified here before the workers start, so they inherit its stage maps.
+        byte for byte, as with one process (the Monte Carlo stream of a chunk depends only on its first row's index). With
+        the stage maps' on-disk cache (the default) every chunk is classified by the workers; with
+        the cache off the first chunk is classified here before the workers start, so that they
+        inherit its stage maps.
     **options
         As for :func:`classify_table`.
 
@@ -84,6 +87,11 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
         attrs, chunks = None, iter_chunks(inp, chunk_rows, in_fmt)
     used = 1
     pool = spill = None
+    # With the maps' on-disk cache, worker processes map what an earlier run or a sibling built, so
+    # every chunk goes to the workers (this process only reads and writes). Without it, the first
+    # chunk is classified here, so that the forked workers inherit its maps instead of each
+    # building them.
+    first_here = not map_cache_enabled()
     io = ThreadPoolExecutor(2, thread_name_prefix="hrstage-io")
     ahead = ReadAhead(chunks, io)
     behind = WriteBehind(io)
@@ -108,7 +116,8 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                 got = Received(async_result.get())
                 try:
                     if got.kind == "csv":
-                        writer.write_csv_text(got.table[0], got.table[1], got.tally[3])
+                        text, names, header = got.table
+                        writer.write_csv_text(text, names, got.tally[3], header=header)
                     else:
                         writer.write(got.table)
                     count(*got.tally)
@@ -118,17 +127,20 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
             try:
                 offset = 0
                 pending: deque = deque()
+                held = None     # the first chunk, until a second one shows the workers are worth starting
                 for chunk in ahead:
                     if opts.mapping is None:
                         infos = arrow_infos(chunk, attrs) if attrs is not None else infos_from_table(chunk)
                         opts = resolve_options(infos, opts)
                     n = rows_of(chunk)
-                    if pool is None and (n_workers == 1 or offset == 0):
+                    if pool is None and (n_workers == 1 or (offset == 0 and first_here)):
                         res = classify_one(chunk, opts, offset, attrs)   # here: builds the maps it needs
                         behind.submit(take, res)     # written while the next chunk is classified
                         del res
+                    elif pool is None and held is None and offset == 0:
+                        held = (chunk, offset)
                     else:
-                        if pool is None:    # second chunk: start the workers, after the maps exist
+                        if pool is None:    # start the workers (after the first chunk's maps exist)
                             # no thread of ours may be inside pyarrow while the workers fork
                             behind.wait()
                             ahead.settle()
@@ -136,11 +148,17 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                             pool = pool_context().Pool(n_workers, initializer=worker_init,
                                                         initargs=(opts, attrs, spill, writer.format))
                             used = n_workers
+                        if held is not None:
+                            pending.append(pool.apply_async(worker_task, held))
+                            held = None
                         pending.append(pool.apply_async(worker_task, (chunk, offset)))
                         while len(pending) >= 2 * n_workers:
                             behind.submit(take_from, pending.popleft())
                     offset += n
                     del chunk
+                if held is not None:    # one chunk in all: classified here, no workers started
+                    behind.submit(take, classify_one(held[0], opts, held[1], attrs))
+                    held = None
                 while pending:
                     behind.submit(take_from, pending.popleft())
                 behind.wait()

@@ -9,10 +9,8 @@ from .chunk import chunk_tally, classify_one
 from .convert import is_arrow
 
 def resolve_workers(workers) -> int:
-    """Number of worker processes for :func:`classify_file`: a positive integer, or ``"auto"`` for
-    the cores this process may run on (``os.sched_getaffinity`` where available)."""
-    import os
-
+    """Number of worker processes for :func:`classify_file`: a positive integer, or ``"auto"``
+    (:func:`idle_cores`)."""
     if isinstance(workers, str):
         if workers.strip().lower() != "auto":
             try:
@@ -20,10 +18,7 @@ def resolve_workers(workers) -> int:
             except ValueError:
                 raise HrstageInputError(f"workers must be a positive whole number or 'auto', got {workers!r}") from None
         else:
-            try:
-                return max(1, len(os.sched_getaffinity(0)))
-            except AttributeError:  # pragma: no cover (macOS, Windows)
-                return max(1, os.cpu_count() or 1)
+            return idle_cores()
     if workers is None:
         return 1
     if isinstance(workers, float) and not workers.is_integer():
@@ -32,6 +27,41 @@ def resolve_workers(workers) -> int:
     if workers < 1:
         raise HrstageInputError(f"workers must be >= 1 (or 'auto'), got {workers}")
     return workers
+
+
+def idle_cores(busy=None) -> int:
+    """The cores this process may run on (``os.sched_getaffinity`` where available) less those
+    busy with other work, at least 1. ``busy``: the processes running or ready to run besides this
+    one -- by default from ``/proc/loadavg`` (its running count, now), else the 1-minute load
+    average (``os.getloadavg``), rounded.
+
+    Worker processes pay only where cores are free: on a 2-core machine with other work running
+    (load ~4), 2 workers took ~1.2x the time of one (2 M-row Parquet, benchmarks/bench_pipeline.py),
+    since the reading and writing parent then competes with its own workers.
+    """
+    import os
+
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except AttributeError:  # pragma: no cover (macOS, Windows)
+        cores = os.cpu_count() or 1
+    if busy is None:
+        busy = _busy_now()
+    return max(1, min(cores, cores - int(round(busy))))
+
+
+def _busy_now() -> float:
+    import os
+
+    try:
+        with open("/proc/loadavg") as fh:
+            running = int(fh.read().split()[3].split("/")[0])
+        return max(0, running - 1)          # this process is one of them
+    except (OSError, ValueError, IndexError):
+        try:
+            return os.getloadavg()[0]
+        except (AttributeError, OSError):  # pragma: no cover (Windows)
+            return 0.0
 
 
 #: What a worker process of :func:`classify_file` needs: (options, attrs), set by the pool initializer
@@ -47,8 +77,9 @@ def worker_init(opts, attrs, spill, out_format):
 def worker_task(chunk, offset):
     """Classify one chunk in a worker; returns ``(kind, payload, tally)``.
 
-    For a CSV output the worker also formats the rows (``"csv"``: the text without header and the
-    column names), the slow part of CSV writing. Otherwise an Arrow result goes back as an Arrow IPC
+    For a CSV output the worker also formats the rows (``"csv"``: the text, the column names, and
+    whether the text starts with the header line, as for the first chunk), the slow part of CSV
+    writing. Otherwise an Arrow result goes back as an Arrow IPC
     file in the run's spill folder (``"file"``: the parent memory-maps it; pickling ~300 bytes per
     row through a pipe was measured as the parent's main cost), an astropy Table as it is
     (``"table"``). ``tally`` is :func:`_chunk_tally` of the result.
@@ -62,10 +93,11 @@ def worker_task(chunk, offset):
         from ..catalog.arrow import arrow_to_table
         from ..catalog.formats import arrow_csv, csv_supported, csv_text
 
+        first = offset == 0     # the first chunk brings the header line
         if is_arrow(res) and csv_supported(res.schema):
-            return "csv", (arrow_csv(res, header=False), list(res.schema.names)), tally
+            return "csv", (arrow_csv(res, header=first), list(res.schema.names), first), tally
         table = arrow_to_table(res) if is_arrow(res) else res
-        return "csv", (csv_text(table, header=False), list(table.colnames)), tally
+        return "csv", (csv_text(table, header=first), list(table.colnames), first), tally
     if spill is None or not is_arrow(res):
         return "table", res, tally
     import pyarrow as pa
