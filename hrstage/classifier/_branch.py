@@ -593,16 +593,14 @@ def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, log
     code_e[named & (best == 2)] = np.where(early[named & (best == 2)] >= 0.5, EARLY_AGB, TP_AGB)
     m1[~has] = np.nan
     m2[~has] = np.nan
-    code = np.full(n, NOT_GIANT, dtype=np.int8)
-    code[e_rows] = code_e
-    proba = np.full((n, N_HYP), np.nan)
-    proba[e_rows] = proba_e
-    mass_hyp = np.full((n, N_HYP), np.nan)
-    mass_hyp[e_rows] = m1
-    mass_sd = np.full((n, N_HYP), np.nan)
-    mass_sd[e_rows] = m2
-    near = np.full(n, np.inf)
-    near[e_rows] = near_e
+
+    def spread(a, fill):     # an array over the eligible stars -> one over all rows
+        out = np.full((n,) + a.shape[1:], fill, dtype=a.dtype)
+        out[e_rows] = a
+        return out
+
+    code, proba, near = spread(code_e, NOT_GIANT), spread(proba_e, np.nan), spread(near_e, np.inf)
+    mass_hyp, mass_sd = spread(m1, np.nan), spread(m2, np.nan)
     if independent_l is not None:
         post = _post_agb(logt, logl, g, arr(logt_err), arr(logl_err), arr(logg_err), corr, independent_l,
                          groups, grid_of)
