@@ -53,7 +53,9 @@ _COLUMNS = [
     OutputColumn("hr_source", "U", None, "Where Teff and L came from (input path and relations used)", "meta.note"),
     OutputColumn("feh_used", "f4", None, "[Fe/H] used for the stage map", "phys.abund.Z"),
     OutputColumn("flags", "i8", None, "Flag bits (see hrstage.flags)", "meta.code.qual"),
-    OutputColumn("flag_text", "U", None, "Readable reasons behind the flags, with the numbers", "meta.note"),
+    OutputColumn("flag_text", "U", None, "Readable reasons behind the flags, in words (the numbers are in the other columns)", "meta.note"),
+    # on request only (named in add_columns): one text per flagged star, bulky and slow on big catalogues
+    OutputColumn("flag_detail", "U", None, "The reasons of flag_text with the star's own numbers", "meta.note"),
     # MK spectral-type check (layer 4); present only when an MK type column is given
     OutputColumn("sptype_parsed", "U", None, "Normalised reading of the catalogued MK type", "src.spType"),
     OutputColumn("sptype_lumclass", "U", None, "Luminosity class read from the MK type", "src.spType"),
@@ -65,5 +67,7 @@ _COLUMNS = [
 ]
 
 COLUMNS = {c.name: c for c in _COLUMNS}
-CLASSIFY_COLUMNS = tuple(c.name for c in _COLUMNS if not c.name.startswith("sptype_"))
+#: Columns written only when asked for by name (``add_columns="all,flag_detail"``).
+ON_REQUEST_COLUMNS = ("flag_detail",)
+CLASSIFY_COLUMNS = tuple(c.name for c in _COLUMNS if not c.name.startswith("sptype_") and c.name not in ON_REQUEST_COLUMNS)
 SPTYPE_COLUMNS = tuple(c.name for c in _COLUMNS if c.name.startswith("sptype_"))

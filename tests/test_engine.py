@@ -46,6 +46,24 @@ def test_classify_needs_no_options_and_keeps_input():
     assert "indicative" in out.meta["hrstage_caution"]
 
 
+def test_reasons_in_words_by_default_with_numbers_on_request():
+    # a 4000 K star of 3.2e4 Lsun given 11 Msun: cool but massive (formulae.md 2.9 [C]: a 10 Msun star
+    # ignites He near 2.5e4 Lsun, 3661 K); the Sun (IAU 2015 B3) is not flagged
+    t = Table({"teff": [4000.0, 5772.0], "lum": [3.2e4, 1.0], "mass": [11.0, 1.0]})
+    plain = hrstage.classify(t)
+    assert "flag_detail" not in plain.colnames
+    assert plain["flag_text"][0].startswith("cool but massive") and "M_MS(L)=" not in plain["flag_text"][0]
+    both = hrstage.classify(t, add_columns="all,flag_detail")
+    assert both.colnames.index("flag_detail") == both.colnames.index("flag_text") + 1
+    assert "M_MS(Teff)=" in both["flag_detail"][0] and "supplied 11" in both["flag_detail"][0]
+    for c in plain.colnames:                                       # nothing else changes
+        np.testing.assert_array_equal(np.asarray(plain[c]), np.asarray(both[c]), err_msg=c)
+    brief = hrstage.classify(t, add_columns="brief,flag_detail")
+    assert "flag_detail" in brief.colnames and "flag_text" not in brief.colnames
+    with pytest.raises(HrstageInputError, match="unknown column"):
+        hrstage.classify(t, add_columns="all,flag_details")
+
+
 def test_unclassified_rows_say_why():
     out = hrstage.classify(small())
     row = out[2]                                                  # lum = -9999 (fill value)

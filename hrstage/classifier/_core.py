@@ -174,7 +174,8 @@ class ClassificationResult:
     mass_code : ndarray of int8, index of ``mass_method`` in :data:`MASS_METHOD_NAMES`
     mass_ms_teff, mass_ms_lum : ndarray (Msun), ZAMS masses of the same Teff / the same L
     flags : ndarray of int64 (``hrstage.flags`` bits)
-    reason, flag_text : ndarray of object (readable texts with the numbers; built on first access)
+    reason, flag_detail : ndarray of object (readable texts with the numbers; built on first access)
+    flag_text : ndarray of object (the flag reasons in words, one text per combination)
 
     Every per-row value depends only on that row's inputs (and, for the probabilities, on the
     seed and the number of draws): never on the other rows of the call.
@@ -204,7 +205,9 @@ class ClassificationResult:
     _teff: np.ndarray | None = field(default=None, repr=False)
     _reason: np.ndarray | None = field(default=None, repr=False)
     _flag_text: np.ndarray | None = field(default=None, repr=False)
+    _flag_words: np.ndarray | None = field(default=None, repr=False)
     _built_notes: list | None = field(default=None, repr=False)
+    _built_words: list | None = field(default=None, repr=False)
     #: giant branch of every star (:class:`hrstage.classifier._branch.BranchResult`), None if not asked
     branch: object = None
 
@@ -233,16 +236,33 @@ class ClassificationResult:
         tab = _base_table(self._maps)
         return tab.reshape(-1)[self._group.astype(np.intp) * tab.shape[1] + self._base_key]
 
-    def flag_notes(self) -> list:
+    def flag_notes(self, detail: bool = True) -> list:
         """The flag reasons as notes ``[(row indices, texts), ...]`` in their order of the text
-        (see :func:`hrstage.classifier._text.join_coded`), built on first access."""
-        if self._built_notes is None:
-            self._built_notes = [(idx, build() if callable(build) else build) for idx, build in self._notes]
-        return self._built_notes
+        (see :func:`hrstage.classifier._text.join_coded`), built on first access.
+
+        ``detail=True``: with each star's numbers (hundreds of thousands of distinct texts per
+        million flagged rows); ``False``: the same reasons in words only, a few distinct texts (the
+        numbers are in the result's other columns).
+        """
+        if detail:
+            if self._built_notes is None:
+                self._built_notes = [(idx, b() if callable(b) else b) for idx, b, _ in self._notes]
+            return self._built_notes
+        if self._built_words is None:
+            self._built_words = [(idx, w() if callable(w) else w) for idx, _, w in self._notes]
+        return self._built_words
 
     @property
     def flag_text(self) -> np.ndarray:
-        """Readable reasons behind the flags (object array; "" where no flag is set)."""
+        """Readable reasons behind the flags, in words (object array; "" where no flag is set): one
+        text per combination of reasons; the numbers are in the other columns."""
+        if self._flag_words is None:
+            self._flag_words = join_notes(len(self.code), self.flag_notes(detail=False))
+        return self._flag_words
+
+    @property
+    def flag_detail(self) -> np.ndarray:
+        """The reasons of :attr:`flag_text` with each star's own numbers (object array)."""
         if self._flag_text is None:
             self._flag_text = join_notes(len(self.code), self.flag_notes())
         return self._flag_text
@@ -251,7 +271,7 @@ class ClassificationResult:
     def reason(self) -> np.ndarray:
         """The stage's region and every flag reason, with the numbers (object array)."""
         if self._reason is None:
-            ft = self.flag_text
+            ft = self.flag_detail
             reason = self.base_reason.copy()
             has = np.nonzero(ft != "")[0]
             reason[has] = reason[has] + ("; " + ft[has])
@@ -972,16 +992,21 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
 
     notes = []
 
-    def note(key, mask_or_idx, build):
+    def note(key, mask_or_idx, build, short):
+        """A reason on the rows of ``mask_or_idx``: ``build`` gives the text with each star's numbers
+        (a string, or ``build(idx) -> (texts, codes)``), ``short`` the same reason in words only (a
+        string, or ``short(idx)`` with few distinct texts: the numbers are in the output columns)."""
         idx = np.nonzero(mask_or_idx)[0] if mask_or_idx.dtype == bool else mask_or_idx
         if len(idx):
-            notes.append((key, idx, build if isinstance(build, str) else (lambda: build(idx))))
+            notes.append((key, idx, build if isinstance(build, str) else (lambda: build(idx)),
+                          short if isinstance(short, str) else (lambda: short(idx))))
 
     post = (rawc & RAW_STAGE)
     promoted = (code == SUPERGIANT) & (post != SUPERGIANT)
     note("0promote", promoted, lambda ii: format_codes(
         lambda m, g: f"supplied mass {m:.3g} Msun >= supergiant mass {g:.2f} Msun: post-main-sequence position "
-                     "labelled supergiant", len(ii), (msup[ii], ".3g"), (m_sg[ii], ".2f")))
+                     "labelled supergiant", len(ii), (msup[ii], ".3g"), (m_sg[ii], ".2f")),
+         "supplied mass >= the supergiant mass of the map: post-main-sequence position labelled supergiant")
 
     # mass methods
     hb = ((rawc & RAW_HB) != 0) & (code == GIANT)
@@ -997,7 +1022,10 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         mest_off = mass_est[off]
         note("5mass", off, lambda ii: format_codes(
             lambda a, b, k: f"supplied mass {a:.3g} Msun vs {b:.3g} Msun from the position ({MASS_METHODS[k]})",
-            len(ii), (msup[ii], ".3g"), (mest_off, ".3g"), (code[ii], None)))
+            len(ii), (msup[ii], ".3g"), (mest_off, ".3g"), (code[ii], None)),
+            lambda ii: format_codes(
+                lambda k: f"supplied mass and the mass from the position ({MASS_METHODS[k]}) differ by more "
+                          f"than a factor {opts['mass_check_ratio']:g}", len(ii), (code[ii], None)))
         mass_est[si] = msup[si]
         mass_err[si] = np.nan
         mcode[si] = _M_SUPPLIED
@@ -1026,7 +1054,9 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
             len(ii), (msup[ii], ".3g"), (teff[ii], ".0f"))
         return concat_codes(head, tail)
 
-    note("1cbm", cbm, cbm_text)
+    note("1cbm", cbm, cbm_text,
+         f"cool but massive: the main-sequence mass of its L (mass_ms_lum) or the supplied mass is above that "
+         f"of its Teff (mass_ms_teff) at Teff < {cool:.0f} K: likely evolved")
 
     # binary band
     b = (rawc & RAW_BINARY) != 0
@@ -1048,20 +1078,30 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
 
         return format_codes(fmt, len(ii), (gap, ".2f"), (code[ii] == MAIN_SEQUENCE, None))
 
-    note("2bin", b, bin_text)
+    note("2bin", b, bin_text, lambda ii: format_codes(
+        lambda ms: "possible unresolved binary: on or just above the main-sequence upper edge"
+                   + (" (or a subgiant)" if ms else ""), len(ii), (code[ii] == MAIN_SEQUENCE, None)))
     note("2young", young_or_ev, lambda ii: format_codes(
         lambda k, a, pp: f"young or evolved: pre-main-sequence stars also reach this position (hotter than "
                          f"the oldest giant branch, log L < {maps[0].params.pms_logl_max:g}); labelled {STAGES[k]} "
                          f"with P(pre_main_sequence)={pp:.2f} (young_prior={yp:g}; "
                          + ("a young target list" if yp > 0.5 else "a field population") + f", else {STAGES[a]})",
         len(ii), (code[ii], None), (np.where(code[ii] == PRE_MAIN_SEQUENCE, zone_alt[ii], PRE_MAIN_SEQUENCE), None),
-        (proba[ii, PRE_MAIN_SEQUENCE], ".2f")))
+        (proba[ii, PRE_MAIN_SEQUENCE], ".2f")), lambda ii: format_codes(
+        lambda k, a: f"young or evolved: pre-main-sequence stars also reach this position (hotter than the oldest "
+                     f"giant branch, log L < {maps[0].params.pms_logl_max:g}); labelled {STAGES[k]}, else {STAGES[a]} "
+                     f"(young_prior={yp:g}; P in prob_pre_main_sequence)",
+        len(ii), (code[ii], None), (np.where(code[ii] == PRE_MAIN_SEQUENCE, zone_alt[ii], PRE_MAIN_SEQUENCE), None)))
     note("2hbms", hb_or_ms, lambda ii: format_codes(
         lambda k, pg: f"blue horizontal branch or main sequence: inside the core-helium-burning band (HPT2000 "
                       f"zero-age horizontal branch) where it overlaps the main sequence at this [Fe/H]; labelled "
                       f"{STAGES[k]} with P(giant, horizontal branch)={pg:.2f} (hb_share={hs:g}: halo A stars are "
                       "blue stragglers and BHB stars in comparable numbers); log g separates them",
-        len(ii), (code[ii], None), (proba[ii, GIANT], ".2f")))
+        len(ii), (code[ii], None), (proba[ii, GIANT], ".2f")), lambda ii: format_codes(
+        lambda k: f"blue horizontal branch or main sequence: inside the core-helium-burning band (HPT2000 zero-age "
+                  f"horizontal branch) where it overlaps the main sequence at this [Fe/H]; labelled {STAGES[k]} "
+                  f"(hb_share={hs:g}; P(horizontal branch) in prob_giant); log g separates them",
+        len(ii), (code[ii], None)))
     ex = (rawc & RAW_EXTRAPOLATED) != 0
     F.or_flag(flags, ex, F.OUTSIDE_VALIDITY)
     note("3extrap", ex, lambda ii: format_codes(
@@ -1069,11 +1109,16 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
                              "extrapolated beyond the fits" if hot else
                              f"Teff {tf:.0f} K is cooler than the 0.1 Msun ZAMS ({tz:.0f} K): main sequence "
                              "extrapolated beyond the fits"),
-        len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f"), (teff[ii] > 10000.0, None)))
+        len(ii), (teff[ii], ".0f"), (tz_row[ii], ".0f"), (teff[ii] > 10000.0, None)), lambda ii: format_codes(
+        lambda hot: ("brighter than the ZAMS of 100 Msun (the fits' top mass)" if hot else
+                     "cooler than the 0.1 Msun ZAMS") + ": main sequence extrapolated beyond the fits",
+        len(ii), (teff[ii] > 10000.0, None)))
     note("3zclip", zc, lambda ii: format_codes(
         lambda fg, fu: "[Fe/H]={} outside the supported -2.30..+{:.2f}: boundaries of [Fe/H]={} used".format(
             distinct_texts(fg, fu)[0], FEH_HELD_MAX, distinct_texts(fg, fu)[1]),
-        len(ii), (feh_given[ii], "+.4f"), (feh_used[ii], "+.4f")))
+        len(ii), (feh_given[ii], "+.4f"), (feh_used[ii], "+.4f")),
+        f"[Fe/H] outside the supported -2.30..+{FEH_HELD_MAX:.2f}: boundaries of the nearest supported [Fe/H] "
+        "used (feh_used)")
     # near boundary
     near = (near_to >= 0) & finite
     F.or_flag(flags, near, F.NEAR_BOUNDARY)
@@ -1087,8 +1132,11 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
             len(ii), (near_to[ii], None), (he, None), (np.where(he, st[ii], 0.0), ".3f"),
             (np.where(he, sl[ii], 0.0), ".3f"))
 
-    note("4near", near, near_text)
-    note("6nomass", np.nonzero(nomass)[0], "no mass relation applies here (mass NaN)")
+    note("4near", near, near_text, lambda ii: format_codes(
+        lambda k, e_: f"near a boundary: {STAGES[k]} within " + ("1 sigma" if e_ else probe),
+        len(ii), (near_to[ii], None), (has_err_all[ii], None)))
+    note("6nomass", np.nonzero(nomass)[0], "no mass relation applies here (mass NaN)",
+         "no mass relation applies here (mass NaN)")
     # low probability
     if drew or opts["low_probability"] > 1.0:
         sp = _row_pick(proba, code)
@@ -1099,7 +1147,10 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
         low = np.zeros(n, dtype=bool)
     note("7low", low, lambda ii: format_codes(
         lambda k, p, kb, pb: f"label uncertain: P({STAGES[k]})={p:.2f}, most probable {STAGES[kb]} ({pb:.2f})",
-        len(ii), (code[ii], None), (sp[ii], ".2f"), (np.argmax(proba[ii], axis=1), None), (proba[ii].max(axis=1), ".2f")))
+        len(ii), (code[ii], None), (sp[ii], ".2f"), (np.argmax(proba[ii], axis=1), None), (proba[ii].max(axis=1), ".2f")),
+        lambda ii: format_codes(
+            lambda k, kb: f"label uncertain: P({STAGES[k]}) < {opts['low_probability']:g}, most probable {STAGES[kb]}",
+            len(ii), (code[ii], None), (np.argmax(proba[ii], axis=1), None)))
     # missing / bad input
     miss = np.isnan(logt) | np.isnan(logl)
     badi = ~miss & ~finite
@@ -1110,7 +1161,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     base_key[young_or_ev & (code == PRE_MAIN_SEQUENCE)] = _B_YOUNGZONE
     for mask, what, key in ((badi, "not finite (inf)", "8bad"), (miss, "missing (NaN)", "8miss")):
         ii = np.nonzero(mask)[0]
-        note(key, ii, f"log Teff or log L {what}: not classified")
+        note(key, ii, f"log Teff or log L {what}: not classified", f"log Teff or log L {what}: not classified")
         if len(ii):
             base_key[ii] = _B_NOPOS
             proba[ii] = 0.0
@@ -1145,7 +1196,7 @@ def _classify(logt, logl, st, sl, rho, msup, feh, feh_used, groups, no_feh, n, n
     return ClassificationResult(
         logt=logt, logl=logl, logt_err=st, logl_err=sl, corr=rho, feh_used=feh_used, code=code, proba=proba,
         mass=mass_est, mass_err=mass_err, mass_code=mcode, mass_ms_teff=m_teff,
-        mass_ms_lum=m_lum, flags=flags, n_draws=n_draws, hb_share=hs, _notes=[(i, b) for _, i, b in sorted(notes, key=lambda x: x[0])], _base_key=base_key, _group=group,
+        mass_ms_lum=m_lum, flags=flags, n_draws=n_draws, hb_share=hs, _notes=[(i, b, w) for _, i, b, w in sorted(notes, key=lambda x: x[0])], _base_key=base_key, _group=group,
         _maps=maps, _teff=teff,
     )
 
@@ -1203,7 +1254,9 @@ def resolve_hb_or_ms(res, logg, logg_err, rows) -> None:
         res._base_key[ii] = np.where(hb, _B_HB, MAIN_SEQUENCE)
     res._reason = None
     res._flag_text = None
+    res._flag_words = None
     res._built_notes = None
+    res._built_words = None
 
 
 def estimate_mass(logt, logl, *, feh=None, mass=None, **params):

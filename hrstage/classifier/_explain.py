@@ -151,8 +151,8 @@ def explain_star(teff, lum=None, *, teff_err=None, lum_err=None, logg=None, feh=
         lines.append(f"Flags (value {f}):")
         bit_of = {name: bit for bit, name in ((b, flag_names(b)[0]) for b in DESCRIPTIONS)}
         lines += [f"  {name}: {DESCRIPTIONS[bit_of[name]]}" for name in flag_names(f)]
-        if res.flag_text[0]:
-            lines.append(f"Reasons: {res.flag_text[0]}")
+        if res.flag_detail[0]:
+            lines.append(f"Reasons: {res.flag_detail[0]}")
     else:
         lines.append("Flags: none")
     lines.append("Note: the label is indicative (analytic single-star fits); it does not replace a "

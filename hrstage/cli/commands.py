@@ -155,8 +155,9 @@ def cmd_classify(args) -> int:
     return EXIT_OK
 
 
-def _tagged_table(args):
-    """Read INPUT; classify it in memory when it has no stage column yet."""
+def _tagged_table(args, detail: bool = False):
+    """Read INPUT; classify it in memory when it has no stage column yet (``detail``: with the
+    reasons' numbers in ``flag_detail``, for the report)."""
     from ..catalog import read_table
     from ..engine import classify_table
 
@@ -165,6 +166,8 @@ def _tagged_table(args):
         return table
     opts = {k: v for k, v in _options(args).items()}
     columns = opts.pop("columns")
+    if detail:
+        opts["add_columns"] = "all,flag_detail"
     return classify_table(table, columns=columns, **opts)
 
 
@@ -387,7 +390,7 @@ def cmd_report(args) -> int:
         raise HrstageInputError("--figure and -o name the same file")
     for target in (report, figure):     # before any work: nothing is written if one cannot be
         check_output_path(target, overwrite=args.overwrite, inputs=[args.input])
-    table = _tagged_table(args)
+    table = _tagged_table(args, detail=True)
     title = args.title or _title_of(args.input)
     settings = _settings_of(table, {"catalogue": Path(args.input).name, "draws": args.draws, "seed": args.seed})
     _figure_and_report(table, title=title, figure_path=figure, report_path=report, settings=settings,
@@ -433,7 +436,7 @@ def cmd_demo(args) -> int:
         if present:
             raise HrstageInputError(f"{', '.join(present)} already exist(s); pass --overwrite to replace")
     out.mkdir(parents=True, exist_ok=True)
-    summary = classify_file(src, targets["table"], overwrite=args.overwrite, n_draws=args.draws,
+    summary = classify_file(src, targets["table"], overwrite=args.overwrite, n_draws=args.draws, add_columns="all,flag_detail",
                             seed=args.seed, progress=_progress_wanted(args))
     from ..catalog import read_table
 

@@ -117,9 +117,12 @@ def compute_columns(sub, opts: ClassifyOptions, offset: int = 0) -> dict:
         flags_all |= sp_flags
     cols["flags"] = flags_all
     wanted = our_columns(opts, sptype="sptype_verdict" in cols)
-    if "flag_text" in wanted:   # the reasons are formatted only when they are written
-        notes = [(not_done, reason_text), *err_note, *res.flag_notes(), *own_notes]
-        cols["flag_text"] = CodedText(*join_coded(n, notes))
+    # the reasons are formatted only when they are written: in words (a few distinct texts) and, on
+    # request, with each star's numbers (one text per flagged star: slow and bulky on big catalogues)
+    for name, detail in (("flag_text", False), ("flag_detail", True)):
+        if name in wanted:
+            notes = [(not_done, reason_text), *err_note, *res.flag_notes(detail=detail), *own_notes]
+            cols[name] = CodedText(*join_coded(n, notes))
     out = {}
     for c in wanted:
         if c in cols:

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field, replace
 
 from .._version import __version__
 from ..catalog.profiles import ROLES, ColumnMapping, detect_profile
-from ..columns import CLASSIFY_COLUMNS, COLUMNS, SPTYPE_COLUMNS
+from ..columns import CLASSIFY_COLUMNS, COLUMNS, ON_REQUEST_COLUMNS, SPTYPE_COLUMNS
 from ..defaults import DEFAULT_DRAWS, DEFAULT_SEED, check_draws, check_feh
 from ..errors import HrstageInputError
 
@@ -92,23 +92,29 @@ BRIEF_COLUMNS = ("stage", "stage_prob", "mass_est", "teff_used", "logl_used", "f
 
 
 def _add_columns(value):
-    """``add_columns`` option -> tuple of our column names, or None for all of them."""
+    """``add_columns`` option -> tuple of our column names, or None for the default set (all but
+    the on-request columns). The words ``all`` and ``brief`` stand for their sets and combine with
+    names: ``"all,flag_detail"``."""
     if value is None:
         return None
     if isinstance(value, str):
-        key = value.strip().lower()
-        if key == "all":
-            return None
-        if key == "brief":
-            return BRIEF_COLUMNS
         value = [v for v in value.split(",") if v.strip()]
     names = [str(v).strip() for v in value]
-    known = (*CLASSIFY_COLUMNS, *SPTYPE_COLUMNS)
+    words = {v.lower() for v in names} & {"all", "brief"}
+    names = [v for v in names if v.lower() not in ("all", "brief")]
+    if words == {"all"} and not names:
+        return None
+    known = (*CLASSIFY_COLUMNS, *SPTYPE_COLUMNS, *ON_REQUEST_COLUMNS)
     bad = [v for v in names if v not in known]
     if bad:
         raise HrstageInputError(f"unknown column(s) to add: {', '.join(bad)}; choose 'all', 'brief' or "
                                 f"names among {', '.join(known)}")
-    return tuple(c for c in known if c in set(names) | set(ALWAYS_ADDED))
+    chosen = set(names) | set(ALWAYS_ADDED)
+    if "all" in words:
+        chosen |= {*CLASSIFY_COLUMNS, *SPTYPE_COLUMNS}
+    if "brief" in words:
+        chosen |= set(BRIEF_COLUMNS)
+    return tuple(c for c in known if c in chosen)
 
 
 def make_options(**options) -> ClassifyOptions:
@@ -161,7 +167,12 @@ def resolve_options(infos, opts: ClassifyOptions) -> ClassifyOptions:
 
 
 def our_columns(opts, sptype=False):
-    names = list(CLASSIFY_COLUMNS)
+    """Our columns a run writes, in their order (the on-request ones after ``flag_text``)."""
+    names = []
+    for c in CLASSIFY_COLUMNS:
+        names.append(c)
+        if c == "flag_text" and opts.add_columns is not None:
+            names += [r for r in ON_REQUEST_COLUMNS if r in opts.add_columns]
     if sptype or (opts.check_sptypes and opts.mapping is not None and "sptype" in opts.mapping.roles):
         names += list(SPTYPE_COLUMNS)
     if opts.add_columns is not None:

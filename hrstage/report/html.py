@@ -592,7 +592,9 @@ def render_report(table, *, title="hrstage stage report", settings=None, stage_m
     prob = _float_column(table, "stage_prob")
     idc = _find(table, _ID_CANDIDATES, id_column, "id_column", role="id")
     ids = _text_column(table, idc) if idc else np.array([""] * n, dtype=object)
-    flag_text = _text_column(table, "flag_text") if "flag_text" in table.colnames else None
+    # the reasons with each star's numbers when the catalogue has them (flag_detail), else in words
+    reason_col = next((c for c in ("flag_detail", "flag_text") if c in table.colnames), None)
+    flag_text = _text_column(table, reason_col) if reason_col else None
     prefix = ""
     when = generated_at or _dt.datetime.now(_dt.timezone.utc)
     when_s = when.strftime("%Y-%m-%d %H:%M:%S %Z").strip()

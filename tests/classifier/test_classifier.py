@@ -37,8 +37,26 @@ def test_cool_massive_star_is_flagged_supergiant():
     r = classify_hr(np.log10(4000.0), np.log10(3.2e4), mass=11.0, feh=0.0)
     assert r.stage[0] == "supergiant"
     assert r.flags[0] & F.COOL_BUT_MASSIVE
-    assert "M_MS(Teff)=" in r.flag_text[0] and "M_MS(L)=" in r.flag_text[0]
-    assert "supplied 11" in r.flag_text[0]
+    assert "M_MS(Teff)=" in r.flag_detail[0] and "M_MS(L)=" in r.flag_detail[0]
+    assert "supplied 11" in r.flag_detail[0]
+    # in words (flag_text): the same reason without the star's numbers, which are in the columns
+    assert r.flag_text[0].startswith("cool but massive") and "mass_ms_lum" in r.flag_text[0]
+    assert "11" not in r.flag_text[0] and "M_MS(L)=" not in r.flag_text[0]
+
+
+def test_reasons_in_words_are_one_text_per_combination():
+    # 2000 stars scattered over the diagram with errors: the detailed reasons carry each star's numbers,
+    # the reasons in words only the flag combination (and the labels they name)
+    rng = np.random.default_rng(3)
+    logt = rng.uniform(3.5, 4.4, 2000)
+    logl = rng.uniform(-3.0, 4.0, 2000)
+    r = classify_hr(logt, logl, logt_err=np.full(2000, 0.01), logl_err=np.full(2000, 0.05), feh=-0.2)
+    words, detail = r.flag_text, r.flag_detail
+    assert ((words == "") == (detail == "")).all()
+    assert len(set(words)) < 60 < len(set(detail))
+    # every detailed text starts like its words version (same reasons, same order)
+    for w, d in zip(words, detail):
+        assert w.split(":")[0] == d.split(":")[0]
 
 
 def test_supplied_mass_promotes_post_ms_star():
@@ -132,7 +150,7 @@ def test_binary_band_flag_not_promoted():
     r = classify_hr(t, top + 0.2, feh=0.0)
     assert r.stage[0] == "main_sequence"
     assert r.flags[0] & F.POSSIBLE_BINARY
-    assert "dex above the main-sequence upper edge" in r.flag_text[0]
+    assert "dex above the main-sequence upper edge" in r.flag_detail[0]
 
 
 def _edge_crossings(curve_t, curve_l, t):
@@ -171,7 +189,7 @@ def test_binary_band_height_is_the_geometric_offset():
                 got = sm.binary_band_height([t], [c + h])[0]
                 assert got == pytest.approx(h, abs=1e-9)
                 r = classify_hr(t, c + h, feh=0.0)
-                m = re.search(r"possible unresolved binary: (-?[0-9.]+) dex above", r.flag_text[0])
+                m = re.search(r"possible unresolved binary: (-?[0-9.]+) dex above", r.flag_detail[0])
                 assert m and float(m.group(1)) == pytest.approx(h, abs=0.005)
                 checked += 1
     assert checked >= 8
@@ -190,13 +208,13 @@ def test_binary_band_reasons_never_negative():
     b = (r.flags & F.POSSIBLE_BINARY) != 0
     assert b.sum() > 500
     hs = []
-    for text in r.flag_text[b]:
+    for text in r.flag_detail[b]:
         m = re.search(r"possible unresolved binary: (?:(-?[0-9.]+) dex above|on) the main-sequence upper edge", text)
         assert m, text
         hs.append(float(m.group(1)) if m.group(1) else 0.0)
     hs = np.array(hs)
     assert hs.min() >= 0.0 and hs.max() <= 0.30 + 0.01
-    assert "-0.00" not in " ".join(r.flag_text[b])
+    assert "-0.00" not in " ".join(r.flag_detail[b])
 
 
 def test_to_columns_names():
@@ -370,7 +388,7 @@ def test_row_result_does_not_depend_on_other_rows():
         same = classify_hr(lt, ll, logt_err=0.01, logl_err=0.05, feh=np.full(400, fe[i]))
         for other, j in ((alone, 0), (same, i)):
             assert other.code[j] == full.code[i] and other.flags[j] == full.flags[i]
-            assert other.flag_text[j] == full.flag_text[i] and other.reason[j] == full.reason[i]
+            assert other.flag_text[j] == full.flag_text[i] and other.flag_detail[j] == full.flag_detail[i] and other.reason[j] == full.reason[i]
             assert other.feh_used[j] == full.feh_used[i]
 
 

@@ -189,7 +189,7 @@ def test_clipped_feh_and_its_limit_never_print_alike():
     # -2.3033 is below the fits' Z = 1e-4 limit ([Fe/H] = log10(1e-4/0.02) = -2.301, Z_sun = 0.02 of
     # hrstage.models.metallicity): at two decimals both print -2.30
     res = classify_hr(np.log10([5000.0]), np.array([0.4]), feh=-2.3033)
-    text = str(res.flag_text[0])
+    text = str(res.flag_detail[0])
     assert "[Fe/H]=-2.303 outside" in text and "[Fe/H]=-2.301 used" in text, text
 
 
