@@ -141,7 +141,12 @@ class SpType:
         if self.kind == "carbon" and isinstance(c2, float) and 0 <= c2 < 10 and (4 * c2).is_integer():
             head += f",{_quarter_text(c2)}"  # Keenan's C2 band index after the comma: 'C6+,3'
             in_head.append("C2")
+        # Wolf-Rayet line qualifiers are written on the type ('WN6h', 'WN5b', 'WC8+abs'): a separate
+        # word after the type would not read back as one
+        wr_tail = [p for p in self.peculiarities if p in _WR_SUFFIXES] if self.kind == "wolf_rayet" else []
         for k in in_head[:5]:
+            if k == "line_group" and wr_tail:
+                head += "".join(wr_tail)
             if k in self.indices:
                 head += _render_index(k, self.indices[k])
         if self.temp_uncertain:
@@ -157,6 +162,7 @@ class SpType:
             parts.append(_render_index(k, v).strip())
         cno = _cno(self) if self.kind in ("mk", "am_ap") else ""
         skip = {cno} if cno else _WD_SUFFIXES if self.kind == "white_dwarf" else set()
+        skip = skip | set(wr_tail)
         parts.extend(p for p in self.peculiarities if p not in skip)
         return " ".join(parts)
 
@@ -336,6 +342,8 @@ _P_TYPERANGE = _R(r"[-/](?=[OBAFGKMLTY]\d)")
 _P_SLASHWR = _R(r"/(?=W[NCO])")
 
 _WD = _R(r"D([ABOQZCXFGK]+)(\d+(?:\.\d+)?|\.\d)?((?:P|H|E|V|X|d|pec)*)(::|:|\?)?")
+#: the Wolf-Rayet line qualifiers read on the type itself (group 4 of :data:`_WR`)
+_WR_SUFFIXES = ("ha", "(h)", "h", "b", "w", "s", "d", "pec", "+abs")
 _WR = _R(r"W([NCOR])(\d+(?:\.\d)?)?(?:[-/](\d+))?((?:ha|\(h\)|h|b|w|s|d|pec|\+abs)*)(?:-([AB]))?(::|:|\?)?")
 _CARBON = _R(r"C(?:-(Hd|R|N|J|H))?(\d(?:\.\d)?)?([+-](?![\d]))?(?:,(\d)([+-])?)?")
 _HARVARD_C = _R(r"([RN])(\d)?(?![a-zA-Z]{2,}\d)")

@@ -172,3 +172,13 @@ def test_prefixes_map_to_classes():
     assert parse("sdG8").lumclass == "VI"
     # hot subdwarfs are a different family (note §1.4 "family trap")
     assert parse("sdB").kind == "hot_subdwarf" and expected_stage(parse("sdB").lumclass) == "hot_subdwarf"
+
+
+@pytest.mark.parametrize("text", ["WNb", "WN5b", "WN6h", "WN6ha:", "WC5-7b", "WNb+abs"])
+def test_wolf_rayet_qualifiers_stay_on_the_type(text):
+    # the WR line qualifiers (h: hydrogen, b: broad lines, ha: H absorption; Smith, Shara & Moffat 1996
+    # notation, from memory) are written on the type: 'WN b' would read back without the 'b'
+    # (found by the fuzz test's normal-form check)
+    p = parse(text)
+    assert p.normalised == text
+    assert parse(p.normalised).peculiarities == p.peculiarities
