@@ -34,8 +34,8 @@ def arrow_infos(data, attrs):
 
 #: Our text columns with few distinct values: written as dictionary-encoded Arrow strings
 #: (one copy of each text per chunk, integer codes per row).
-DICTIONARY_COLUMNS = ("stage", "mass_method", "hr_source", "sptype_parsed", "sptype_lumclass", "sptype_stage",
-                      "sptype_verdict", "sptype_suggested")
+DICTIONARY_COLUMNS = ("stage", "branch", "mass_method", "hr_source", "flag_text", "sptype_parsed", "sptype_lumclass",
+                      "sptype_stage", "sptype_verdict", "sptype_suggested")
 
 _YAML_CACHE: dict = {}
 

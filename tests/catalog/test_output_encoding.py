@@ -37,9 +37,10 @@ def test_classify_file_parquet_encodings_and_astropy_reads_it(tmp_path):
     enc = _encodings(dst)
     for name in ("star_id", "teff", "lum", "feh"):            # input: pyarrow's defaults
         assert enc[name] == (True, True), name
-    for name in ("stage", "mass_method", "hr_source", "prob_giant", "stage_prob", "flags", "feh_used"):
+    for name in ("stage", "branch", "mass_method", "hr_source", "flag_text", "prob_giant", "stage_prob", "flags",
+                 "feh_used"):
         assert enc[name] == (True, False), name              # few values: dictionary, no statistics
-    for name in ("mass_est", "teff_used", "logl_used", "flag_text"):
+    for name in ("mass_est", "teff_used", "logl_used"):
         assert enc[name] == (False, False), name             # continuous / long texts: plain
     # astropy's reader refuses Arrow dictionary columns: ours are stored as plain strings
     with warnings.catch_warnings():
