@@ -393,9 +393,15 @@ def _cautions(count, n_unc):
         out.append("Uncertain labels: " + join(items) + ".")
     young = count(F.YOUNG_OR_EVOLVED) if hasattr(F, "YOUNG_OR_EVOLVED") else 0
     if young:
-        out.append(f"Young or evolved: {stars(young)} lie where young (pre-main-sequence) and evolved stars "
+        out.append(f"Young or evolved: {stars(young)} {'lies' if young == 1 else 'lie'} where young (pre-main-sequence) and evolved stars "
                    "share the HR diagram (YOUNG_OR_EVOLVED); their label follows the assumed share of young "
                    "stars (a field population unless the run said otherwise) and both probabilities are given.")
+    hbms = count(F.HB_OR_MAIN_SEQUENCE)
+    if hbms:
+        out.append(f"Blue horizontal branch or main sequence: {stars(hbms)} {'lies' if hbms == 1 else 'lie'} where, at their metallicity, the "
+                   "core-helium-burning band overlaps the main sequence (HB_OR_MAIN_SEQUENCE); their label follows "
+                   "the assumed share of horizontal-branch stars, both probabilities are given, and log g would "
+                   "separate them.")
     return out
 
 

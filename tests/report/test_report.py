@@ -342,3 +342,16 @@ def test_every_conflict_verdict_is_listed():
     listed = {row[0] for row in rows}
     assert {"3", "4", "25", "6", "12", "13"} <= listed
     assert any("typed DA but the HR position is main_sequence" in cell for row in rows for cell in row)
+
+
+def test_cautions_count_shared_positions():
+    # the two positions the HR diagram cannot settle get a caution with their counts (invented stars)
+    t = synthetic_table()
+    flags = np.array(t["flags"])
+    flags[[12, 13]] |= F.HB_OR_MAIN_SEQUENCE
+    flags[[14]] |= F.YOUNG_OR_EVOLVED
+    t["flags"] = flags
+    text = " ".join(parse(render_report(t, generated_at=WHEN)).text)
+    assert "Blue horizontal branch or main sequence: 2 stars lie where" in text and "log g would separate them" in text
+    assert "Young or evolved: 1 star lies where" in text
+    assert "HB_OR_MAIN_SEQUENCE" in text
