@@ -363,16 +363,19 @@ def _cell_tables(grids, route):
     i + 1 (a locus point missing on one side: the other side's value and no change; none: 0, with
     zero weight), the weight at i and its change, the slope at i, and for the AGB the log L at i and
     its change (early / thermally pulsing share). A list of (n_columns, n_mass, n_cells) arrays, one
-    per hypothesis (~5 MB a grid and route).
+    per hypothesis (~5 MB a grid and route); with it, per hypothesis, the running count over the
+    cells of those with weight, (n_mass, n_cells + 1): the masses with weight in cells lo .. hi - 1
+    are those whose count changes from lo to hi (a mass-grid stride, ``MASS_STEP``, leaves the
+    skipped masses without any).
 
     Kept on ``grids`` from their second use on (a second chunk of a file, a second call): a run of
     one chunk over many [Fe/H] grids (a small target list) then holds one grid's tables at a time
     instead of all of them, while a long run builds each one twice at most (~4 ms).
     """
-    cache = grids.__dict__.setdefault("_cells", {})
-    seen = grids.__dict__.setdefault("_cells_seen", set())
+    cache = grids.__dict__.setdefault("_cell_tabs", {})
+    seen = grids.__dict__.setdefault("_cell_tabs_seen", set())
     if route not in cache:
-        out = []
+        out, counts = [], []
         for h in range(N_HYP):
             t, w = np.asarray(grids.logt[route][h]), np.asarray(grids.weight[route][h])
             t0, t1, w0, w1 = t[:, :-1], t[:, 1:], w[:, :-1], w[:, 1:]
@@ -383,6 +386,12 @@ def _cell_tables(grids, route):
                 lg = np.asarray(grids.logl[route][h])
                 cols += [lg[:, :-1], lg[:, 1:] - lg[:, :-1]]   # NaN where either end is missing
             out.append(np.stack(cols))
+            has_w = (cols[2] != 0) | (cols[3] != 0)
+            has_w[np.arange(has_w.shape[0]) % MASS_STEP[h] != 0] = False
+            c = np.zeros((has_w.shape[0], has_w.shape[1] + 1), dtype=np.int32)
+            np.cumsum(has_w, axis=1, out=c[:, 1:])
+            counts.append(c)
+        out = (out, counts)
         if route not in seen:
             seen.add(route)
             return out
@@ -390,18 +399,19 @@ def _cell_tables(grids, route):
     return cache[route]
 
 
-def _evaluate(grids, route, x, logt, sx, st, chunk=512):
+def _evaluate(grids, route, x, logt, sx, st, chunk=512, span=None):
     """Evidence per hypothesis, mass mean / sd per hypothesis, early-AGB share, for positions ``x``.
 
     The locus of each mass is interpolated linearly in ``x`` between grid points (a point missing on
     one side: the other side's), with its weight; the slope is that of the lower grid point. Stars
-    are taken in order of ``x`` in blocks; a block's stars sit in few grid cells, whose tabulated
-    loci are repeated over the stars of each cell (no per-star lookup), and only the loci with
-    weight in those cells are evaluated. The result of a star never depends on the others.
+    are taken in order of ``x`` in blocks (at most ``chunk`` stars over at most ``span`` grid
+    cells); a block's stars sit in few grid cells, whose tabulated loci are repeated over the stars
+    of each cell (no per-star lookup), and only the loci with weight in those cells are evaluated.
+    The result of a star never depends on the others.
     """
     n = len(x)
     xg = _XL if route == "hr" else _XG
-    cells = _cell_tables(grids, route)
+    cells, wcount = _cell_tables(grids, route)
     out = (np.zeros((n, N_HYP)), np.full((n, N_HYP), np.nan), np.full((n, N_HYP), np.nan), np.zeros(n),
            np.full(n, np.inf))
     pos_all = (x - xg[0]) / (xg[1] - xg[0])
@@ -410,27 +420,28 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=512):
     idx = idx[np.argsort(pos_all[idx], kind="stable")]
     s2obs_all = np.maximum(st, SIGMA_T_FLOOR) ** 2 + SIGMA_INT**2
     sxr_all = np.sqrt(sx**2 + SIGMA_X_INT**2)
-    has_w = [(c[2] != 0) | (c[3] != 0) for c in cells]          # (n_mass, n_cells) per hypothesis
-    for a in range(0, len(idx), chunk):
-        rows = idx[a:a + chunk]
-        pos = pos_all[rows]
-        i = pos.astype(np.intp)
-        fr = pos - i
+    pos_s = pos_all[idx]
+    cell_s = pos_s.astype(np.intp)
+    a = 0
+    while a < len(idx):
+        b = a + chunk
+        if span is not None:
+            b = min(b, int(np.searchsorted(cell_s, cell_s[a] + span)))
+        rows, i = idx[a:b], cell_s[a:b]
+        fr = pos_s[a:b] - i
+        a = b
         lo_c, hi_c = int(i[0]), int(i[-1]) + 1
-        counts = np.bincount(i - lo_c, minlength=hi_c - lo_c)
+        counts = None if hi_c - lo_c == 1 else np.bincount(i - lo_c, minlength=hi_c - lo_c)
+        star = (s2obs_all[rows], sxr_all[rows], logt[rows])
         for h in range(N_HYP):
-            ks = np.flatnonzero(has_w[h][:, lo_c:hi_c].any(axis=1))
-            # a stride > 1 over the masses trades accuracy for speed: at 3 on the RGB and AGB the
-            # APOKASC-3 RGB mass scatter rises from 11.8 to 12.0 % (the posterior mass is quantised)
-            ks = ks[ks % MASS_STEP[h] == 0]
+            ks = np.flatnonzero(wcount[h][:, hi_c] != wcount[h][:, lo_c])
             if not len(ks):
                 continue
-            if hi_c - lo_c == 1:    # one cell: its loci broadcast over the stars
+            if counts is None:    # one cell: its loci broadcast over the stars
                 g = cells[h][:, ks, lo_c][:, :, None]
             else:
                 g = np.repeat(cells[h][:, ks, lo_c:hi_c], counts, axis=2)
-            _score(g, fr, rows, h, grids.mass[ks], grids.logl_tp[ks], s2obs_all[rows], sxr_all[rows],
-                   logt[rows], out)
+            _score(g, fr, rows, h, grids.mass[ks], grids.logl_tp[ks], *star, out)
     ev, m1, m2, early, near = out
     return ev, m1, m2, early, np.sqrt(near)
 
@@ -460,8 +471,7 @@ def _score(g, fr, rows, h, mass, ltp, s2obs, sxr, ltr, out):
     like *= w
     np.sqrt(var, out=var)
     like /= var
-    np.copyto(z2, np.inf, where=~(like > 0))
-    near[rows] = np.minimum(near[rows], z2.min(axis=0))
+    near[rows] = np.minimum(near[rows], np.where(like > 0, z2, np.inf).min(axis=0))
     tot = like.sum(axis=0)
     ev[rows, h] = tot
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -472,9 +482,11 @@ def _score(g, fr, rows, h, mass, ltp, s2obs, sxr, ltr, out):
         dm *= like
         m2[rows, h] = np.sqrt(np.maximum(dm.sum(axis=0) / tot, 0.0))
         if h == 2:
-            ll = g[6] * fr
+            ll = np.multiply(g[6], fr, out=w)
             ll += g[5]
-            early[rows] = np.where(tot > 0, ((ll < ltp[:, None]) * like).sum(axis=0) / tot, 0.0)
+            np.less(ll, ltp[:, None], out=z2)     # 1 / 0: thermally pulsing yet or not
+            z2 *= like
+            early[rows] = np.where(tot > 0, z2.sum(axis=0) / tot, 0.0)
 
 
 def classify_branch(logt, logl, stage_code, *, logt_err=None, logl_err=None, logg=None, logg_err=None,
