@@ -7,6 +7,7 @@ raster (method per stage) or the supplied mass; flags with readable reasons.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -428,8 +429,18 @@ def _uniform_inside(sm, x0, x1, y0, y1):
 def _hull(z1, z2):
     """Vertices of the convex hull of the points (z1_k, z2_k) (monotone chain; a handful of the
     draws), as float64 arrays: the extreme of any linear combination a z1 + b z2 over the draws
-    is reached at one of them."""
-    pts = sorted(set(zip(np.asarray(z1, float).tolist(), np.asarray(z2, float).tolist())))
+    is reached at one of them. The common random numbers are the same for every map and chunk of
+    a run: the hull is kept for the last few sets of them."""
+    z1, z2 = np.asarray(z1, float), np.asarray(z2, float)
+    h1, h2 = _hull_of(z1.tobytes(), z2.tobytes())
+    return h1.copy(), h2.copy()
+
+
+@functools.lru_cache(maxsize=4)
+def _hull_of(b1, b2):
+    """:func:`_hull` of the float64 arrays given by their bytes (cached)."""
+    z1, z2 = np.frombuffer(b1), np.frombuffer(b2)
+    pts = sorted(set(zip(z1.tolist(), z2.tolist())))
     if len(pts) <= 2:
         a = np.array(pts, dtype=float).reshape(-1, 2)
         return a[:, 0], a[:, 1]
