@@ -7,6 +7,7 @@ raster (method per stage) or the supplied mass; flags with readable reasons.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -421,44 +422,45 @@ def _uniform_boxes(sm, xc, yc, ex, ey):
 def _uniform_range(sm, x0, x1, y0, y1):
     """Stage code of stars whose box ``[x0, x1] x [y0, y1]`` (unpadded fractional cells) lies in
     blocks of a single stage, -1 for the others; and whether the box lies inside the raster."""
-    bcode, sat, by, bx = _uniform_tables(sm)
     g = sm.grid
-    k = UNIFORM_BLOCK
     inside = (x0 >= 0) & (y0 >= 0) & (x1 < g.nx) & (y1 < g.ny)
     out = np.full(len(x0), -1, dtype=np.int8)
     if not inside.any():
         return out, inside
+    if inside.all():
+        return _uniform_inside(sm, x0, x1, y0, y1), inside
     i = np.nonzero(inside)[0]
-    bx0 = x0[i].astype(np.intp)
-    bx0 //= k
-    by0 = y0[i].astype(np.intp)
-    by0 //= k
-    c = bcode.reshape(-1).take(by0 * bx + bx0)
-    ok = np.nonzero(c >= 0)[0]  # the corner block is uniform: test the whole box
-    i, c, bx0, by0 = i[ok], c[ok].astype(np.intp), bx0[ok], by0[ok]
-    bx1 = x1[i].astype(np.intp)
-    bx1 //= k
-    bx1 += 1
-    by1 = y1[i].astype(np.intp)
-    by1 //= k
-    by1 += 1
-    w1 = bx + 1
-    c *= (by + 1) * w1
-    r0 = by0 * w1
-    r0 += c
-    r1 = by1 * w1
-    r1 += c
-    tot = sat.take(r1 + bx1) - sat.take(r0 + bx1) - sat.take(r1 + bx0) + sat.take(r0 + bx0)
-    full = tot == (by1 - by0) * (bx1 - bx0)
-    out[i[full]] = (c[full] // ((by + 1) * w1)).astype(np.int8)
+    out[i] = _uniform_inside(sm, x0[i], x1[i], y0[i], y1[i])
     return out, inside
+
+
+def _uniform_inside(sm, x0, x1, y0, y1):
+    """:func:`_uniform_range` of boxes known to lie inside the raster: the stage codes (-1 where a
+    box is not uniform)."""
+    k = UNIFORM_BLOCK
+    bx0, bx1, by0, by1 = (v.astype(np.intp) for v in (x0, x1, y0, y1))
+    for v in (bx0, bx1, by0, by1):
+        v //= k
+    bx1 += 1
+    by1 += 1
+    return _uniform_blocks(sm, bx0, bx1, by0, by1)
 
 
 def _hull(z1, z2):
     """Vertices of the convex hull of the points (z1_k, z2_k) (monotone chain; a handful of the
     draws), as float64 arrays: the extreme of any linear combination a z1 + b z2 over the draws
-    is reached at one of them."""
-    pts = sorted(set(zip(np.asarray(z1, float).tolist(), np.asarray(z2, float).tolist())))
+    is reached at one of them. The common random numbers are the same for every map and chunk of
+    a run: the hull is kept for the last few sets of them."""
+    z1, z2 = np.asarray(z1, float), np.asarray(z2, float)
+    h1, h2 = _hull_of(z1.tobytes(), z2.tobytes())
+    return h1.copy(), h2.copy()
+
+
+@functools.lru_cache(maxsize=4)
+def _hull_of(b1, b2):
+    """:func:`_hull` of the float64 arrays given by their bytes (cached)."""
+    z1, z2 = np.frombuffer(b1), np.frombuffer(b2)
+    pts = sorted(set(zip(z1.tolist(), z2.tolist())))
     if len(pts) <= 2:
         a = np.array(pts, dtype=float).reshape(-1, 2)
         return a[:, 0], a[:, 1]
@@ -490,16 +492,45 @@ def _y_extent(a, b, z1, z2):
     return lo, hi
 
 
-def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 14):
+#: draws of the common random numbers per group (the groups are compact patches of the (z1, z2)
+#: plane): a drawn star whose draws of one group all lie in blocks of one stage gets that group's
+#: draws counted there without drawing them (exact, as for whole stars)
+MC_GROUP = 32
+#: stars tested and drawn group by group together (their per-star arrays stay in the cache)
+MC_BLOCK = 16384
+
+
+def _draw_groups(z1, z2):
+    """Index arrays of the draws grouped into compact patches of the (z1, z2) plane: strips of
+    z1, each cut along z2 into runs of about :data:`MC_GROUP` draws (a function of the common
+    random numbers only, so the grouping is the same for every star)."""
+    d = len(z1)
+    if d <= MC_GROUP:
+        return [np.arange(d)]
+    n_groups = -(-d // MC_GROUP)
+    strips = max(1, int(round(np.sqrt(n_groups))))
+    order = np.argsort(z1, kind="stable")
+    groups = []
+    for s in np.array_split(order, strips):
+        s = s[np.argsort(z2[s], kind="stable")]
+        groups += [g for g in np.array_split(s, max(1, -(-len(s) // MC_GROUP))) if len(g)]
+    return groups
+
+
+def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 16):
     """Counts per stage (N, N_STAGES) of the draws, common random numbers z1, z2.
 
     Stars whose whole draw box (the exact range of their drawn positions, from the extreme z1 and
     the hull of (z1, z2), plus one cell) lies in blocks of a single stage get all draws in that
-    stage without drawing (exact). The others are drawn, in the order of their raster cell (so
-    that neighbouring stars read neighbouring memory; the counts do not depend on the order), in
-    chunks of about ``chunk`` star-draws in float32 index arithmetic on the flattened stage
-    raster; the stages are counted with packed one-hot tables (8 bits per stage in 64-bit words,
-    at most 255 draws per pass) summed over the draws of each star.
+    stage without drawing (exact). For the other stars inside the raster the same test is made
+    per group of draws (:func:`_draw_groups`: the box of a group, from the extremes of its z1
+    and z2, plus one cell): a uniform group's draws are counted in its stage, only the other
+    groups are drawn. Drawing goes in the order of the stars' raster tiles (so that neighbouring
+    stars read neighbouring memory; the counts do not depend on the order), in chunks of about
+    ``chunk`` star-draws in float32 index arithmetic on the flattened stage raster (the same
+    operations for every draw, so that a drawn cell does not depend on how the draws are
+    grouped). Stars whose box leaves the raster are drawn whole with clipping
+    (:func:`_draw_counts`).
     """
     lk = sm.codes
     n, d = len(logt), len(z1)
@@ -517,15 +548,159 @@ def _mc_counts(sm, logt, logl, st, sl, rho, z1, z2, chunk=1 << 14):
     uni, inside = _uniform_range(sm, xc + sx * zlo - 1.0, xc + sx * zhi + 1.0, yc + ylo - 1.0, yc + yhi + 1.0)
     done = uni >= 0
     counts[np.nonzero(done)[0], uni[done].astype(np.intp)] = d
-    # boxes inside the raster need no clipping of the drawn positions
     for todo, clip in ((np.nonzero(~done & inside)[0], False), (np.nonzero(~done & ~inside)[0], True)):
-        if len(todo):
-            # tiles of MC_TILE x MC_TILE cells, row by row
-            ty, tx = np.floor(yc[todo] / MC_TILE), np.floor(xc[todo] / MC_TILE)
-            key = ty * (lk.width // MC_TILE + 2) + tx
-            todo = todo[np.argsort(key, kind="stable")]
+        if not len(todo):
+            continue
+        # tiles of MC_TILE x MC_TILE cells, row by row
+        ty, tx = np.floor(yc[todo] / MC_TILE), np.floor(xc[todo] / MC_TILE)
+        key = ty * (lk.width // MC_TILE + 2) + tx
+        todo = todo[np.argsort(key, kind="stable")]
+        if clip:
             _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip)
+        else:  # blocks of stars whose per-star arrays stay in the processor's cache
+            for b0 in range(0, len(todo), MC_BLOCK):
+                _draw_by_group(sm, counts, todo[b0 : b0 + MC_BLOCK], xc, yc, sx, sya, syb, z1, z2, chunk)
     return counts
+
+
+def _draw_by_group(sm, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk):
+    """Counts of the stars ``todo`` (boxes inside the raster): per group of draws, the uniform
+    test of the group's box, then the draws of the non-uniform groups (see :func:`_mc_counts`).
+
+    The drawn stages are summed per star in one packed word (8-bit counters) over all its drawn
+    groups, so the draws are taken in rounds of at most 255 (the counters must not overflow)."""
+    f32 = np.float32
+    xt, yt, sxt, syat, sybt = xc[todo], yc[todo], sx[todo], sya[todo], syb[todo]
+    # the float32 operands of the drawing scheme, made once (padded coordinates), one row per star
+    ops = np.empty((len(todo), 5), f32)
+    for q, v in enumerate((xt + 1.0, yt + 1.0, sxt, syat, sybt)):
+        ops[:, q] = v
+    # the group boxes in block units: x from x - 1 + sx [a, b], y from y - 1 + (sya z1 + syb z2)
+    # over the group's z box (syb >= 0; the sign of sya picks the z1 end), plus one cell
+    kb = 1.0 / UNIFORM_BLOCK
+    xb0, xb1, sxb = (xt - 1.0) * kb, (xt + 1.0) * kb, sxt * kb
+    yb0, yb1 = (yt - 1.0) * kb, (yt + 1.0) * kb
+    spb, snb, sbb = np.maximum(syat, 0.0) * kb, np.minimum(syat, 0.0) * kb, sybt * kb
+    nt = len(todo)
+    lk = sm.codes
+    tmp = np.empty(nt)
+    for r0 in range(0, len(z1), _PACK_MAX):
+        rz1, rz2 = z1[r0 : r0 + _PACK_MAX], z2[r0 : r0 + _PACK_MAX]
+        acc = np.zeros(nt, np.uint64)  # packed stage counters of the drawn groups
+        extra = np.zeros((nt, len(_KERNEL_EXTRA)), np.int64)
+        ucnt = np.zeros((nt, N_STAGES), np.int64)  # draws of the uniform groups
+        flat_u = ucnt.reshape(-1)
+        for g in _draw_groups(rz1, rz2):
+            g1, g2 = rz1[g], rz2[g]
+            a, b = float(g1.min()), float(g1.max())
+            c0, c1 = float(g2.min()), float(g2.max())
+            bx0 = _block_index(xb0, sxb, a, tmp)
+            bx1 = _block_index(xb1, sxb, b, tmp)
+            bx1 += 1
+            np.multiply(spb, a, out=tmp)
+            tmp += yb0
+            tmp += snb * b
+            tmp += sbb * c0
+            by0 = tmp.astype(np.intp)
+            np.multiply(spb, b, out=tmp)
+            tmp += yb1
+            tmp += snb * a
+            tmp += sbb * c1
+            by1 = tmp.astype(np.intp)
+            by1 += 1
+            uni = _uniform_blocks(sm, bx0, bx1, by0, by1)
+            ui = np.nonzero(uni >= 0)[0]
+            flat_u[ui * N_STAGES + uni[ui]] += len(g)
+            if len(ui) == nt:
+                continue
+            rest = np.nonzero(uni < 0)[0]
+            _draw_kernel(lk, acc, extra, rest, ops[rest], g1, g2, chunk)
+        part = ((acc[:, None] >> _SHIFTS[None, : len(_KERNEL_SLOTS)]) & np.uint64(_PACK_MAX)).astype(np.int64)
+        ucnt[:, _KERNEL_SLOTS] += part
+        ucnt[:, list(_KERNEL_EXTRA)] += extra
+        ucnt[:, UNCLASSIFIED] += len(rz1) - ucnt.sum(axis=1)
+        counts[todo] += ucnt
+
+
+def _block_index(v0, sv, z, tmp):
+    """``floor(v0 + sv z)`` as intp (block coordinates >= 0 of boxes inside the raster)."""
+    np.multiply(sv, z, out=tmp)
+    tmp += v0
+    return tmp.astype(np.intp)
+
+
+def _uniform_blocks(sm, bx0, bx1, by0, by1):
+    """Stage code of the block boxes ``[bx0, bx1) x [by0, by1)`` (inside the raster) that hold a
+    single stage, -1 for the others."""
+    bcode, sat, by, bx = _uniform_tables(sm)
+    out = np.full(len(bx0), -1, dtype=np.int8)
+    c = bcode.reshape(-1).take(by0 * bx + bx0)
+    i = np.nonzero(c >= 0)[0]  # the corner block is uniform: test the whole box
+    c, bx0, by0, bx1, by1 = c[i].astype(np.intp), bx0[i], by0[i], bx1[i], by1[i]
+    w1 = bx + 1
+    cp = c * ((by + 1) * w1)
+    r0 = by0 * w1
+    r0 += cp
+    r1 = by1 * w1
+    r1 += cp
+    tot = sat.take(r1 + bx1) - sat.take(r0 + bx1) - sat.take(r1 + bx0) + sat.take(r0 + bx0)
+    full = tot == (by1 - by0) * (bx1 - bx0)
+    out[i[full]] = c[full].astype(np.int8)
+    return out
+
+
+#: the one-hot table of the drawing kernel: the first eight counted stages, 8-bit counters in one
+#: 64-bit word; the counted stages beyond them are counted by comparison where a pass meets them
+_KERNEL_LUT, _KERNEL_SLOTS = _PACKS[0], _PACKED[_PACK_SLOTS[0]]
+_KERNEL_EXTRA = tuple(int(c) for c in _PACKED[len(_PACK_SLOTS[0]):])
+
+
+def _draw_kernel(lk, acc, extra, rows, ops, z1, z2, chunk):
+    """Draws z1, z2 (float32, at most 255) of the stars ``rows``, ``ops`` their float32 padded
+    coordinates and scales (columns x, y, sx, sya, syb), all positions inside the raster (no clipping); the float32
+    operations and their order are those of :func:`_draw_counts`. Adds the packed one-hot word of
+    the first eight counted stages to ``acc[rows]`` and the counts of the other counted stages
+    to ``extra[rows]`` (by comparison, only in the passes whose cells hold them)."""
+    f32 = np.float32
+    w = np.int32(lk.width)
+    flat = lk.flat
+    xp, yp, sx, sya, syb = (ops[:, q] for q in range(5))
+    k = len(z1)
+    step = max(1, chunk // k)
+    zz1, zz2 = z1[None, :], z2[None, :]
+    bx = np.empty((step, k), f32)
+    by = np.empty((step, k), f32)
+    bt = np.empty((step, k), f32)
+    bi = np.empty((step, k), np.int32)
+    bj = np.empty((step, k), np.int32)
+    bc = np.empty((step, k), flat.dtype)
+    bci = np.empty((step, k), np.intp)
+    bp = np.empty((step, k), np.uint64)
+    sums = np.empty(step, np.uint64)
+    for s in range(0, len(rows), step):
+        e = min(len(rows), s + step)
+        m = e - s
+        x, y, t, i, j, c, ci, pk, a = bx[:m], by[:m], bt[:m], bi[:m], bj[:m], bc[:m], bci[:m], bp[:m], sums[:m]
+        np.multiply(sx[s:e, None], zz1, out=x)
+        x += xp[s:e, None]
+        np.multiply(sya[s:e, None], zz1, out=y)
+        np.multiply(syb[s:e, None], zz2, out=t)
+        y += t
+        y += yp[s:e, None]
+        np.copyto(i, y, casting="unsafe")  # truncation (coordinates >= 0), as astype
+        i *= w
+        np.copyto(j, x, casting="unsafe")
+        i += j
+        flat.take(i, out=c, mode="clip")  # indices are inside (clip: no buffered bounds check)
+        np.copyto(ci, c)
+        _KERNEL_LUT.take(ci, out=pk, mode="clip")
+        pk.sum(axis=1, dtype=np.uint64, out=a)
+        rr = rows[s:e]
+        acc[rr] += a
+        for q, code in enumerate(_KERNEL_EXTRA):
+            hit = c == code
+            if hit.any():
+                extra[rr, q] += hit.sum(axis=1)
 
 
 def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):

@@ -330,6 +330,60 @@ def test_draw_skipping_is_exact():
     assert 0 < (uni >= 0).sum() < n  # some stars skipped, some drawn
 
 
+def _reference_counts(lk, lt, ll, st, sl, rho, z1, z2):
+    """Stage counts of every draw of every star, written out plainly: the float32 drawing scheme
+    of docs/classifier.md (padded cell coordinates, draws clipped onto the raster border),
+    independent of the classifier's skipping, grouping and packed counters."""
+    from hrstage.stages import STAGES
+
+    f32 = np.float32
+    xp = (lt * lk.inv_dt + lk.ax).astype(f32)[:, None]
+    yp = (ll * lk.inv_dl + lk.ay).astype(f32)[:, None]
+    sx = (st * lk.inv_dt).astype(f32)[:, None]
+    sya = (sl * rho * lk.inv_dl).astype(f32)[:, None]
+    syb = (sl * np.sqrt(1 - rho**2) * lk.inv_dl).astype(f32)[:, None]
+    x = sx * z1[None, :] + xp
+    y = sya * z1[None, :] + syb * z2[None, :] + yp
+    x = np.fmin(np.fmax(x, 0), f32(lk.xmax))
+    y = np.fmin(np.fmax(y, 0), f32(lk.ymax))
+    code = lk.flat[y.astype(np.int64) * lk.width + x.astype(np.int64)]
+    return np.stack([(code == k).sum(axis=1) for k in range(len(STAGES))], axis=1)
+
+
+@pytest.mark.parametrize("n_draws", [20, 128, 300])
+def test_group_skipping_is_exact(n_draws, monkeypatch):
+    # drawn stars are tested group by group of draws (uniform groups are not drawn) and the drawn
+    # stages are summed in packed 8-bit counters, in rounds of at most 255 draws: the counts must
+    # equal drawing every star plainly (common practice: an optimisation must not change results)
+    from hrstage.classifier import _core
+    from hrstage.stagemap import stage_map
+
+    sm = stage_map(-0.5)
+    rng = np.random.default_rng(21)
+    n = 3000
+    # stars near the main sequence, the giant branch and the white-dwarf band, and anywhere
+    lt = np.r_[rng.uniform(3.5, 4.3, n // 3), rng.uniform(3.6, 3.75, n // 3), rng.uniform(3.4, 4.8, n - 2 * (n // 3))]
+    ll = np.r_[rng.uniform(-1.5, 2.5, n // 3), rng.uniform(0.5, 3.0, n // 3), rng.uniform(-4.5, 6.0, n - 2 * (n // 3))]
+    st, sl, rho = rng.uniform(0, 0.015, n), rng.uniform(0, 0.12, n), rng.uniform(-0.95, 0.95, n)
+    z1, z2 = _core._draws(n_draws, 5)
+    drawn = []
+    kernel = _core._draw_kernel
+
+    def spy(lk, acc, extra, rows, ops, g1, g2, chunk):
+        drawn.append(len(rows) * len(g1))
+        return kernel(lk, acc, extra, rows, ops, g1, g2, chunk)
+
+    monkeypatch.setattr(_core, "_draw_kernel", spy)
+    fast = _core._mc_counts(sm, lt, ll, st, sl, rho, z1, z2)
+    ref = _reference_counts(sm.codes, lt, ll, st, sl, rho, z1, z2)
+    assert np.array_equal(fast, ref)
+    assert (fast.sum(axis=1) == n_draws).all()
+    assert len(np.unique(np.nonzero(fast)[1])) >= 6  # many stages met
+    if n_draws > _core.MC_GROUP:  # some draws of the drawn stars skipped by groups, others drawn
+        mixed = (fast.max(axis=1) < n_draws).sum()
+        assert 0 < sum(drawn) < mixed * n_draws
+
+
 def test_proximity_skip_is_exact():
     # stars whose stage runs on beyond their probes (free-run raster) are not probed: the
     # NEAR_BOUNDARY flags must equal probing every star at +-1 sigma (or the default probes
