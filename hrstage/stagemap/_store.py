@@ -31,6 +31,7 @@ import json
 import mmap
 import os
 import tempfile
+import threading
 from pathlib import Path
 
 import numpy as np
@@ -185,6 +186,9 @@ def _load_record(where: Path | None, cls):
         return None
 
 
+_LOAD_LOCK = threading.Lock()
+
+
 def load(where: Path | None, name: str, shape=None, dtype=None) -> np.ndarray | None:
     """The stored array ``name`` (read-only memory map), or None if absent or not of the
     ``shape`` and ``dtype`` given."""
@@ -192,7 +196,11 @@ def load(where: Path | None, name: str, shape=None, dtype=None) -> np.ndarray | 
         return None
     path = where / f"{name}.npy"
     try:
-        arr = np.load(path, mmap_mode="r", allow_pickle=False)
+        # one thread at a time: np.load reads the header with ast.literal_eval, and CPython 3.11's
+        # parser can fail in concurrent threads ("AST constructor recursion depth mismatch",
+        # python/cpython#106905), which the maps' prebuild threads hit once in a full test run
+        with _LOAD_LOCK:
+            arr = np.load(path, mmap_mode="r", allow_pickle=False)
     except (OSError, ValueError, EOFError):
         return None
     if ((shape is not None and arr.shape != tuple(shape)) or (dtype is not None and arr.dtype != np.dtype(dtype))
