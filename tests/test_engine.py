@@ -265,6 +265,23 @@ def test_workers_give_the_same_bytes(tmp_path, suffix, out_suffix):
     assert not list(tmp_path.glob(".*"))           # no temporary file left behind
 
 
+@pytest.mark.parametrize("suffix, out_suffix", [(".parquet", ".parquet"), (".ecsv", ".csv")])
+def test_compute_threads_give_the_same_bytes(tmp_path, suffix, out_suffix):
+    # chunks classified in 1, 2 or 3 threads: same file, byte for byte (chunks are independent and
+    # written in order; a chunk's Monte Carlo stream depends only on its first row's index)
+    src = tmp_path / f"in{suffix}"
+    write_table(_mixed_population(2600), src)
+    outs = []
+    for k in (1, 2, 3):
+        out = tmp_path / f"t{k}{out_suffix}"
+        summary = classify_file(src, out, chunk_rows=400, n_draws=8, threads=k)
+        assert summary["rows"] == 2600
+        outs.append(out.read_bytes())
+    assert outs[0] == outs[1] == outs[2]
+    with pytest.raises(HrstageInputError, match="threads must be"):
+        classify_file(src, tmp_path / "x.parquet", threads=0)
+
+
 def test_workers_without_the_map_cache_give_the_same_bytes(tmp_path, monkeypatch):
     # map cache off: the first chunk is classified in this process, so that the forked workers
     # inherit its maps; the file is still the same, byte for byte

@@ -148,7 +148,7 @@ def cmd_classify(args) -> int:
     summary = classify_file(args.input, args.output, chunk_rows=args.chunk_rows, overwrite=args.overwrite,
                             progress=_progress_wanted(args), input_format=args.in_format,
                             output_format=args.out_format, prefix=args.prefix,
-                            check_sptypes=not args.no_type_check, workers=args.workers,
+                            check_sptypes=not args.no_type_check, workers=args.workers, threads=args.threads,
                             add_columns=args.add_columns, **opts)
     for line in _summary_lines(summary):
         _say(args, line)
@@ -485,6 +485,9 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--workers", type=_workers, default=1, metavar="N|auto",
                    help="processes classifying chunks in parallel (default 1; 'auto': one per usable core); "
                         "same output as one process, memory grows with N x chunk rows")
+    c.add_argument("--threads", type=_workers, default="auto", metavar="N|auto",
+                   help="with one process: chunks classified at the same time in threads (default auto: one "
+                        "per idle core); same output with any number")
     c.add_argument("--prefix", default="", help="prefix for our column names (when the input already has one)")
     c.add_argument("--no-type-check", action="store_true", help="do not check MK spectral types")
     c.add_argument("--add-columns", default="all", metavar="all|brief|NAMES",

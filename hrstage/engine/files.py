@@ -20,7 +20,7 @@ from .workers import Received, pool_context, resolve_workers, worker_init, worke
 
 def classify_file(input_path, output_path, *, chunk_rows: int | None = None, overwrite: bool = False,
                   progress: bool = False, input_format: str | None = None, output_format: str | None = None,
-                  workers=1, **options) -> dict:
+                  workers=1, threads="auto", **options) -> dict:
     """Classify a catalogue file into a new file, chunk by chunk, atomically.
 
     Parameters
@@ -45,6 +45,13 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
         the stage maps' on-disk cache (the default) every chunk is classified by the workers; with
         the cache off the first chunk is classified here before the workers start, so that they
         inherit its stage maps.
+    threads : int or "auto", default "auto"
+        With one process: chunks classified at the same time in threads of this process (numpy
+        releases the interpreter lock in its loops; on an idle 2-core machine two threads classified
+        a 2 M-row catalogue's chunks ~1.5x faster). ``"auto"``: one per idle core
+        (:func:`~hrstage.engine.workers.idle_cores`), so a busy machine gets one. The first chunk is
+        classified alone (it loads the stage maps). One more chunk is held per extra thread. The
+        result is the same, byte for byte, with any number of threads.
     **options
         As for :func:`classify_table`.
 
@@ -70,6 +77,7 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
     check_output_path(out, overwrite=overwrite, inputs=[inp])
     chunk_rows = DEFAULT_CHUNK_ROWS if chunk_rows is None else int(chunk_rows)
     n_workers = resolve_workers(workers)
+    n_threads = resolve_workers(threads, what="threads") if n_workers == 1 else 1
     opts = make_options(source=inp.name, **options)
     total = count_rows(inp, in_fmt)
     bar = None
@@ -93,6 +101,8 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
     # building them.
     first_here = not map_cache_enabled()
     io = ThreadPoolExecutor(2, thread_name_prefix="hrstage-io")
+    compute = ThreadPoolExecutor(n_threads, thread_name_prefix="hrstage-compute") if n_threads > 1 else None
+    computing: deque = deque()    # chunks being classified in the compute threads, in order
     ahead = ReadAhead(chunks, io)
     behind = WriteBehind(io)
     try:
@@ -133,7 +143,11 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                         infos = arrow_infos(chunk, attrs) if attrs is not None else infos_from_table(chunk)
                         opts = resolve_options(infos, opts)
                     n = rows_of(chunk)
-                    if pool is None and (n_workers == 1 or (offset == 0 and first_here)):
+                    if compute is not None and offset > 0:
+                        computing.append(compute.submit(classify_one, chunk, opts, offset, attrs))
+                        while len(computing) >= n_threads:   # written in order, while others compute
+                            behind.submit(take, computing.popleft().result())
+                    elif pool is None and (n_workers == 1 or (offset == 0 and first_here)):
                         res = classify_one(chunk, opts, offset, attrs)   # here: builds the maps it needs
                         behind.submit(take, res)     # written while the next chunk is classified
                         del res
@@ -159,6 +173,8 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                 if held is not None:    # one chunk in all: classified here, no workers started
                     behind.submit(take, classify_one(held[0], opts, held[1], attrs))
                     held = None
+                while computing:
+                    behind.submit(take, computing.popleft().result())
                 while pending:
                     behind.submit(take_from, pending.popleft())
                 behind.wait()
@@ -174,6 +190,8 @@ def classify_file(input_path, output_path, *, chunk_rows: int | None = None, ove
                 behind.drain()
                 raise
     finally:
+        if compute is not None:    # chunks still being classified are finished, not written
+            compute.shutdown(wait=True, cancel_futures=True)
         behind.drain()
         ahead.close()
         io.shutdown(wait=True, cancel_futures=True)

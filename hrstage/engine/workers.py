@@ -8,24 +8,24 @@ from ..errors import HrstageInputError
 from .chunk import chunk_tally, classify_one
 from .convert import is_arrow
 
-def resolve_workers(workers) -> int:
-    """Number of worker processes for :func:`classify_file`: a positive integer, or ``"auto"``
-    (:func:`idle_cores`)."""
+def resolve_workers(workers, what: str = "workers") -> int:
+    """Number of worker processes (or, ``what="threads"``, compute threads) for
+    :func:`classify_file`: a positive integer, or ``"auto"`` (:func:`idle_cores`)."""
     if isinstance(workers, str):
         if workers.strip().lower() != "auto":
             try:
                 workers = int(workers)
             except ValueError:
-                raise HrstageInputError(f"workers must be a positive whole number or 'auto', got {workers!r}") from None
+                raise HrstageInputError(f"{what} must be a positive whole number or 'auto', got {workers!r}") from None
         else:
             return idle_cores()
     if workers is None:
         return 1
     if isinstance(workers, float) and not workers.is_integer():
-        raise HrstageInputError(f"workers must be a whole number, got {workers}")
+        raise HrstageInputError(f"{what} must be a whole number, got {workers}")
     workers = int(workers)
     if workers < 1:
-        raise HrstageInputError(f"workers must be >= 1 (or 'auto'), got {workers}")
+        raise HrstageInputError(f"{what} must be >= 1 (or 'auto'), got {workers}")
     return workers
 
 
