@@ -285,17 +285,74 @@ def csv_supported(schema) -> bool:
 
 #: A text cell is quoted when it holds one of these (the delimiter, the quote, a line end).
 _CSV_QUOTE_WHEN = '[",\r\n]'
+#: A column slice whose share of distinct values is at most this is formatted once per distinct
+#: value and gathered (probabilities in steps of 1/n_draws, flags, labels, [Fe/H] grids ...).
+_CSV_FEW = 0.5
+
+
+def _text_bytes(s):
+    """``(offsets, data)`` of an arrow (large) string array as numpy views: ``data[offsets[i]:
+    offsets[i + 1]]`` are the bytes of cell ``i`` (nulls are empty)."""
+    import pyarrow as pa
+
+    wide = pa.types.is_large_string(s.type)
+    bufs = s.buffers()
+    offsets = np.frombuffer(bufs[1], dtype=np.int64 if wide else np.int32)[s.offset:s.offset + len(s) + 1]
+    data = np.frombuffer(bufs[2], dtype=np.uint8) if bufs[2] is not None else np.zeros(0, np.uint8)
+    return offsets, data
+
+
+def _needs_quote_anywhere(s) -> bool:
+    """True when some cell of the string array ``s`` holds a character of :data:`_CSV_QUOTE_WHEN`
+    (a scan of the text bytes; UTF-8 continuation bytes are never ASCII)."""
+    if len(s) == 0 or s.buffers()[2] is None:
+        return False
+    offsets, _ = _text_bytes(s)
+    text = s.buffers()[2].slice(int(offsets[0]), int(offsets[-1] - offsets[0])).to_pybytes()
+    return any(text.find(c) >= 0 for c in (b",", b'"', b"\n", b"\r"))
 
 
 def _csv_quote(s):
     """Text cells quoted (inner quotes doubled) where needed; arrow string array in and out."""
     import pyarrow.compute as pc
 
-    need = pc.match_substring_regex(s, _CSV_QUOTE_WHEN)
-    if not pc.any(need).as_py():
+    if not _needs_quote_anywhere(s):
         return s
+    need = pc.match_substring_regex(s, _CSV_QUOTE_WHEN)
     quoted = pc.binary_join_element_wise('"', pc.replace_substring(s, '"', '""'), '"', "")
     return pc.if_else(need, quoted, s)
+
+
+def _csv_text(arr):
+    """Cells of a text column (plain, large or dictionary-encoded): quoted where needed, once per
+    distinct text when few."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if pa.types.is_dictionary(arr.type):        # quoted on the dictionary, then gathered
+        words = arr.dictionary
+        words = words.cast(pa.string()) if pa.types.is_large_string(words.type) else words
+        return pc.take(_csv_quote(words), arr.indices)
+    s = arr.cast(pa.string()) if pa.types.is_large_string(arr.type) else arr
+    if not _needs_quote_anywhere(s):
+        return s
+    coded = pc.dictionary_encode(s)
+    if len(coded.dictionary) <= _CSV_FEW * len(s):
+        return pc.take(_csv_quote(coded.dictionary), coded.indices)
+    return _csv_quote(s)
+
+
+def _rows_holding(s, byte: int):
+    """Indices of the cells of string array ``s`` holding the byte ``byte`` (ascending, unique)."""
+    offsets, data = _text_bytes(s)
+    at = np.flatnonzero(data[offsets[0]:offsets[-1]] == byte) + offsets[0]
+    return np.unique(np.searchsorted(offsets, at, side="right") - 1)
+
+
+def _float_bits(x):
+    """The bit patterns of float values as integers of the same width (every value apart, -0.0
+    from 0.0; NaNs with different payloads apart too, all written ``nan``)."""
+    return x.view(np.int32 if x.dtype == np.float32 else np.int64)
 
 
 def _csv_float(arr):
@@ -303,32 +360,59 @@ def _csv_float(arr):
 
     pyarrow's cast gives the same shortest digits; where it writes them positionally Python does
     too for 1e-4 <= |x| < 1e16 (``.0`` added to whole numbers); the rest (exponent forms, where the
-    two choose differently) is formatted by numpy, whose float text is Python's.
+    two choose differently) is formatted by numpy, whose float text is Python's. A slice of few
+    distinct values (bit for bit) is formatted once per value and gathered.
     """
     import pyarrow as pa
     import pyarrow.compute as pc
 
     if not pa.types.is_float32(arr.type):
         arr = arr.cast(pa.float64())
+    n = len(arr)
+    if n >= 64:
+        x = np.asarray(pc.fill_null(arr, 0.0).to_numpy(zero_copy_only=False))
+        bits = _float_bits(x)
+        sample = bits[::max(1, n // 1024)]
+        if len(np.unique(sample)) <= 0.9 * len(sample):       # worth counting them all
+            valid = None if arr.null_count == 0 else \
+                np.asarray(arr.is_valid().to_numpy(zero_copy_only=False))
+            coded = pc.dictionary_encode(pa.array(bits, mask=None if valid is None else ~valid))
+            if len(coded.dictionary) <= _CSV_FEW * n:
+                values = coded.dictionary.to_numpy(zero_copy_only=False).view(x.dtype)
+                return pc.take(_csv_float_each(pa.array(values)), coded.indices)
+    return _csv_float_each(arr)
+
+
+def _csv_float_each(arr):
+    """:func:`_csv_float` value by value: ``arr`` a float32 or float64 arrow array."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
     # single precision keeps its own shortest digits (float32 -> string is shortest for float32;
     # numpy's str of a float32 likewise), not those of the double it equals
     s = pc.cast(arr, pa.string())
     x = np.asarray(pc.fill_null(arr, 0.0).to_numpy(zero_copy_only=False))
     with np.errstate(invalid="ignore"):
         ax = np.abs(x)
-        positional = ((ax >= 1e-4) & (ax < 1e16)) | (x == 0) | ~np.isfinite(x)
-    positional &= ~np.asarray(pc.match_substring(pc.fill_null(s, ""), "e").to_numpy(zero_copy_only=False))
-    whole = pc.invert(pc.match_substring_regex(s, "[.n]"))          # "30640" -> "30640.0"
-    s = pc.if_else(whole, pc.binary_join_element_wise(s, ".0", ""), s)
+        finite = np.isfinite(x)
+        positional = ((ax >= 1e-4) & (ax < 1e16)) | (x == 0) | ~finite
+        positional[_rows_holding(s, ord("e"))] = False         # pyarrow's own exponent forms
+        # pyarrow's positional text of a whole number has no decimal point ("30640" -> "30640.0");
+        # that of any other number has one (below 2**52 a whole text reads back as a whole number)
+        whole = positional & finite & (x == np.trunc(x))
+    if whole.any():
+        picked = pa.array(whole)
+        s = pc.replace_with_mask(s, picked, pc.binary_join_element_wise(pc.filter(s, picked), ".0", ""))
     if not positional.all():
         other = ~positional
-        mask = pa.array(other & ~np.asarray(arr.is_null().to_numpy(zero_copy_only=False)))
-        vals = x[np.asarray(mask.to_numpy(zero_copy_only=False))]
+        if arr.null_count:
+            other &= np.asarray(arr.is_valid().to_numpy(zero_copy_only=False))
+        vals = x[other]
         if x.dtype == np.float32:   # numpy's str of a float32 has rules of its own: Python's style
             text = np.array([single_text(v) for v in vals], dtype=object)
         else:
             text = vals.astype(str).astype(object)
-        s = pc.replace_with_mask(s, mask, pa.array(text, type=pa.string()))
+        s = pc.replace_with_mask(s, pa.array(other), pa.array(text, type=pa.string()))
     return s
 
 
@@ -348,9 +432,7 @@ def _csv_cells(arr):
 
     kind = _csv_kind(arr.type)
     if kind == "text":
-        if pa.types.is_dictionary(arr.type):
-            arr = arr.cast(arr.type.value_type)
-        return _csv_quote(arr.cast(pa.string()) if pa.types.is_large_string(arr.type) else arr)
+        return _csv_text(arr)
     if kind == "float":
         return _csv_float(arr)
     if kind == "bool":
@@ -402,31 +484,37 @@ def arrow_csv(data, header: bool = True) -> bytes:
 CSV_SLICE_ROWS = 16384
 
 
-def _csv_rows(data, single: bool) -> bytes:
-    """The CSV lines (no header) of a pyarrow Table, each ending with a line end."""
+def _csv_rows(data, single: bool):
+    """The CSV lines (no header) of a pyarrow Table, each ending with a line end (bytes-like)."""
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    big = pa.large_string()
     cols = []
+    size = 0
     for name in data.schema.names:
         col = data.column(name)
         col = col.combine_chunks() if col.num_chunks != 1 else col.chunk(0)
         cells = pc.fill_null(_csv_cells(col), '""' if single else "")
         if single:
             cells = pc.if_else(pc.equal(cells, ""), '""', cells)
-        cols.append(cells.cast(big))
+        offsets, _ = _text_bytes(cells)
+        size += int(offsets[-1] - offsets[0]) + len(cells)
+        cols.append(cells)
+    # 32-bit offsets while the slice's text (cells, commas, line ends) stays below 2 GiB
+    kind = pa.string() if size < 2**31 - 1 else pa.large_string()
+    if kind != pa.string():
+        cols = [c.cast(kind) for c in cols]
     # each row followed by a line end: appended to the last column's cells (the smaller join)
-    cols[-1] = pc.binary_join_element_wise(cols[-1], pa.scalar("", big), pa.scalar("\n", big))
-    rows = cols[0] if single else pc.binary_join_element_wise(*cols, pa.scalar(",", big))
+    cols[-1] = pc.binary_join_element_wise(cols[-1], pa.scalar("", kind), pa.scalar("\n", kind))
+    rows = cols[0] if single else pc.binary_join_element_wise(*cols, pa.scalar(",", kind))
     del cols
     if isinstance(rows, pa.ChunkedArray):
         rows = rows.combine_chunks()
-    offsets = np.frombuffer(rows.buffers()[1], dtype=np.int64)[rows.offset:rows.offset + len(rows) + 1]
+    offsets, _ = _text_bytes(rows)
     body = rows.buffers()[2]
     if body is None:
         return b""
-    return body.slice(int(offsets[0]), int(offsets[-1] - offsets[0])).to_pybytes()
+    return body.slice(int(offsets[0]), int(offsets[-1] - offsets[0]))
 
 
 #: Largest pyarrow CSV block we try (bytes): a single row must fit in one block.
