@@ -407,13 +407,53 @@ def _csv_float_each(arr):
         other = ~positional
         if arr.null_count:
             other &= np.asarray(arr.is_valid().to_numpy(zero_copy_only=False))
-        vals = x[other]
-        if x.dtype == np.float32:   # numpy's str of a float32 has rules of its own: Python's style
-            text = np.array([single_text(v) for v in vals], dtype=object)
-        else:
-            text = vals.astype(str).astype(object)
-        s = pc.replace_with_mask(s, pa.array(other), pa.array(text, type=pa.string()))
+        picked = pa.array(other)
+        # Python's exponent form (|x| < 1e-4 or >= 1e16) rewritten from pyarrow's text of the same
+        # shortest digits; any other text (an exponent form of pyarrow's where Python writes the
+        # number positionally, or a layout not foreseen) formatted value by value
+        text, done = _exponent_layout(pc.filter(s, picked))
+        with np.errstate(invalid="ignore"):
+            done &= ~((ax[other] >= 1e-4) & (ax[other] < 1e16))
+        if not done.all():
+            text = pc.replace_with_mask(text, pa.array(~done), _float_text_each(x[other][~done]))
+        s = pc.replace_with_mask(s, picked, text)
     return s
+
+
+def _float_text_each(vals):
+    """Python's text of each float in ``vals`` (single precision with its own shortest digits)."""
+    import pyarrow as pa
+
+    if vals.dtype == np.float32:   # numpy's str of a float32 has rules of its own: Python's style
+        text = np.array([single_text(v) for v in vals], dtype=object)
+    else:
+        text = vals.astype(str).astype(object)
+    return pa.array(text, type=pa.string())
+
+
+#: pyarrow writes an exponent of one digit as is (``1e-7``), Python with a leading zero (``1e-07``);
+#: the replacement is group 1, a zero, group 2 (RE2 reads one digit after a backslash).
+_EXPONENT_ONE_DIGIT = (r"^(-?[0-9](?:\.[0-9]+)?e[+-])([0-9])$", r"\10\2")
+#: Python's exponent form of a finite, non-zero number.
+_PYTHON_EXPONENT = r"^-?[1-9](?:\.[0-9]*[1-9])?e[+-][0-9][0-9]+$"
+
+
+def _exponent_layout(text):
+    """pyarrow's shortest text of numbers laid out as Python's exponent form: ``(texts, ok)``,
+    ``ok`` False where the result is not of that form (those are to be formatted otherwise).
+
+    pyarrow writes 1e-6 <= |x| < 1e-4 positionally (``0.000031`` -> ``3.1e-05``; rewritten for
+    up to eight zeros after the point, in case) and one-digit exponents without a leading zero.
+    """
+    import pyarrow.compute as pc
+
+    text = pc.replace_substring_regex(text, *_EXPONENT_ONE_DIGIT)
+    for zeros in range(4, 9):
+        text = pc.replace_substring_regex(text, rf"^(-?)0\.0{{{zeros}}}([1-9])([0-9]*)$",
+                                          rf"\1\2.\3e-{zeros + 1:02d}")
+    text = pc.replace_substring(text, ".e", "e")
+    ok = pc.fill_null(pc.match_substring_regex(text, _PYTHON_EXPONENT), False)
+    return text, np.asarray(ok.to_numpy(zero_copy_only=False))
 
 
 def single_text(v) -> str:
