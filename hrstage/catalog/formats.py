@@ -323,25 +323,6 @@ def _csv_quote(s):
     return pc.if_else(need, quoted, s)
 
 
-def _csv_text(arr):
-    """Cells of a text column (plain, large or dictionary-encoded): quoted where needed, once per
-    distinct text when few."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    if pa.types.is_dictionary(arr.type):        # quoted on the dictionary, then gathered
-        words = arr.dictionary
-        words = words.cast(pa.string()) if pa.types.is_large_string(words.type) else words
-        return pc.take(_csv_quote(words), arr.indices)
-    s = arr.cast(pa.string()) if pa.types.is_large_string(arr.type) else arr
-    if not _needs_quote_anywhere(s):
-        return s
-    coded = pc.dictionary_encode(s)
-    if len(coded.dictionary) <= _CSV_FEW * len(s):
-        return pc.take(_csv_quote(coded.dictionary), coded.indices)
-    return _csv_quote(s)
-
-
 def _rows_holding(s, byte: int):
     """Indices of the cells of string array ``s`` holding the byte ``byte`` (ascending, unique)."""
     offsets, data = _text_bytes(s)
@@ -355,32 +336,94 @@ def _float_bits(x):
     return x.view(np.int32 if x.dtype == np.float32 else np.int64)
 
 
+def _gathered(words):
+    """A cell formatter for a slice of ``indices``: the texts ``words`` taken by index."""
+    import pyarrow.compute as pc
+
+    return lambda idx: pc.take(words, idx)
+
+
+def _small_string(s):
+    """A text slice with 32-bit offsets (a slice's text stays far below 2 GiB)."""
+    import pyarrow as pa
+
+    return s.cast(pa.string()) if pa.types.is_large_string(s.type) else s
+
+
+def _text_plan(col):
+    """``(cells source, formatter)`` of a text column (plain, large or dictionary-encoded): quoted
+    where needed, once per distinct text when few (always for a dictionary)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if pa.types.is_dictionary(col.type):            # quoted on the dictionary, then gathered
+        if isinstance(col, pa.ChunkedArray):
+            col = col.combine_chunks() if col.num_chunks != 1 else col.chunk(0)
+        return col.indices, _gathered(_csv_quote(_small_string(col.dictionary)))
+    chunks = col.chunks if isinstance(col, pa.ChunkedArray) else [col]
+    if not any(_needs_quote_anywhere(c) for c in chunks):
+        return col, _small_string
+    coded = pc.dictionary_encode(col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col)
+    if len(coded.dictionary) <= _CSV_FEW * len(coded):
+        return coded.indices, _gathered(_csv_quote(_small_string(coded.dictionary)))
+    return col, lambda s: _csv_quote(_small_string(s))
+
+
+def _float_plan(col):
+    """``(cells source, formatter)`` of a float column: see :func:`_csv_float`."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if not (pa.types.is_float32(col.type) or pa.types.is_float64(col.type)):
+        col = col.cast(pa.float64())
+    n = len(col)
+    if n >= 64:
+        x = np.asarray(pc.fill_null(col, 0.0).to_numpy(zero_copy_only=False))
+        bits = _float_bits(x)
+        sample = bits[::max(1, n // 4096)]
+        if len(np.unique(sample)) <= 0.9 * len(sample):       # worth counting them all
+            valid = None if col.null_count == 0 else \
+                np.asarray(col.is_valid().to_numpy(zero_copy_only=False))
+            coded = pc.dictionary_encode(pa.array(bits, mask=None if valid is None else ~valid))
+            if len(coded.dictionary) <= _CSV_FEW * n:
+                values = coded.dictionary.to_numpy(zero_copy_only=False).view(x.dtype)
+                return coded.indices, _gathered(_csv_float_each(pa.array(values)))
+    return col, _csv_float_each
+
+
+def _csv_plan(col):
+    """How to format a column (arrow array or chunked array): ``(source, formatter)``, the cells
+    of rows ``i:j`` being ``formatter(source[i:j])`` (a plain array). Few-valued columns are
+    formatted here once per distinct value, their source being the index of each row's text."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    kind = _csv_kind(col.type)
+    if kind == "text":
+        return _text_plan(col)
+    if kind == "float":
+        return _float_plan(col)
+    if kind == "bool":
+        return col, lambda a: pc.if_else(a, "True", "False")
+    return col, lambda a: pc.cast(a, pa.string())
+
+
+def _csv_cells(arr):
+    """The CSV cells of one arrow array (nulls stay null)."""
+    source, formatter = _csv_plan(arr)
+    return formatter(source)
+
+
 def _csv_float(arr):
     """Shortest text that reads back as the same double, as Python's ``repr`` writes it.
 
     pyarrow's cast gives the same shortest digits; where it writes them positionally Python does
     too for 1e-4 <= |x| < 1e16 (``.0`` added to whole numbers); the rest (exponent forms, where the
-    two choose differently) is formatted by numpy, whose float text is Python's. A slice of few
-    distinct values (bit for bit) is formatted once per value and gathered.
+    two choose differently) is rewritten from pyarrow's text or formatted by numpy, whose float
+    text is Python's. A column of few distinct values (bit for bit) is formatted once per value
+    and gathered.
     """
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    if not pa.types.is_float32(arr.type):
-        arr = arr.cast(pa.float64())
-    n = len(arr)
-    if n >= 64:
-        x = np.asarray(pc.fill_null(arr, 0.0).to_numpy(zero_copy_only=False))
-        bits = _float_bits(x)
-        sample = bits[::max(1, n // 1024)]
-        if len(np.unique(sample)) <= 0.9 * len(sample):       # worth counting them all
-            valid = None if arr.null_count == 0 else \
-                np.asarray(arr.is_valid().to_numpy(zero_copy_only=False))
-            coded = pc.dictionary_encode(pa.array(bits, mask=None if valid is None else ~valid))
-            if len(coded.dictionary) <= _CSV_FEW * n:
-                values = coded.dictionary.to_numpy(zero_copy_only=False).view(x.dtype)
-                return pc.take(_csv_float_each(pa.array(values)), coded.indices)
-    return _csv_float_each(arr)
+    return _csv_cells(arr)
 
 
 def _csv_float_each(arr):
@@ -466,20 +509,6 @@ def single_text(v) -> str:
     return np.format_float_scientific(v, unique=True, trim="-", exp_digits=2)
 
 
-def _csv_cells(arr):
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    kind = _csv_kind(arr.type)
-    if kind == "text":
-        return _csv_text(arr)
-    if kind == "float":
-        return _csv_float(arr)
-    if kind == "bool":
-        return pc.if_else(arr, "True", "False")
-    return pc.cast(arr, pa.string())
-
-
 def _csv_name(name: str, single: bool) -> str:
     if single and name == "":
         return '""'
@@ -514,9 +543,11 @@ def arrow_csv(data, header: bool = True) -> bytes:
         return head
     # formatted CSV_SLICE_ROWS rows at a time: the per-column cell texts and their joins of a whole
     # chunk held at once cost ~5x the chunk's text in memory (~250 MB per 100 000 rows of our output)
+    # columns of few distinct values are formatted once for the whole table (then gathered)
+    plans = [_csv_plan(data.column(name)) for name in names]
     pieces = [head]
     for start in range(0, data.num_rows, CSV_SLICE_ROWS):
-        pieces.append(_csv_rows(data.slice(start, CSV_SLICE_ROWS), single))
+        pieces.append(_csv_rows(plans, start, single))
     return b"".join(pieces)
 
 
@@ -524,17 +555,19 @@ def arrow_csv(data, header: bool = True) -> bytes:
 CSV_SLICE_ROWS = 16384
 
 
-def _csv_rows(data, single: bool):
-    """The CSV lines (no header) of a pyarrow Table, each ending with a line end (bytes-like)."""
+def _csv_rows(plans, start: int, single: bool):
+    """The CSV lines (no header) of rows ``start:start + CSV_SLICE_ROWS`` of the columns planned
+    by :func:`_csv_plan`, each ending with a line end (bytes-like)."""
     import pyarrow as pa
     import pyarrow.compute as pc
 
     cols = []
     size = 0
-    for name in data.schema.names:
-        col = data.column(name)
-        col = col.combine_chunks() if col.num_chunks != 1 else col.chunk(0)
-        cells = pc.fill_null(_csv_cells(col), '""' if single else "")
+    for source, formatter in plans:
+        part = source.slice(start, CSV_SLICE_ROWS)
+        if isinstance(part, pa.ChunkedArray):
+            part = part.combine_chunks() if part.num_chunks != 1 else part.chunk(0)
+        cells = pc.fill_null(formatter(part), '""' if single else "")
         if single:
             cells = pc.if_else(pc.equal(cells, ""), '""', cells)
         offsets, _ = _text_bytes(cells)
