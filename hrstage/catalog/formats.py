@@ -360,13 +360,13 @@ def _text_plan(col):
         if isinstance(col, pa.ChunkedArray):
             col = col.combine_chunks() if col.num_chunks != 1 else col.chunk(0)
         return col.indices, _gathered(_csv_quote(_small_string(col.dictionary)))
-    chunks = col.chunks if isinstance(col, pa.ChunkedArray) else [col]
-    if not any(_needs_quote_anywhere(c) for c in chunks):
-        return col, _small_string
     coded = pc.dictionary_encode(col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col)
-    if len(coded.dictionary) <= _CSV_FEW * len(coded):
-        return coded.indices, _gathered(_csv_quote(_small_string(coded.dictionary)))
-    return col, lambda s: _csv_quote(_small_string(s))
+    if len(coded.dictionary) > _CSV_FEW * len(coded):
+        return col, lambda s: _csv_quote(_small_string(s))
+    words = _small_string(coded.dictionary)
+    if not _needs_quote_anywhere(words):            # the column's cells are its texts
+        return col, _small_string
+    return coded.indices, _gathered(_csv_quote(words))
 
 
 def _float_plan(col):
