@@ -285,8 +285,8 @@ def csv_supported(schema) -> bool:
 
 #: A text cell is quoted when it holds one of these (the delimiter, the quote, a line end).
 _CSV_QUOTE_WHEN = '[",\r\n]'
-#: A column slice whose share of distinct values is at most this is formatted once per distinct
-#: value and gathered (probabilities in steps of 1/n_draws, flags, labels, [Fe/H] grids ...).
+#: A column whose share of distinct values is at most this is formatted once per distinct value
+#: and gathered (probabilities in steps of 1/n_draws, flags, labels, [Fe/H] grids ...).
 _CSV_FEW = 0.5
 
 
@@ -370,7 +370,14 @@ def _text_plan(col):
 
 
 def _float_plan(col):
-    """``(cells source, formatter)`` of a float column: see :func:`_csv_float`."""
+    """``(cells source, formatter)`` of a float column: the shortest text that reads back as the
+    same double, as Python's ``repr`` writes it (single precision: see :func:`arrow_csv`).
+
+    pyarrow's cast gives the same shortest digits; where it writes them positionally Python does
+    too for 1e-4 <= |x| < 1e16 (``.0`` added to whole numbers); the rest (exponent forms, where the
+    two choose differently) is rewritten from pyarrow's text or formatted by numpy, whose float
+    text is Python's. A column of few distinct values (bit for bit) is formatted once per value.
+    """
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -414,20 +421,8 @@ def _csv_cells(arr):
     return formatter(source)
 
 
-def _csv_float(arr):
-    """Shortest text that reads back as the same double, as Python's ``repr`` writes it.
-
-    pyarrow's cast gives the same shortest digits; where it writes them positionally Python does
-    too for 1e-4 <= |x| < 1e16 (``.0`` added to whole numbers); the rest (exponent forms, where the
-    two choose differently) is rewritten from pyarrow's text or formatted by numpy, whose float
-    text is Python's. A column of few distinct values (bit for bit) is formatted once per value
-    and gathered.
-    """
-    return _csv_cells(arr)
-
-
 def _csv_float_each(arr):
-    """:func:`_csv_float` value by value: ``arr`` a float32 or float64 arrow array."""
+    """:func:`_float_plan`'s text value by value: ``arr`` a float32 or float64 arrow array."""
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -543,7 +538,8 @@ def arrow_csv(data, header: bool = True) -> bytes:
         return head
     # formatted CSV_SLICE_ROWS rows at a time: the per-column cell texts and their joins of a whole
     # chunk held at once cost ~5x the chunk's text in memory (~250 MB per 100 000 rows of our output)
-    # columns of few distinct values are formatted once for the whole table (then gathered)
+    # columns of few distinct values are formatted once for the whole table, then gathered slice
+    # by slice (their plans hold a 4-byte index per row and the texts of the distinct values)
     plans = [_csv_plan(data.column(name)) for name in names]
     pieces = [head]
     for start in range(0, data.num_rows, CSV_SLICE_ROWS):
