@@ -285,51 +285,213 @@ def csv_supported(schema) -> bool:
 
 #: A text cell is quoted when it holds one of these (the delimiter, the quote, a line end).
 _CSV_QUOTE_WHEN = '[",\r\n]'
+#: A column whose share of distinct values is at most this is formatted once per distinct value
+#: and gathered (probabilities in steps of 1/n_draws, flags, labels, [Fe/H] grids ...).
+_CSV_FEW = 0.5
+
+
+def _text_bytes(s):
+    """``(offsets, data)`` of an arrow (large) string array as numpy views: ``data[offsets[i]:
+    offsets[i + 1]]`` are the bytes of cell ``i`` (nulls are empty)."""
+    import pyarrow as pa
+
+    wide = pa.types.is_large_string(s.type)
+    bufs = s.buffers()
+    offsets = np.frombuffer(bufs[1], dtype=np.int64 if wide else np.int32)[s.offset:s.offset + len(s) + 1]
+    data = np.frombuffer(bufs[2], dtype=np.uint8) if bufs[2] is not None else np.zeros(0, np.uint8)
+    return offsets, data
+
+
+def _needs_quote_anywhere(s) -> bool:
+    """True when some cell of the string array ``s`` holds a character of :data:`_CSV_QUOTE_WHEN`
+    (a scan of the text bytes; UTF-8 continuation bytes are never ASCII)."""
+    if len(s) == 0 or s.buffers()[2] is None:
+        return False
+    offsets, _ = _text_bytes(s)
+    text = s.buffers()[2].slice(int(offsets[0]), int(offsets[-1] - offsets[0])).to_pybytes()
+    return any(text.find(c) >= 0 for c in (b",", b'"', b"\n", b"\r"))
 
 
 def _csv_quote(s):
     """Text cells quoted (inner quotes doubled) where needed; arrow string array in and out."""
     import pyarrow.compute as pc
 
-    need = pc.match_substring_regex(s, _CSV_QUOTE_WHEN)
-    if not pc.any(need).as_py():
+    if not _needs_quote_anywhere(s):
         return s
+    need = pc.match_substring_regex(s, _CSV_QUOTE_WHEN)
     quoted = pc.binary_join_element_wise('"', pc.replace_substring(s, '"', '""'), '"', "")
     return pc.if_else(need, quoted, s)
 
 
-def _csv_float(arr):
-    """Shortest text that reads back as the same double, as Python's ``repr`` writes it.
+def _rows_holding(s, byte: int):
+    """Indices of the cells of string array ``s`` holding the byte ``byte`` (ascending, unique)."""
+    offsets, data = _text_bytes(s)
+    at = np.flatnonzero(data[offsets[0]:offsets[-1]] == byte) + offsets[0]
+    return np.unique(np.searchsorted(offsets, at, side="right") - 1)
+
+
+def _float_bits(x):
+    """The bit patterns of float values as integers of the same width (every value apart, -0.0
+    from 0.0; NaNs with different payloads apart too, all written ``nan``)."""
+    return x.view(np.int32 if x.dtype == np.float32 else np.int64)
+
+
+def _gathered(words):
+    """A cell formatter for a slice of ``indices``: the texts ``words`` taken by index."""
+    import pyarrow.compute as pc
+
+    return lambda idx: pc.take(words, idx)
+
+
+def _small_string(s):
+    """A text slice with 32-bit offsets (a slice's text stays far below 2 GiB)."""
+    import pyarrow as pa
+
+    return s.cast(pa.string()) if pa.types.is_large_string(s.type) else s
+
+
+def _text_plan(col):
+    """``(cells source, formatter)`` of a text column (plain, large or dictionary-encoded): quoted
+    where needed, once per distinct text when few (always for a dictionary)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if pa.types.is_dictionary(col.type):            # quoted on the dictionary, then gathered
+        if isinstance(col, pa.ChunkedArray):
+            col = col.combine_chunks() if col.num_chunks != 1 else col.chunk(0)
+        return col.indices, _gathered(_csv_quote(_small_string(col.dictionary)))
+    coded = pc.dictionary_encode(col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col)
+    if len(coded.dictionary) > _CSV_FEW * len(coded):
+        return col, lambda s: _csv_quote(_small_string(s))
+    words = _small_string(coded.dictionary)
+    if not _needs_quote_anywhere(words):            # the column's cells are its texts
+        return col, _small_string
+    return coded.indices, _gathered(_csv_quote(words))
+
+
+def _float_plan(col):
+    """``(cells source, formatter)`` of a float column: the shortest text that reads back as the
+    same double, as Python's ``repr`` writes it (single precision: see :func:`arrow_csv`).
 
     pyarrow's cast gives the same shortest digits; where it writes them positionally Python does
     too for 1e-4 <= |x| < 1e16 (``.0`` added to whole numbers); the rest (exponent forms, where the
-    two choose differently) is formatted by numpy, whose float text is Python's.
+    two choose differently) is rewritten from pyarrow's text or formatted by numpy, whose float
+    text is Python's. A column of few distinct values (bit for bit) is formatted once per value.
     """
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    if not pa.types.is_float32(arr.type):
-        arr = arr.cast(pa.float64())
+    if not (pa.types.is_float32(col.type) or pa.types.is_float64(col.type)):
+        col = col.cast(pa.float64())
+    n = len(col)
+    if n >= 64:
+        x = np.asarray(pc.fill_null(col, 0.0).to_numpy(zero_copy_only=False))
+        bits = _float_bits(x)
+        sample = bits[::max(1, n // 4096)]
+        if len(np.unique(sample)) <= 0.9 * len(sample):       # worth counting them all
+            valid = None if col.null_count == 0 else \
+                np.asarray(col.is_valid().to_numpy(zero_copy_only=False))
+            coded = pc.dictionary_encode(pa.array(bits, mask=None if valid is None else ~valid))
+            if len(coded.dictionary) <= _CSV_FEW * n:
+                values = coded.dictionary.to_numpy(zero_copy_only=False).view(x.dtype)
+                return coded.indices, _gathered(_csv_float_each(pa.array(values)))
+    return col, _csv_float_each
+
+
+def _csv_plan(col):
+    """How to format a column (arrow array or chunked array): ``(source, formatter)``, the cells
+    of rows ``i:j`` being ``formatter(source[i:j])`` (a plain array). Few-valued columns are
+    formatted here once per distinct value, their source being the index of each row's text."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    kind = _csv_kind(col.type)
+    if kind == "text":
+        return _text_plan(col)
+    if kind == "float":
+        return _float_plan(col)
+    if kind == "bool":
+        return col, lambda a: pc.if_else(a, "True", "False")
+    return col, lambda a: pc.cast(a, pa.string())
+
+
+def _csv_cells(arr):
+    """The CSV cells of one arrow array (nulls stay null)."""
+    source, formatter = _csv_plan(arr)
+    return formatter(source)
+
+
+def _csv_float_each(arr):
+    """:func:`_float_plan`'s text value by value: ``arr`` a float32 or float64 arrow array."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
     # single precision keeps its own shortest digits (float32 -> string is shortest for float32;
     # numpy's str of a float32 likewise), not those of the double it equals
     s = pc.cast(arr, pa.string())
     x = np.asarray(pc.fill_null(arr, 0.0).to_numpy(zero_copy_only=False))
     with np.errstate(invalid="ignore"):
         ax = np.abs(x)
-        positional = ((ax >= 1e-4) & (ax < 1e16)) | (x == 0) | ~np.isfinite(x)
-    positional &= ~np.asarray(pc.match_substring(pc.fill_null(s, ""), "e").to_numpy(zero_copy_only=False))
-    whole = pc.invert(pc.match_substring_regex(s, "[.n]"))          # "30640" -> "30640.0"
-    s = pc.if_else(whole, pc.binary_join_element_wise(s, ".0", ""), s)
+        finite = np.isfinite(x)
+        positional = ((ax >= 1e-4) & (ax < 1e16)) | (x == 0) | ~finite
+        positional[_rows_holding(s, ord("e"))] = False         # pyarrow's own exponent forms
+        # pyarrow's positional text of a whole number has no decimal point ("30640" -> "30640.0");
+        # that of any other number has one (below 2**52 a whole text reads back as a whole number)
+        whole = positional & finite & (x == np.trunc(x))
+    if whole.any():
+        picked = pa.array(whole)
+        s = pc.replace_with_mask(s, picked, pc.binary_join_element_wise(pc.filter(s, picked), ".0", ""))
     if not positional.all():
         other = ~positional
-        mask = pa.array(other & ~np.asarray(arr.is_null().to_numpy(zero_copy_only=False)))
-        vals = x[np.asarray(mask.to_numpy(zero_copy_only=False))]
-        if x.dtype == np.float32:   # numpy's str of a float32 has rules of its own: Python's style
-            text = np.array([single_text(v) for v in vals], dtype=object)
-        else:
-            text = vals.astype(str).astype(object)
-        s = pc.replace_with_mask(s, mask, pa.array(text, type=pa.string()))
+        if arr.null_count:
+            other &= np.asarray(arr.is_valid().to_numpy(zero_copy_only=False))
+        picked = pa.array(other)
+        # Python's exponent form (|x| < 1e-4 or >= 1e16) rewritten from pyarrow's text of the same
+        # shortest digits; any other text (an exponent form of pyarrow's where Python writes the
+        # number positionally, or a layout not foreseen) formatted value by value
+        text, done = _exponent_layout(pc.filter(s, picked))
+        with np.errstate(invalid="ignore"):
+            done &= ~((ax[other] >= 1e-4) & (ax[other] < 1e16))
+        if not done.all():
+            text = pc.replace_with_mask(text, pa.array(~done), _float_text_each(x[other][~done]))
+        s = pc.replace_with_mask(s, picked, text)
     return s
+
+
+def _float_text_each(vals):
+    """Python's text of each float in ``vals`` (single precision with its own shortest digits)."""
+    import pyarrow as pa
+
+    if vals.dtype == np.float32:   # numpy's str of a float32 has rules of its own: Python's style
+        text = np.array([single_text(v) for v in vals], dtype=object)
+    else:
+        text = vals.astype(str).astype(object)
+    return pa.array(text, type=pa.string())
+
+
+#: pyarrow writes an exponent of one digit as is (``1e-7``), Python with a leading zero (``1e-07``);
+#: the replacement is group 1, a zero, group 2 (RE2 reads one digit after a backslash).
+_EXPONENT_ONE_DIGIT = (r"^(-?[0-9](?:\.[0-9]+)?e[+-])([0-9])$", r"\10\2")
+#: Python's exponent form of a finite, non-zero number.
+_PYTHON_EXPONENT = r"^-?[1-9](?:\.[0-9]*[1-9])?e[+-][0-9][0-9]+$"
+
+
+def _exponent_layout(text):
+    """pyarrow's shortest text of numbers laid out as Python's exponent form: ``(texts, ok)``,
+    ``ok`` False where the result is not of that form (those are to be formatted otherwise).
+
+    pyarrow writes 1e-6 <= |x| < 1e-4 positionally (``0.000031`` -> ``3.1e-05``; rewritten for
+    up to eight zeros after the point, in case) and one-digit exponents without a leading zero.
+    """
+    import pyarrow.compute as pc
+
+    text = pc.replace_substring_regex(text, *_EXPONENT_ONE_DIGIT)
+    for zeros in range(4, 9):
+        text = pc.replace_substring_regex(text, rf"^(-?)0\.0{{{zeros}}}([1-9])([0-9]*)$",
+                                          rf"\1\2.\3e-{zeros + 1:02d}")
+    text = pc.replace_substring(text, ".e", "e")
+    ok = pc.fill_null(pc.match_substring_regex(text, _PYTHON_EXPONENT), False)
+    return text, np.asarray(ok.to_numpy(zero_copy_only=False))
 
 
 def single_text(v) -> str:
@@ -340,22 +502,6 @@ def single_text(v) -> str:
     if v == 0 or 1e-4 <= abs(v) < 1e16:
         return np.format_float_positional(v, unique=True, trim="0")
     return np.format_float_scientific(v, unique=True, trim="-", exp_digits=2)
-
-
-def _csv_cells(arr):
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    kind = _csv_kind(arr.type)
-    if kind == "text":
-        if pa.types.is_dictionary(arr.type):
-            arr = arr.cast(arr.type.value_type)
-        return _csv_quote(arr.cast(pa.string()) if pa.types.is_large_string(arr.type) else arr)
-    if kind == "float":
-        return _csv_float(arr)
-    if kind == "bool":
-        return pc.if_else(arr, "True", "False")
-    return pc.cast(arr, pa.string())
 
 
 def _csv_name(name: str, single: bool) -> str:
@@ -392,9 +538,12 @@ def arrow_csv(data, header: bool = True) -> bytes:
         return head
     # formatted CSV_SLICE_ROWS rows at a time: the per-column cell texts and their joins of a whole
     # chunk held at once cost ~5x the chunk's text in memory (~250 MB per 100 000 rows of our output)
+    # columns of few distinct values are formatted once for the whole table, then gathered slice
+    # by slice (their plans hold a 4-byte index per row and the texts of the distinct values)
+    plans = [_csv_plan(data.column(name)) for name in names]
     pieces = [head]
     for start in range(0, data.num_rows, CSV_SLICE_ROWS):
-        pieces.append(_csv_rows(data.slice(start, CSV_SLICE_ROWS), single))
+        pieces.append(_csv_rows(plans, start, single))
     return b"".join(pieces)
 
 
@@ -402,31 +551,39 @@ def arrow_csv(data, header: bool = True) -> bytes:
 CSV_SLICE_ROWS = 16384
 
 
-def _csv_rows(data, single: bool) -> bytes:
-    """The CSV lines (no header) of a pyarrow Table, each ending with a line end."""
+def _csv_rows(plans, start: int, single: bool):
+    """The CSV lines (no header) of rows ``start:start + CSV_SLICE_ROWS`` of the columns planned
+    by :func:`_csv_plan`, each ending with a line end (bytes-like)."""
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    big = pa.large_string()
     cols = []
-    for name in data.schema.names:
-        col = data.column(name)
-        col = col.combine_chunks() if col.num_chunks != 1 else col.chunk(0)
-        cells = pc.fill_null(_csv_cells(col), '""' if single else "")
+    size = 0
+    for source, formatter in plans:
+        part = source.slice(start, CSV_SLICE_ROWS)
+        if isinstance(part, pa.ChunkedArray):
+            part = part.combine_chunks() if part.num_chunks != 1 else part.chunk(0)
+        cells = pc.fill_null(formatter(part), '""' if single else "")
         if single:
             cells = pc.if_else(pc.equal(cells, ""), '""', cells)
-        cols.append(cells.cast(big))
+        offsets, _ = _text_bytes(cells)
+        size += int(offsets[-1] - offsets[0]) + len(cells)
+        cols.append(cells)
+    # 32-bit offsets while the slice's text (cells, commas, line ends) stays below 2 GiB
+    kind = pa.string() if size < 2**31 - 1 else pa.large_string()
+    if kind != pa.string():
+        cols = [c.cast(kind) for c in cols]
     # each row followed by a line end: appended to the last column's cells (the smaller join)
-    cols[-1] = pc.binary_join_element_wise(cols[-1], pa.scalar("", big), pa.scalar("\n", big))
-    rows = cols[0] if single else pc.binary_join_element_wise(*cols, pa.scalar(",", big))
+    cols[-1] = pc.binary_join_element_wise(cols[-1], pa.scalar("", kind), pa.scalar("\n", kind))
+    rows = cols[0] if single else pc.binary_join_element_wise(*cols, pa.scalar(",", kind))
     del cols
     if isinstance(rows, pa.ChunkedArray):
         rows = rows.combine_chunks()
-    offsets = np.frombuffer(rows.buffers()[1], dtype=np.int64)[rows.offset:rows.offset + len(rows) + 1]
+    offsets, _ = _text_bytes(rows)
     body = rows.buffers()[2]
     if body is None:
         return b""
-    return body.slice(int(offsets[0]), int(offsets[-1] - offsets[0])).to_pybytes()
+    return body.slice(int(offsets[0]), int(offsets[-1] - offsets[0]))
 
 
 #: Largest pyarrow CSV block we try (bytes): a single row must fit in one block.
