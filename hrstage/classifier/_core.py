@@ -655,28 +655,30 @@ _KERNEL_LUT, _KERNEL_SLOTS = _PACKS[0], _PACKED[_PACK_SLOTS[0]]
 _KERNEL_EXTRA = tuple(int(c) for c in _PACKED[len(_PACK_SLOTS[0]):])
 
 
+def _draw_buffers(rows, k, code_dtype):
+    """Work arrays of a drawing pass, allocated once per call (fresh large temporaries per pass
+    cost page faults): x, y, t (float32), i, j (int32), the drawn codes, the packed words
+    (``rows x k``) and one uint64 sum per star."""
+    f32 = np.float32
+    return (np.empty((rows, k), f32), np.empty((rows, k), f32), np.empty((rows, k), f32),
+            np.empty((rows, k), np.int32), np.empty((rows, k), np.int32), np.empty((rows, k), code_dtype),
+            np.empty((rows, k), np.uint64), np.empty(rows, np.uint64))
+
+
 def _draw_kernel(lk, acc, extra, rows, ops, z1, z2, chunk):
     """Draws z1, z2 (float32, at most 255) of the stars ``rows``, ``ops`` their float32 padded
     coordinates and scales (columns x, y, sx, sya, syb), all positions inside the raster (no clipping); the float32
     operations and their order are those of :func:`_draw_counts`. Adds the packed one-hot word of
     the first eight counted stages to ``acc[rows]`` and the counts of the other counted stages
     to ``extra[rows]`` (by comparison, only in the passes whose cells hold them)."""
-    f32 = np.float32
     w = np.int32(lk.width)
     flat = lk.flat
     xp, yp, sx, sya, syb = (ops[:, q] for q in range(5))
     k = len(z1)
     step = max(1, chunk // k)
     zz1, zz2 = z1[None, :], z2[None, :]
-    bx = np.empty((step, k), f32)
-    by = np.empty((step, k), f32)
-    bt = np.empty((step, k), f32)
-    bi = np.empty((step, k), np.int32)
-    bj = np.empty((step, k), np.int32)
-    bc = np.empty((step, k), flat.dtype)
+    bx, by, bt, bi, bj, bc, bp, sums = _draw_buffers(step, k, flat.dtype)
     bci = np.empty((step, k), np.intp)
-    bp = np.empty((step, k), np.uint64)
-    sums = np.empty(step, np.uint64)
     for s in range(0, len(rows), step):
         e = min(len(rows), s + step)
         m = e - s
@@ -722,14 +724,7 @@ def _draw_counts(lk, counts, todo, xc, yc, sx, sya, syb, z1, z2, chunk, clip):
     nb = min(d, _PACK_MAX)
     npk = len(_PACKED)
     field = np.uint64(_PACK_MAX)
-    bx = np.empty((rows, nb), f32)
-    by = np.empty((rows, nb), f32)
-    bt = np.empty((rows, nb), f32)
-    bi = np.empty((rows, nb), np.int32)
-    bj = np.empty((rows, nb), np.int32)
-    bc = np.empty((rows, nb), flat.dtype)
-    bp = np.empty((rows, nb), np.uint64)
-    acc = np.empty(rows, np.uint64)
+    bx, by, bt, bi, bj, bc, bp, acc = _draw_buffers(rows, nb, flat.dtype)
     for s in range(0, len(todo), rows):
         e = min(len(todo), s + rows)
         m = e - s
