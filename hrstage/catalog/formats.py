@@ -415,12 +415,6 @@ def _csv_plan(col):
     return col, lambda a: pc.cast(a, pa.string())
 
 
-def _csv_cells(arr):
-    """The CSV cells of one arrow array (nulls stay null)."""
-    source, formatter = _csv_plan(arr)
-    return formatter(source)
-
-
 def _csv_float_each(arr):
     """:func:`_float_plan`'s text value by value: ``arr`` a float32 or float64 arrow array."""
     import pyarrow as pa

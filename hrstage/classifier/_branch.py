@@ -399,14 +399,14 @@ def _cell_tables(grids, route):
     return cache[route]
 
 
-def _evaluate(grids, route, x, logt, sx, st, chunk=512, span=None):
+def _evaluate(grids, route, x, logt, sx, st, chunk=512):
     """Evidence per hypothesis, mass mean / sd per hypothesis, early-AGB share, for positions ``x``.
 
     The locus of each mass is interpolated linearly in ``x`` between grid points (a point missing on
     one side: the other side's), with its weight; the slope is that of the lower grid point. Stars
-    are taken in order of ``x`` in blocks (at most ``chunk`` stars over at most ``span`` grid
-    cells); a block's stars sit in few grid cells, whose tabulated loci are repeated over the stars
-    of each cell (no per-star lookup), and only the loci with weight in those cells are evaluated.
+    are taken in order of ``x`` in blocks of ``chunk``; a block's stars sit in few grid cells, whose
+    tabulated loci are repeated over the stars of each cell (no per-star lookup), and only the loci
+    with weight in those cells are evaluated.
     The result of a star never depends on the others.
     """
     n = len(x)
@@ -422,14 +422,9 @@ def _evaluate(grids, route, x, logt, sx, st, chunk=512, span=None):
     sxr_all = np.sqrt(sx**2 + SIGMA_X_INT**2)
     pos_s = pos_all[idx]
     cell_s = pos_s.astype(np.intp)
-    a = 0
-    while a < len(idx):
-        b = a + chunk
-        if span is not None:
-            b = min(b, int(np.searchsorted(cell_s, cell_s[a] + span)))
-        rows, i = idx[a:b], cell_s[a:b]
-        fr = pos_s[a:b] - i
-        a = b
+    for a in range(0, len(idx), chunk):
+        rows, i = idx[a:a + chunk], cell_s[a:a + chunk]
+        fr = pos_s[a:a + chunk] - i
         lo_c, hi_c = int(i[0]), int(i[-1]) + 1
         counts = None if hi_c - lo_c == 1 else np.bincount(i - lo_c, minlength=hi_c - lo_c)
         star = (s2obs_all[rows], sxr_all[rows], logt[rows])
