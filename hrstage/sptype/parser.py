@@ -344,7 +344,8 @@ _P_SLASHWR = _R(r"/(?=W[NCO])")
 _WD = _R(r"D([ABOQZCXFGK]+)(\d+(?:\.\d+)?|\.\d)?((?:P|H|E|V|X|d|pec)*)(::|:|\?)?")
 #: the Wolf-Rayet line qualifiers read on the type itself (group 4 of :data:`_WR`)
 _WR_SUFFIXES = ("ha", "(h)", "h", "b", "w", "s", "d", "pec", "+abs")
-_WR = _R(r"W([NCOR])(\d+(?:\.\d)?)?(?:[-/](\d+))?((?:ha|\(h\)|h|b|w|s|d|pec|\+abs)*)(?:-([AB]))?(::|:|\?)?")
+_WR_QUALIFIER = "|".join(re.escape(q) for q in _WR_SUFFIXES)   # longest first where one starts another
+_WR = _R(r"W([NCOR])(\d+(?:\.\d)?)?(?:[-/](\d+))?((?:" + _WR_QUALIFIER + r")*)(?:-([AB]))?(::|:|\?)?")
 _CARBON = _R(r"C(?:-(Hd|R|N|J|H))?(\d(?:\.\d)?)?([+-](?![\d]))?(?:,(\d)([+-])?)?")
 _HARVARD_C = _R(r"([RN])(\d)?(?![a-zA-Z]{2,}\d)")
 _STYPE = _R(r"(SC|MS|S)(\d(?:\.\d)?)([+-])?(?:([/,])(\d+(?:\.\d)?)([+-])?)?")
@@ -773,7 +774,7 @@ def _parse_wr(sc: _Scan, c: _Comp) -> bool:
         c.subtype = float(m.group(2))
     if m.group(3):
         c.indices["wr_range_to"] = float(m.group(3))
-    for tok in re.findall(r"ha|\(h\)|h|b|w|s|d|pec|\+abs", m.group(4) or ""):
+    for tok in re.findall(_WR_QUALIFIER, m.group(4) or ""):
         c.pecs.append(tok)
     if m.group(5):
         c.indices["line_group"] = m.group(5)
